@@ -1,0 +1,122 @@
+//! A standalone line case: one structure described by its own dimensions rather than by a stackup. This is what
+//! `ohmstack calc`, `ohmstack solve` and `ohmstack batch` read, with lengths as text with units (`0.3mm`, `5mil`)
+//! or as plain numbers in metres.
+
+use crate::cross_section::{Cover, CrossSection, Medium};
+use crate::error::{self, Error, Result};
+use crate::models::{self, Dims, Evaluated};
+use crate::project::Structure;
+use crate::synth::{self, Bracket};
+use crate::units::{parse_length, parse_number, MAX_LENGTH_M};
+use std::collections::BTreeMap;
+
+/// The structure names a case may use, with what each one is.
+pub const KINDS: &[(&str, &str)] = &[
+    ("microstrip", "surface microstrip: --width --height --thickness --dk"),
+    ("coated-microstrip", "microstrip under solder mask: + --mask-thickness --mask-dk"),
+    ("embedded-microstrip", "microstrip under more dielectric: + --cover (height above trace) --cover-dk"),
+    ("stripline", "between two planes: --width --height (below) [--height2 (above)] --thickness --dk"),
+];
+
+/// A parsed case: the cross-section and structure the models see, plus the given dimensions.
+#[derive(Debug, Clone, PartialEq)]
+pub struct LineCase {
+    pub kind: String,
+    pub cross_section: CrossSection,
+    pub structure: Structure,
+    pub dims: Dims,
+}
+
+/// Reads the named fields of a case. Every value is text (a number with an optional unit).
+pub fn parse(kind: &str, fields: &BTreeMap<String, String>) -> Result<LineCase> {
+    let known: &[&str] = match kind {
+        "microstrip" => &["width", "height", "thickness", "dk"],
+        "coated-microstrip" => &["width", "height", "thickness", "dk", "mask-thickness", "mask-dk"],
+        "embedded-microstrip" => &["width", "height", "thickness", "dk", "cover", "cover-dk"],
+        "stripline" => &["width", "height", "height2", "thickness", "dk"],
+        _ => {
+            let names: Vec<&str> = KINDS.iter().map(|k| k.0).collect();
+            return Err(Error::Invalid {
+                field: "structure".into(),
+                reason: format!("unknown structure {kind:?}; known: {}", names.join(", ")),
+            });
+        }
+    };
+    if let Some(extra) = fields.keys().find(|k| !known.contains(&k.as_str()) && k.as_str() != "target") {
+        return Err(Error::Invalid {
+            field: extra.clone(),
+            reason: format!("not a field of {kind}; its fields are {}", known.join(", ")),
+        });
+    }
+    let length = |name: &str| -> Result<f64> {
+        let text = fields
+            .get(name)
+            .ok_or_else(|| Error::Invalid { field: name.into(), reason: "missing".into() })?;
+        parse_length(name, text)
+    };
+    let optional_length = |name: &str, default: f64| -> Result<f64> {
+        match fields.get(name) {
+            Some(text) => parse_length(name, text),
+            None => Ok(default),
+        }
+    };
+    let number = |name: &str| -> Result<f64> {
+        let text = fields
+            .get(name)
+            .ok_or_else(|| Error::Invalid { field: name.into(), reason: "missing".into() })?;
+        parse_number(name, text, &[])
+    };
+    let t = optional_length("thickness", 0.0)?;
+    error::length_or_zero("thickness", t)?;
+    let w = length("width")?;
+    let h = error::length("height", length("height")?)?;
+    let er = error::permittivity("dk", number("dk")?)?;
+    let medium = match kind {
+        "microstrip" => Medium::Microstrip { h, er, cover: Cover::Air },
+        "coated-microstrip" => Medium::Microstrip {
+            h,
+            er,
+            cover: Cover::Mask {
+                thickness_m: error::length("mask-thickness", length("mask-thickness")?)?,
+                er: error::permittivity("mask-dk", number("mask-dk")?)?,
+            },
+        },
+        "embedded-microstrip" => Medium::Microstrip {
+            h,
+            er,
+            cover: Cover::Dielectric {
+                thickness_m: error::length("cover", length("cover")?)?,
+                er: error::permittivity("cover-dk", number("cover-dk")?)?,
+            },
+        },
+        _ => {
+            let h2 = error::length("height2", optional_length("height2", h)?)?;
+            Medium::Stripline { h_below: h, h_above: h2, er, dual: false }
+        }
+    };
+    let structure = Structure::Single;
+    Ok(LineCase {
+        kind: kind.to_string(),
+        cross_section: CrossSection { medium, t, references: Vec::new(), warnings: Vec::new() },
+        structure,
+        dims: Dims { w, s: None, gap: None },
+    })
+}
+
+impl LineCase {
+    /// Analyses the case as given.
+    pub fn analyze(&self) -> Result<Evaluated> {
+        models::evaluate(&self.cross_section, self.structure, &self.dims)
+    }
+
+    /// Solves the width for `target` Ω, searching from 1 µm to 100 × the structure height, and returns the case
+    /// with that width.
+    pub fn solve_width(&self, target: f64) -> Result<LineCase> {
+        let hi = (100.0 * self.cross_section.scale_height()).min(MAX_LENGTH_M);
+        let bracket = Bracket { lo: 1e-6, hi, lo_reason: "the narrowest width searched (1 µm)", hi_reason: "the widest width searched (100 × height)" };
+        let w = synth::solve("width", target, &bracket, |w| {
+            models::evaluate(&self.cross_section, self.structure, &Dims { w, ..self.dims }).map(|e| e.analysis.controlled())
+        })?;
+        Ok(LineCase { dims: Dims { w, ..self.dims }, ..self.clone() })
+    }
+}

@@ -1,0 +1,74 @@
+//! Dispatch from a resolved cross-section and a rule's structure to the family module that models it.
+//! This is the one place that knows which published method serves which geometry.
+
+use crate::cross_section::{Cover, CrossSection, Medium};
+use crate::error::{Error, Result};
+use crate::lines::{CoupledPair, SingleLine};
+use crate::microstrip::Microstrip;
+use crate::project::Structure;
+use crate::validity::Warning;
+use serde::Serialize;
+
+/// The free dimensions of a rule's traces, m.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Dims {
+    pub w: f64,
+    pub s: Option<f64>,
+    pub gap: Option<f64>,
+}
+
+/// The outcome of one model evaluation.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+#[serde(tag = "modes", rename_all = "snake_case")]
+pub enum Analysis {
+    Single(SingleLine),
+    Pair(CoupledPair),
+}
+
+impl Analysis {
+    /// The controlled impedance: Z0 for a single line, Zdiff for a pair.
+    pub fn controlled(&self) -> f64 {
+        match self {
+            Analysis::Single(s) => s.z0,
+            Analysis::Pair(p) => p.z_diff(),
+        }
+    }
+    pub fn warnings(&self) -> &[Warning] {
+        match self {
+            Analysis::Single(s) => &s.warnings,
+            Analysis::Pair(p) => &p.warnings,
+        }
+    }
+    pub fn warnings_mut(&mut self) -> &mut Vec<Warning> {
+        match self {
+            Analysis::Single(s) => &mut s.warnings,
+            Analysis::Pair(p) => &mut p.warnings,
+        }
+    }
+}
+
+/// A model evaluation plus the name of the method used.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Evaluated {
+    pub analysis: Analysis,
+    pub method: &'static str,
+}
+
+fn unsupported(what: &str) -> Error {
+    Error::Invalid { field: "structure".into(), reason: format!("{what} is not available yet") }
+}
+
+/// Evaluates the structure `structure` on cross-section `cs` with dimensions `dims`.
+pub fn evaluate(cs: &CrossSection, structure: Structure, dims: &Dims) -> Result<Evaluated> {
+    match (structure, cs.medium) {
+        (Structure::Single, Medium::Microstrip { h, er, cover }) => {
+            let line = Microstrip { w: dims.w, h, t: cs.t, er };
+            let mut analysis = line.analyze()?;
+            if cover != Cover::Air {
+                analysis.warnings.push(Warning::new("covering dielectric not modelled yet: computed as surface microstrip"));
+            }
+            Ok(Evaluated { analysis: Analysis::Single(analysis), method: "Hammerstad–Jensen 1980" })
+        }
+        (s, _) => Err(unsupported(&format!("{} on {}", s.label(), cs.family()))),
+    }
+}

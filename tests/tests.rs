@@ -1,0 +1,3 @@
+//! Workspace integration tests: exact analytic references and regressions, against the public core API.
+
+mod closed_form;
