@@ -80,7 +80,9 @@ fn flags(args: &[String]) -> Result<(BTreeMap<String, String>, bool, Vec<String>
                 Some((k, v)) => (k.to_string(), v.to_string()),
                 None => {
                     i += 1;
-                    let v = args.get(i).ok_or_else(|| anyhow!("--{key}: missing value"))?;
+                    let v = args
+                        .get(i)
+                        .ok_or_else(|| anyhow!("--{key}: missing value"))?;
                     (key.to_string(), v.clone())
                 }
             };
@@ -98,7 +100,10 @@ fn flags(args: &[String]) -> Result<(BTreeMap<String, String>, bool, Vec<String>
 fn read_input(path: &str) -> Result<String> {
     let mut text = String::new();
     if path == "-" {
-        std::io::stdin().take(8 << 20).read_to_string(&mut text).context("reading stdin")?;
+        std::io::stdin()
+            .take(8 << 20)
+            .read_to_string(&mut text)
+            .context("reading stdin")?;
     } else {
         text = std::fs::read_to_string(path).with_context(|| format!("reading {path}"))?;
     }
@@ -110,7 +115,9 @@ fn analyze(args: &[String]) -> Result<()> {
     if let Some(k) = map.keys().next() {
         bail!("--{k}: not an option of analyze");
     }
-    let [path] = positional.as_slice() else { bail!("analyze takes one FILE (or - for stdin)") };
+    let [path] = positional.as_slice() else {
+        bail!("analyze takes one FILE (or - for stdin)")
+    };
     let project = Project::from_json(&read_input(path)?)?;
     let plan = ohmstack_core::plan(&project)?;
     if json {
@@ -118,21 +125,52 @@ fn analyze(args: &[String]) -> Result<()> {
         return Ok(());
     }
     let unit = project.units;
-    println!("{} — board {} , {} copper layers{}", plan.title, format_length(plan.total_thickness_m, unit),
-        plan.copper_count, if plan.symmetric { "" } else { ", NOT symmetric (warpage risk)" });
+    println!(
+        "{} — board {} , {} copper layers{}",
+        plan.title,
+        format_length(plan.total_thickness_m, unit),
+        plan.copper_count,
+        if plan.symmetric {
+            ""
+        } else {
+            ", NOT symmetric (warpage risk)"
+        }
+    );
     println!();
-    println!("{:<28} {:<10} {:<28} {:>12} {:>12} {:>9} {:>8} {:>7} {:>9}", "rule", "layer", "structure", "width",
-        "spacing", "Z (Ω)", "target", "Dk eff", "ps/mm");
+    println!(
+        "{:<28} {:<10} {:<28} {:>12} {:>12} {:>9} {:>8} {:>7} {:>9}",
+        "rule", "layer", "structure", "width", "spacing", "Z (Ω)", "target", "Dk eff", "ps/mm"
+    );
     for outcome in &plan.rules {
         match outcome {
             RuleOutcome::Ok(r) => {
-                println!("{:<28} {:<10} {:<28} {:>12} {:>12} {:>9} {:>8} {:>7} {:>9}{}", r.name, r.layer,
-                    format!("{} {}", r.family, if r.structure == "single-ended" { "" } else { r.structure }),
+                println!(
+                    "{:<28} {:<10} {:<28} {:>12} {:>12} {:>9} {:>8} {:>7} {:>9}{}",
+                    r.name,
+                    r.layer,
+                    format!(
+                        "{} {}",
+                        r.family,
+                        if r.structure == "single-ended" {
+                            ""
+                        } else {
+                            r.structure
+                        }
+                    ),
                     format_length(r.width_m, unit),
-                    r.spacing_m.map(|s| format_length(s, unit)).unwrap_or_else(|| "-".into()),
-                    format!("{:.2}", r.impedance_ohm), format!("{:.1}", r.target_ohm),
-                    format!("{:.3}", r.eps_eff), format!("{:.3}", r.delay_s_per_m * 1e9),
-                    if r.within_tolerance { "" } else { "  OUT OF TOLERANCE" });
+                    r.spacing_m
+                        .map(|s| format_length(s, unit))
+                        .unwrap_or_else(|| "-".into()),
+                    format!("{:.2}", r.impedance_ohm),
+                    format!("{:.1}", r.target_ohm),
+                    format!("{:.3}", r.eps_eff),
+                    format!("{:.3}", r.delay_s_per_m * 1e9),
+                    if r.within_tolerance {
+                        ""
+                    } else {
+                        "  OUT OF TOLERANCE"
+                    }
+                );
                 for w in &r.warnings {
                     println!("    note: {}", w.message);
                 }
@@ -172,7 +210,11 @@ fn evaluated_json(case: &LineCase, e: &Evaluated) -> Value {
     v
 }
 
-fn compute(kind: &str, mut map: BTreeMap<String, String>, solve: bool) -> Result<(LineCase, Evaluated)> {
+fn compute(
+    kind: &str,
+    mut map: BTreeMap<String, String>,
+    solve: bool,
+) -> Result<(LineCase, Evaluated)> {
     let target = map.remove("target");
     let mut case = if solve {
         // The width is what we solve for; a starting value is not needed.
@@ -182,7 +224,8 @@ fn compute(kind: &str, mut map: BTreeMap<String, String>, solve: bool) -> Result
         case::parse(kind, &map)?
     };
     if solve {
-        let target = target.ok_or_else(|| anyhow!("--target: missing (the impedance to solve for, in Ω)"))?;
+        let target = target
+            .ok_or_else(|| anyhow!("--target: missing (the impedance to solve for, in Ω)"))?;
         let target = ohmstack_core::units::parse_number("target", &target, &["ohm", "Ω"])?;
         ohmstack_core::error::in_range("target", target, 1.0, 1000.0, "Ω")?;
         case = case.solve_width(target)?;
@@ -195,10 +238,15 @@ fn compute(kind: &str, mut map: BTreeMap<String, String>, solve: bool) -> Result
 
 fn calc(args: &[String], solve: bool) -> Result<()> {
     let (map, json, positional) = flags(args)?;
-    let [kind] = positional.as_slice() else { bail!("give one structure KIND (see `ohmstack kinds`)") };
+    let [kind] = positional.as_slice() else {
+        bail!("give one structure KIND (see `ohmstack kinds`)")
+    };
     let (case, e) = compute(kind, map, solve)?;
     if json {
-        println!("{}", serde_json::to_string_pretty(&evaluated_json(&case, &e))?);
+        println!(
+            "{}",
+            serde_json::to_string_pretty(&evaluated_json(&case, &e))?
+        );
         return Ok(());
     }
     let unit = LengthUnit::Um;
@@ -208,12 +256,19 @@ fn calc(args: &[String], solve: bool) -> Result<()> {
         Analysis::Single(s) => {
             println!("  Z0          {} Ω", format_sig(s.z0, 5));
             println!("  Dk eff      {}", format_sig(s.eps_eff, 5));
-            println!("  delay       {} ps/mm", format_sig(s.delay_per_m() * 1e9, 4));
+            println!(
+                "  delay       {} ps/mm",
+                format_sig(s.delay_per_m() * 1e9, 4)
+            );
         }
         Analysis::Pair(p) => {
             println!("  Zdiff       {} Ω", format_sig(p.z_diff(), 5));
             println!("  Zcommon     {} Ω", format_sig(p.z_common(), 5));
-            println!("  Zodd/Zeven  {} / {} Ω", format_sig(p.z_odd, 5), format_sig(p.z_even, 5));
+            println!(
+                "  Zodd/Zeven  {} / {} Ω",
+                format_sig(p.z_odd, 5),
+                format_sig(p.z_even, 5)
+            );
         }
     }
     for w in e.analysis.warnings() {
@@ -233,7 +288,8 @@ fn batch() -> Result<()> {
         if line.trim().is_empty() {
             continue;
         }
-        let result = batch_line(&line).unwrap_or_else(|e| json!({ "line": n + 1, "error": format!("{e:#}") }));
+        let result = batch_line(&line)
+            .unwrap_or_else(|e| json!({ "line": n + 1, "error": format!("{e:#}") }));
         serde_json::to_writer(&mut out, &result)?;
         out.write_all(b"\n")?;
     }
@@ -242,7 +298,9 @@ fn batch() -> Result<()> {
 
 fn batch_line(line: &str) -> Result<Value> {
     let value: Value = serde_json::from_str(line).context("not a JSON object")?;
-    let object = value.as_object().ok_or_else(|| anyhow!("not a JSON object"))?;
+    let object = value
+        .as_object()
+        .ok_or_else(|| anyhow!("not a JSON object"))?;
     let mut map = BTreeMap::new();
     let mut kind = None;
     for (k, v) in object {

@@ -12,7 +12,12 @@ fn ohmstack(args: &[&str], stdin: &str) -> (i32, String, String) {
         .stderr(Stdio::piped())
         .spawn()
         .expect("spawn ohmstack");
-    child.stdin.take().unwrap().write_all(stdin.as_bytes()).unwrap();
+    child
+        .stdin
+        .take()
+        .unwrap()
+        .write_all(stdin.as_bytes())
+        .unwrap();
     let out = child.wait_with_output().unwrap();
     (
         out.status.code().unwrap_or(-1),
@@ -38,19 +43,52 @@ fn demo_feeds_analyze() {
 #[test]
 fn calc_microstrip_matches_the_core() {
     let (code, out, err) = ohmstack(
-        &["calc", "microstrip", "--width", "0.3mm", "--height", "0.17mm", "--thickness", "35um", "--dk", "4.2", "--json"],
+        &[
+            "calc",
+            "microstrip",
+            "--width",
+            "0.3mm",
+            "--height",
+            "0.17mm",
+            "--thickness",
+            "35um",
+            "--dk",
+            "4.2",
+            "--json",
+        ],
         "",
     );
     assert_eq!(code, 0, "{err}");
     let v: serde_json::Value = serde_json::from_str(&out).unwrap();
-    let core = ohmstack_core::microstrip::Microstrip { w: 0.3e-3, h: 0.17e-3, t: 35e-6, er: 4.2 }.analyze().unwrap();
+    let core = ohmstack_core::microstrip::Microstrip {
+        w: 0.3e-3,
+        h: 0.17e-3,
+        t: 35e-6,
+        er: 4.2,
+    }
+    .analyze()
+    .unwrap();
     assert_eq!(v["z0_ohm"].as_f64().unwrap(), core.z0);
 }
 
 #[test]
 fn solve_then_calc_round_trips() {
-    let (code, out, err) =
-        ohmstack(&["solve", "microstrip", "--target", "50", "--height", "5mil", "--thickness", "1oz", "--dk", "4.0", "--json"], "");
+    let (code, out, err) = ohmstack(
+        &[
+            "solve",
+            "microstrip",
+            "--target",
+            "50",
+            "--height",
+            "5mil",
+            "--thickness",
+            "1oz",
+            "--dk",
+            "4.0",
+            "--json",
+        ],
+        "",
+    );
     assert_eq!(code, 0, "{err}");
     let v: serde_json::Value = serde_json::from_str(&out).unwrap();
     assert!((v["z0_ohm"].as_f64().unwrap() - 50.0).abs() < 1e-6);
@@ -59,25 +97,157 @@ fn solve_then_calc_round_trips() {
 #[test]
 fn bad_input_names_the_field_and_exits_nonzero() {
     let cases: &[(&[&str], &str)] = &[
-        (&["calc", "microstrip", "--width", "-1mm", "--height", "0.1mm", "--dk", "4"], "width"),
-        (&["calc", "microstrip", "--width", "0mm", "--height", "0.1mm", "--dk", "4"], "width"),
-        (&["calc", "microstrip", "--width", "NaN", "--height", "0.1mm", "--dk", "4"], "width"),
-        (&["calc", "microstrip", "--width", "1e9mm", "--height", "0.1mm", "--dk", "4"], "width"),
-        (&["calc", "microstrip", "--width", "abc", "--height", "0.1mm", "--dk", "4"], "width"),
-        (&["calc", "microstrip", "--width", "1mm", "--height", "0.1mm", "--dk", "inf"], "dk"),
-        (&["calc", "microstrip", "--width", "1mm", "--height", "0.1mm", "--dk", "0.2"], "dk"),
-        (&["calc", "microstrip", "--width", "1mm", "--dk", "4"], "height"),
-        (&["calc", "microstrip", "--width", "1mm", "--height", "1mm", "--dk", "4", "--colour", "red"], "colour"),
-        (&["solve", "microstrip", "--target", "-50", "--height", "1mm", "--dk", "4"], "target"),
-        (&["solve", "microstrip", "--target", "5000", "--height", "1mm", "--dk", "4"], "target"),
+        (
+            &[
+                "calc",
+                "microstrip",
+                "--width",
+                "-1mm",
+                "--height",
+                "0.1mm",
+                "--dk",
+                "4",
+            ],
+            "width",
+        ),
+        (
+            &[
+                "calc",
+                "microstrip",
+                "--width",
+                "0mm",
+                "--height",
+                "0.1mm",
+                "--dk",
+                "4",
+            ],
+            "width",
+        ),
+        (
+            &[
+                "calc",
+                "microstrip",
+                "--width",
+                "NaN",
+                "--height",
+                "0.1mm",
+                "--dk",
+                "4",
+            ],
+            "width",
+        ),
+        (
+            &[
+                "calc",
+                "microstrip",
+                "--width",
+                "1e9mm",
+                "--height",
+                "0.1mm",
+                "--dk",
+                "4",
+            ],
+            "width",
+        ),
+        (
+            &[
+                "calc",
+                "microstrip",
+                "--width",
+                "abc",
+                "--height",
+                "0.1mm",
+                "--dk",
+                "4",
+            ],
+            "width",
+        ),
+        (
+            &[
+                "calc",
+                "microstrip",
+                "--width",
+                "1mm",
+                "--height",
+                "0.1mm",
+                "--dk",
+                "inf",
+            ],
+            "dk",
+        ),
+        (
+            &[
+                "calc",
+                "microstrip",
+                "--width",
+                "1mm",
+                "--height",
+                "0.1mm",
+                "--dk",
+                "0.2",
+            ],
+            "dk",
+        ),
+        (
+            &["calc", "microstrip", "--width", "1mm", "--dk", "4"],
+            "height",
+        ),
+        (
+            &[
+                "calc",
+                "microstrip",
+                "--width",
+                "1mm",
+                "--height",
+                "1mm",
+                "--dk",
+                "4",
+                "--colour",
+                "red",
+            ],
+            "colour",
+        ),
+        (
+            &[
+                "solve",
+                "microstrip",
+                "--target",
+                "-50",
+                "--height",
+                "1mm",
+                "--dk",
+                "4",
+            ],
+            "target",
+        ),
+        (
+            &[
+                "solve",
+                "microstrip",
+                "--target",
+                "5000",
+                "--height",
+                "1mm",
+                "--dk",
+                "4",
+            ],
+            "target",
+        ),
         (&["calc", "waveguide", "--width", "1mm"], "structure"),
     ];
     for (args, field) in cases {
         let (code, out, err) = ohmstack(args, "");
         assert_ne!(code, 0, "{args:?} should fail: {out}");
         assert!(!err.contains("panicked"), "{args:?} panicked: {err}");
-        assert_eq!(err.lines().count(), 1, "{args:?}: one-line error expected: {err}");
-        assert!(err.contains(field), "{args:?}: error should name {field}: {err}");
+        assert_eq!(
+            err.lines().count(),
+            1,
+            "{args:?}: one-line error expected: {err}"
+        );
+        assert!(
+            err.contains(field),
+            "{args:?}: error should name {field}: {err}"
+        );
     }
 }
 
@@ -89,7 +259,10 @@ fn batch_reports_bad_lines_and_keeps_going() {
                  {\"structure\":\"microstrip\",\"target\":50,\"height\":\"0.17mm\",\"dk\":4.2}\n";
     let (code, out, err) = ohmstack(&["batch"], input);
     assert_eq!(code, 0, "{err}");
-    let lines: Vec<serde_json::Value> = out.lines().map(|l| serde_json::from_str(l).unwrap()).collect();
+    let lines: Vec<serde_json::Value> = out
+        .lines()
+        .map(|l| serde_json::from_str(l).unwrap())
+        .collect();
     assert_eq!(lines.len(), 4);
     assert!(lines[0]["z0_ohm"].as_f64().unwrap() > 0.0);
     assert!(lines[1]["error"].as_str().unwrap().contains("width"));

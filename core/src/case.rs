@@ -12,10 +12,22 @@ use std::collections::BTreeMap;
 
 /// The structure names a case may use, with what each one is.
 pub const KINDS: &[(&str, &str)] = &[
-    ("microstrip", "surface microstrip: --width --height --thickness --dk"),
-    ("coated-microstrip", "microstrip under solder mask: + --mask-thickness --mask-dk"),
-    ("embedded-microstrip", "microstrip under more dielectric: + --cover (height above trace) --cover-dk"),
-    ("stripline", "between two planes: --width --height (below) [--height2 (above)] --thickness --dk"),
+    (
+        "microstrip",
+        "surface microstrip: --width --height --thickness --dk",
+    ),
+    (
+        "coated-microstrip",
+        "microstrip under solder mask: + --mask-thickness --mask-dk",
+    ),
+    (
+        "embedded-microstrip",
+        "microstrip under more dielectric: + --cover (height above trace) --cover-dk",
+    ),
+    (
+        "stripline",
+        "between two planes: --width --height (below) [--height2 (above)] --thickness --dk",
+    ),
 ];
 
 /// A parsed case: the cross-section and structure the models see, plus the given dimensions.
@@ -31,7 +43,14 @@ pub struct LineCase {
 pub fn parse(kind: &str, fields: &BTreeMap<String, String>) -> Result<LineCase> {
     let known: &[&str] = match kind {
         "microstrip" => &["width", "height", "thickness", "dk"],
-        "coated-microstrip" => &["width", "height", "thickness", "dk", "mask-thickness", "mask-dk"],
+        "coated-microstrip" => &[
+            "width",
+            "height",
+            "thickness",
+            "dk",
+            "mask-thickness",
+            "mask-dk",
+        ],
         "embedded-microstrip" => &["width", "height", "thickness", "dk", "cover", "cover-dk"],
         "stripline" => &["width", "height", "height2", "thickness", "dk"],
         _ => {
@@ -42,16 +61,20 @@ pub fn parse(kind: &str, fields: &BTreeMap<String, String>) -> Result<LineCase> 
             });
         }
     };
-    if let Some(extra) = fields.keys().find(|k| !known.contains(&k.as_str()) && k.as_str() != "target") {
+    if let Some(extra) = fields
+        .keys()
+        .find(|k| !known.contains(&k.as_str()) && k.as_str() != "target")
+    {
         return Err(Error::Invalid {
             field: extra.clone(),
             reason: format!("not a field of {kind}; its fields are {}", known.join(", ")),
         });
     }
     let length = |name: &str| -> Result<f64> {
-        let text = fields
-            .get(name)
-            .ok_or_else(|| Error::Invalid { field: name.into(), reason: "missing".into() })?;
+        let text = fields.get(name).ok_or_else(|| Error::Invalid {
+            field: name.into(),
+            reason: "missing".into(),
+        })?;
         parse_length(name, text)
     };
     let optional_length = |name: &str, default: f64| -> Result<f64> {
@@ -61,9 +84,10 @@ pub fn parse(kind: &str, fields: &BTreeMap<String, String>) -> Result<LineCase> 
         }
     };
     let number = |name: &str| -> Result<f64> {
-        let text = fields
-            .get(name)
-            .ok_or_else(|| Error::Invalid { field: name.into(), reason: "missing".into() })?;
+        let text = fields.get(name).ok_or_else(|| Error::Invalid {
+            field: name.into(),
+            reason: "missing".into(),
+        })?;
         parse_number(name, text, &[])
     };
     let t = optional_length("thickness", 0.0)?;
@@ -72,7 +96,11 @@ pub fn parse(kind: &str, fields: &BTreeMap<String, String>) -> Result<LineCase> 
     let h = error::length("height", length("height")?)?;
     let er = error::permittivity("dk", number("dk")?)?;
     let medium = match kind {
-        "microstrip" => Medium::Microstrip { h, er, cover: Cover::Air },
+        "microstrip" => Medium::Microstrip {
+            h,
+            er,
+            cover: Cover::Air,
+        },
         "coated-microstrip" => Medium::Microstrip {
             h,
             er,
@@ -91,15 +119,29 @@ pub fn parse(kind: &str, fields: &BTreeMap<String, String>) -> Result<LineCase> 
         },
         _ => {
             let h2 = error::length("height2", optional_length("height2", h)?)?;
-            Medium::Stripline { h_below: h, h_above: h2, er, dual: false }
+            Medium::Stripline {
+                h_below: h,
+                h_above: h2,
+                er,
+                dual: false,
+            }
         }
     };
     let structure = Structure::Single;
     Ok(LineCase {
         kind: kind.to_string(),
-        cross_section: CrossSection { medium, t, references: Vec::new(), warnings: Vec::new() },
+        cross_section: CrossSection {
+            medium,
+            t,
+            references: Vec::new(),
+            warnings: Vec::new(),
+        },
         structure,
-        dims: Dims { w, s: None, gap: None },
+        dims: Dims {
+            w,
+            s: None,
+            gap: None,
+        },
     })
 }
 
@@ -113,10 +155,23 @@ impl LineCase {
     /// with that width.
     pub fn solve_width(&self, target: f64) -> Result<LineCase> {
         let hi = (100.0 * self.cross_section.scale_height()).min(MAX_LENGTH_M);
-        let bracket = Bracket { lo: 1e-6, hi, lo_reason: "the narrowest width searched (1 µm)", hi_reason: "the widest width searched (100 × height)" };
+        let bracket = Bracket {
+            lo: 1e-6,
+            hi,
+            lo_reason: "the narrowest width searched (1 µm)",
+            hi_reason: "the widest width searched (100 × height)",
+        };
         let w = synth::solve("width", target, &bracket, |w| {
-            models::evaluate(&self.cross_section, self.structure, &Dims { w, ..self.dims }).map(|e| e.analysis.controlled())
+            models::evaluate(
+                &self.cross_section,
+                self.structure,
+                &Dims { w, ..self.dims },
+            )
+            .map(|e| e.analysis.controlled())
         })?;
-        Ok(LineCase { dims: Dims { w, ..self.dims }, ..self.clone() })
+        Ok(LineCase {
+            dims: Dims { w, ..self.dims },
+            ..self.clone()
+        })
     }
 }

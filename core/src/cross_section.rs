@@ -16,9 +16,15 @@ use serde::Serialize;
 pub enum Cover {
     Air,
     /// Solder mask of the given thickness over the trace and the substrate.
-    Mask { thickness_m: f64, er: f64 },
+    Mask {
+        thickness_m: f64,
+        er: f64,
+    },
     /// Further dielectric (prepreg/core) of the given height above the trace, then air.
-    Dielectric { thickness_m: f64, er: f64 },
+    Dielectric {
+        thickness_m: f64,
+        er: f64,
+    },
 }
 
 /// The dielectric surroundings of the trace(s).
@@ -27,7 +33,9 @@ pub enum Cover {
 pub enum Medium {
     /// One plane: `h` is the dielectric height from the plane to the trace, `er` its Dk.
     Microstrip { h: f64, er: f64, cover: Cover },
-    /// Two planes: `h_near` is the dielectric height from the trace to the nearer-indexed... see fields.
+    /// No plane at all: the trace sits on a dielectric sheet of height `h` (coplanar structures only).
+    NoPlane { h: f64, er: f64 },
+    /// Two planes, one on each side of the trace.
     Stripline {
         /// Dielectric height from the trace's lower face to the plane below, m.
         h_below: f64,
@@ -65,15 +73,24 @@ impl CrossSection {
     /// A plain name for the family this cross-section belongs to.
     pub fn family(&self) -> &'static str {
         match self.medium {
-            Medium::Microstrip { cover: Cover::Air, .. } => "surface microstrip",
-            Medium::Microstrip { cover: Cover::Mask { .. }, .. } => "coated microstrip",
-            Medium::Microstrip { cover: Cover::Dielectric { .. }, .. } => "embedded microstrip",
+            Medium::Microstrip {
+                cover: Cover::Air, ..
+            } => "surface microstrip",
+            Medium::Microstrip {
+                cover: Cover::Mask { .. },
+                ..
+            } => "coated microstrip",
+            Medium::Microstrip {
+                cover: Cover::Dielectric { .. },
+                ..
+            } => "embedded microstrip",
             Medium::Stripline { dual: true, .. } => "dual stripline",
-            Medium::Stripline { h_below, h_above, .. } if (h_below - h_above).abs() <= 1e-3 * h_below.max(h_above) => {
-                "symmetric stripline"
-            }
+            Medium::Stripline {
+                h_below, h_above, ..
+            } if (h_below - h_above).abs() <= 1e-3 * h_below.max(h_above) => "symmetric stripline",
             Medium::Stripline { .. } => "offset stripline",
             Medium::Broadside { .. } => "broadside-coupled stripline",
+            Medium::NoPlane { .. } => "coplanar without plane",
         }
     }
 
@@ -81,9 +98,16 @@ impl CrossSection {
     /// microstrip, the plane-to-plane spacing for stripline.
     pub fn scale_height(&self) -> f64 {
         match self.medium {
-            Medium::Microstrip { h, .. } => h,
-            Medium::Stripline { h_below, h_above, .. } => h_below + h_above + self.t,
-            Medium::Broadside { h_above, separation, h_below, .. } => h_above + separation + h_below + 2.0 * self.t,
+            Medium::Microstrip { h, .. } | Medium::NoPlane { h, .. } => h,
+            Medium::Stripline {
+                h_below, h_above, ..
+            } => h_below + h_above + self.t,
+            Medium::Broadside {
+                h_above,
+                separation,
+                h_below,
+                ..
+            } => h_above + separation + h_below + 2.0 * self.t,
         }
     }
 }
@@ -99,7 +123,11 @@ fn is_reference(layer: &Layer, named: &[String]) -> bool {
 /// Pressed height and series-capacitance Dk of the layers strictly between `from` and `to` (either order).
 /// Copper layers in between count as height (their Dk is that of the surrounding dielectric).
 fn region(stackup: &Stackup, from: usize, to: usize) -> (f64, f64, bool) {
-    let (lo, hi) = if from < to { (from + 1, to) } else { (to + 1, from) };
+    let (lo, hi) = if from < to {
+        (from + 1, to)
+    } else {
+        (to + 1, from)
+    };
     let mut h_total = 0.0;
     let mut h_dielectric = 0.0;
     let mut h_over_er = 0.0;
@@ -113,31 +141,64 @@ fn region(stackup: &Stackup, from: usize, to: usize) -> (f64, f64, bool) {
             dks.push(d.dk);
         }
     }
-    let er = if h_over_er > 0.0 { h_dielectric / h_over_er } else { 1.0 };
+    let er = if h_over_er > 0.0 {
+        h_dielectric / h_over_er
+    } else {
+        1.0
+    };
     let mixed = dks.iter().any(|&dk| (dk - dks[0]).abs() > 0.01 * dks[0]);
     (h_total, er, mixed)
 }
 
+/// Pressed height and series Dk of the dielectric from layer `idx` to the board's outer face (downward when `down`).
+fn region_to_edge(stackup: &Stackup, idx: usize, down: bool) -> (f64, f64, bool) {
+    if down {
+        region(stackup, idx, stackup.layers.len())
+    } else {
+        // `region` excludes both ends; pretend there is a layer just above the top.
+        let (mut h, mut h_over_er) = (0.0, 0.0);
+        for j in 0..idx {
+            let hj = stackup.pressed_thickness_m(j);
+            h += hj;
+            h_over_er += hj / stackup.layers[j].dielectric().map(|d| d.dk).unwrap_or(1.0);
+        }
+        (h, if h_over_er > 0.0 { h / h_over_er } else { 1.0 }, false)
+    }
+}
+
 /// Resolves the cross-section of `rule` in `stackup`.
 pub fn resolve(stackup: &Stackup, rule: &ImpedanceRule) -> Result<CrossSection> {
-    let idx = stackup
-        .find(&rule.layer)
-        .ok_or_else(|| Error::Invalid { field: "layer".into(), reason: format!("no layer named {:?}", rule.layer) })?;
+    let idx = stackup.find(&rule.layer).ok_or_else(|| Error::Invalid {
+        field: "layer".into(),
+        reason: format!("no layer named {:?}", rule.layer),
+    })?;
     let Layer::Copper(trace) = &stackup.layers[idx] else {
-        return Err(Error::Invalid { field: "layer".into(), reason: format!("{:?} is not copper", rule.layer) });
+        return Err(Error::Invalid {
+            field: "layer".into(),
+            reason: format!("{:?} is not copper", rule.layer),
+        });
     };
     let mut warnings = Vec::new();
     if trace.role == CopperRole::Plane {
-        warnings.push(Warning::new(format!("{} is marked as a plane layer but routes this rule", trace.name)));
+        warnings.push(Warning::new(format!(
+            "{} is marked as a plane layer but routes this rule",
+            trace.name
+        )));
     }
     let partner = if rule.structure == Structure::BroadsidePair {
         let name = rule.partner_layer.as_deref().unwrap_or_default();
-        let p = stackup.find(name).filter(|&p| stackup.layers[p].copper().is_some()).ok_or_else(|| Error::Invalid {
-            field: "partner_layer".into(),
-            reason: format!("no copper layer named {name:?}"),
-        })?;
+        let p = stackup
+            .find(name)
+            .filter(|&p| stackup.layers[p].copper().is_some())
+            .ok_or_else(|| Error::Invalid {
+                field: "partner_layer".into(),
+                reason: format!("no copper layer named {name:?}"),
+            })?;
         if p == idx {
-            return Err(Error::Invalid { field: "partner_layer".into(), reason: "must differ from the rule's layer".into() });
+            return Err(Error::Invalid {
+                field: "partner_layer".into(),
+                reason: "must differ from the rule's layer".into(),
+            });
         }
         Some(p)
     } else {
@@ -148,9 +209,11 @@ pub fn resolve(stackup: &Stackup, rule: &ImpedanceRule) -> Result<CrossSection> 
         None => (idx, idx),
     };
     let excluded = |j: usize| j == idx || Some(j) == partner;
-    let above = (0..top_trace).rev().find(|&j| !excluded(j) && is_reference(&stackup.layers[j], &rule.references));
-    let below =
-        (bottom_trace + 1..stackup.layers.len()).find(|&j| !excluded(j) && is_reference(&stackup.layers[j], &rule.references));
+    let above = (0..top_trace)
+        .rev()
+        .find(|&j| !excluded(j) && is_reference(&stackup.layers[j], &rule.references));
+    let below = (bottom_trace + 1..stackup.layers.len())
+        .find(|&j| !excluded(j) && is_reference(&stackup.layers[j], &rule.references));
     let mut references: Vec<String> = Vec::new();
     for j in [above, below].into_iter().flatten() {
         references.push(stackup.layers[j].name().to_string());
@@ -172,12 +235,18 @@ pub fn resolve(stackup: &Stackup, rule: &ImpedanceRule) -> Result<CrossSection> 
             if m_a || m_s || m_b || ers.iter().any(|&e| (e - er).abs() > 0.01 * er) {
                 mixed_note("around", er, &mut warnings);
             }
-            Medium::Broadside { h_above, separation, h_below, er }
+            Medium::Broadside {
+                h_above,
+                separation,
+                h_below,
+                er,
+            }
         }
         (_, _, Some(_)) => {
             return Err(Error::Invalid {
                 field: "references".into(),
-                reason: "a broadside pair needs a reference plane above and below both traces".into(),
+                reason: "a broadside pair needs a reference plane above and below both traces"
+                    .into(),
             })
         }
         (Some(a), Some(b), None) => {
@@ -189,7 +258,12 @@ pub fn resolve(stackup: &Stackup, rule: &ImpedanceRule) -> Result<CrossSection> 
                 mixed_note("around", er, &mut warnings);
             }
             let dual = (a + 1..b).any(|j| j != idx && stackup.layers[j].copper().is_some());
-            Medium::Stripline { h_below, h_above, er, dual }
+            Medium::Stripline {
+                h_below,
+                h_above,
+                er,
+                dual,
+            }
         }
         (Some(plane), None, None) | (None, Some(plane), None) => {
             let (h, er, mixed) = region(stackup, plane, idx);
@@ -197,8 +271,11 @@ pub fn resolve(stackup: &Stackup, rule: &ImpedanceRule) -> Result<CrossSection> 
                 mixed_note("under", er, &mut warnings);
             }
             // Walk outward, away from the plane, to find what covers the trace.
-            let outward: Vec<usize> =
-                if plane > idx { (0..idx).rev().collect() } else { (idx + 1..stackup.layers.len()).collect() };
+            let outward: Vec<usize> = if plane > idx {
+                (0..idx).rev().collect()
+            } else {
+                (idx + 1..stackup.layers.len()).collect()
+            };
             let mut cover = Cover::Air;
             let mut h_cover = 0.0;
             let mut h_over_er = 0.0;
@@ -223,21 +300,54 @@ pub fn resolve(stackup: &Stackup, rule: &ImpedanceRule) -> Result<CrossSection> 
             if h_cover > 0.0 {
                 let er_c = h_cover / h_over_er;
                 cover = if masked {
-                    Cover::Mask { thickness_m: h_cover, er: er_c }
+                    Cover::Mask {
+                        thickness_m: h_cover,
+                        er: er_c,
+                    }
                 } else {
-                    Cover::Dielectric { thickness_m: h_cover, er: er_c }
+                    Cover::Dielectric {
+                        thickness_m: h_cover,
+                        er: er_c,
+                    }
                 };
             }
             Medium::Microstrip { h, er, cover }
         }
+        (None, None, None)
+            if matches!(
+                rule.structure,
+                Structure::Coplanar | Structure::CoplanarPair
+            ) =>
+        {
+            // Coplanar grounds are the only reference: the substrate is the dielectric on the thicker side.
+            let (h_a, er_a, _) = if idx > 0 {
+                region_to_edge(stackup, idx, false)
+            } else {
+                (0.0, 1.0, false)
+            };
+            let (h_b, er_b, _) = region_to_edge(stackup, idx, true);
+            let (h, er) = if h_b >= h_a { (h_b, er_b) } else { (h_a, er_a) };
+            warnings.push(Warning::new(
+                "no reference plane: coplanar grounds are the only return path",
+            ));
+            Medium::NoPlane { h, er }
+        }
         (None, None, None) => {
             return Err(Error::Invalid {
                 field: "references".into(),
-                reason: format!("no reference plane found for {}; mark a copper layer as a plane", trace.name),
+                reason: format!(
+                    "no reference plane found for {}; mark a copper layer as a plane",
+                    trace.name
+                ),
             })
         }
     };
-    Ok(CrossSection { medium, t, references, warnings })
+    Ok(CrossSection {
+        medium,
+        t,
+        references,
+        warnings,
+    })
 }
 
 #[cfg(test)]

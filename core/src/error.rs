@@ -9,15 +9,38 @@ pub enum Error {
     /// A value was NaN or infinite.
     NotFinite { field: String },
     /// A value that must be positive was zero or negative.
-    NonPositive { field: String, value: f64, unit: &'static str },
+    NonPositive {
+        field: String,
+        value: f64,
+        unit: &'static str,
+    },
     /// A value lies outside what the input may physically be.
-    OutOfRange { field: String, value: f64, min: f64, max: f64, unit: &'static str },
+    OutOfRange {
+        field: String,
+        value: f64,
+        min: f64,
+        max: f64,
+        unit: &'static str,
+    },
     /// Text that should hold a quantity could not be read.
-    BadQuantity { field: String, text: String, expected: &'static str },
+    BadQuantity {
+        field: String,
+        text: String,
+        expected: &'static str,
+    },
     /// A synthesis target cannot be reached inside the allowed bounds.
-    Unreachable { field: String, target: f64, nearest: f64, bound: String },
+    Unreachable {
+        field: String,
+        target: f64,
+        nearest: f64,
+        bound: String,
+    },
     /// An iteration stopped at its cap.
-    NotConverged { what: String, iterations: usize, residual: f64 },
+    NotConverged {
+        what: String,
+        iterations: usize,
+        residual: f64,
+    },
     /// The input is inconsistent (a layer that does not exist, a rule without reference planes, …).
     Invalid { field: String, reason: String },
     /// A project file or link could not be read.
@@ -60,7 +83,9 @@ pub fn finite(field: &str, value: f64) -> Result<f64> {
     if value.is_finite() {
         Ok(value)
     } else {
-        Err(Error::NotFinite { field: field.to_string() })
+        Err(Error::NotFinite {
+            field: field.to_string(),
+        })
     }
 }
 
@@ -70,7 +95,11 @@ pub fn positive(field: &str, value: f64, unit: &'static str) -> Result<f64> {
     if value > 0.0 {
         Ok(value)
     } else {
-        Err(Error::NonPositive { field: field.to_string(), value, unit })
+        Err(Error::NonPositive {
+            field: field.to_string(),
+            value,
+            unit,
+        })
     }
 }
 
@@ -80,7 +109,13 @@ pub fn in_range(field: &str, value: f64, min: f64, max: f64, unit: &'static str)
     if (min..=max).contains(&value) {
         Ok(value)
     } else {
-        Err(Error::OutOfRange { field: field.to_string(), value, min, max, unit })
+        Err(Error::OutOfRange {
+            field: field.to_string(),
+            value,
+            min,
+            max,
+            unit,
+        })
     }
 }
 

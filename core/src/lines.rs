@@ -58,11 +58,19 @@ impl CoupledPair {
     }
     /// The odd mode seen as one line (for delay and loss of the differential signal).
     pub fn odd(&self) -> SingleLine {
-        SingleLine { z0: self.z_odd, eps_eff: self.eps_eff_odd, warnings: Vec::new() }
+        SingleLine {
+            z0: self.z_odd,
+            eps_eff: self.eps_eff_odd,
+            warnings: Vec::new(),
+        }
     }
     /// The even mode seen as one line.
     pub fn even(&self) -> SingleLine {
-        SingleLine { z0: self.z_even, eps_eff: self.eps_eff_even, warnings: Vec::new() }
+        SingleLine {
+            z0: self.z_even,
+            eps_eff: self.eps_eff_even,
+            warnings: Vec::new(),
+        }
     }
     /// The 2×2 inductance and capacitance matrices per metre of the symmetric pair, from its two modes:
     /// L11 = (Le+Lo)/2, L12 = (Le−Lo)/2, C11 = (Ce+Co)/2, C12 = −(Ce−Co)/2 … with the mode quantities per line.

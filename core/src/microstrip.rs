@@ -56,12 +56,22 @@ impl Microstrip {
         let mut warnings = Vec::new();
         VALIDITY[0].check("Hammerstad–Jensen", self.w / self.h, &mut warnings);
         VALIDITY[1].check("Hammerstad–Jensen", self.er, &mut warnings);
-        VALIDITY[2].check("Hammerstad–Jensen thickness correction", self.t / self.h, &mut warnings);
+        VALIDITY[2].check(
+            "Hammerstad–Jensen thickness correction",
+            self.t / self.h,
+            &mut warnings,
+        );
         if self.t > self.w / 2.0 {
-            warnings.push(Warning::new("trace thicker than half its width: thickness correction is rough"));
+            warnings.push(Warning::new(
+                "trace thicker than half its width: thickness correction is rough",
+            ));
         }
         let (z0, eps_eff) = hammerstad_jensen(self.w / self.h, self.t / self.h, self.er);
-        Ok(SingleLine { z0, eps_eff, warnings })
+        Ok(SingleLine {
+            z0,
+            eps_eff,
+            warnings,
+        })
     }
 
     /// Wheeler 1977 (second opinion): Z0 from eq. (4) with the thickness-corrected width; εeff from the ratio of
@@ -70,7 +80,11 @@ impl Microstrip {
         self.validate()?;
         let z0 = wheeler_z0(self.w, self.h, self.t, self.er);
         let z_air = wheeler_z0(self.w, self.h, self.t, 1.0);
-        Ok(SingleLine { z0, eps_eff: (z_air / z0).powi(2), warnings: Vec::new() })
+        Ok(SingleLine {
+            z0,
+            eps_eff: (z_air / z0).powi(2),
+            warnings: Vec::new(),
+        })
     }
 }
 
@@ -114,7 +128,8 @@ pub fn hammerstad_jensen(u: f64, tn: f64, er: f64) -> (f64, f64) {
 fn wheeler_z0(w: f64, h: f64, t: f64, er: f64) -> f64 {
     // Thickness-corrected width, Wheeler 1977 eqs. (5)-(6).
     let w_eff = if t > 0.0 {
-        let dw = t / PI * (4.0 * E / ((t / h).powi(2) + (1.0 / PI / (w / t + 1.1)).powi(2)).sqrt()).ln();
+        let dw =
+            t / PI * (4.0 * E / ((t / h).powi(2) + (1.0 / PI / (w / t + 1.1)).powi(2)).sqrt()).ln();
         w + dw * (1.0 + 1.0 / er) / 2.0
     } else {
         w
@@ -155,7 +170,10 @@ mod tests {
             let m = line(u * 1e-4, 1e-4, 0.0, er);
             let hj = m.analyze().unwrap().z0;
             let wh = m.analyze_wheeler().unwrap().z0;
-            assert!((hj - wh).abs() / hj < 0.02, "u={u} er={er}: HJ {hj} Wheeler {wh}");
+            assert!(
+                (hj - wh).abs() / hj < 0.02,
+                "u={u} er={er}: HJ {hj} Wheeler {wh}"
+            );
         }
     }
 

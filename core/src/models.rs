@@ -55,19 +55,32 @@ pub struct Evaluated {
 }
 
 fn unsupported(what: &str) -> Error {
-    Error::Invalid { field: "structure".into(), reason: format!("{what} is not available yet") }
+    Error::Invalid {
+        field: "structure".into(),
+        reason: format!("{what} is not available yet"),
+    }
 }
 
 /// Evaluates the structure `structure` on cross-section `cs` with dimensions `dims`.
 pub fn evaluate(cs: &CrossSection, structure: Structure, dims: &Dims) -> Result<Evaluated> {
     match (structure, cs.medium) {
         (Structure::Single, Medium::Microstrip { h, er, cover }) => {
-            let line = Microstrip { w: dims.w, h, t: cs.t, er };
+            let line = Microstrip {
+                w: dims.w,
+                h,
+                t: cs.t,
+                er,
+            };
             let mut analysis = line.analyze()?;
             if cover != Cover::Air {
-                analysis.warnings.push(Warning::new("covering dielectric not modelled yet: computed as surface microstrip"));
+                analysis.warnings.push(Warning::new(
+                    "covering dielectric not modelled yet: computed as surface microstrip",
+                ));
             }
-            Ok(Evaluated { analysis: Analysis::Single(analysis), method: "Hammerstad–Jensen 1980" })
+            Ok(Evaluated {
+                analysis: Analysis::Single(analysis),
+                method: "Hammerstad–Jensen 1980",
+            })
         }
         (s, _) => Err(unsupported(&format!("{} on {}", s.label(), cs.family()))),
     }

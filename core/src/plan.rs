@@ -94,7 +94,10 @@ pub fn plan(project: &Project) -> Result<Plan> {
         .map(|(i, l)| LayerRow {
             name: l.name().to_string(),
             kind: l.kind_name(),
-            material: l.dielectric().map(|d| d.material.clone()).unwrap_or_default(),
+            material: l
+                .dielectric()
+                .map(|d| d.material.clone())
+                .unwrap_or_default(),
             thickness_m: l.thickness_m(),
             pressed_thickness_m: s.pressed_thickness_m(i),
             dk: l.dielectric().map(|d| d.dk),
@@ -136,7 +139,11 @@ pub fn plan(project: &Project) -> Result<Plan> {
 pub fn analyze_rule(project: &Project, rule: &ImpedanceRule) -> Result<RuleResult> {
     rule.validate(&project.stackup)?;
     let cs = cross_section::resolve(&project.stackup, rule)?;
-    let mut dims = Dims { w: rule.width_m, s: rule.spacing_m, gap: rule.gap_m };
+    let mut dims = Dims {
+        w: rule.width_m,
+        s: rule.spacing_m,
+        gap: rule.gap_m,
+    };
     let solved = solve_dims(project, rule, &cs, &mut dims)?;
     let evaluated = models::evaluate(&cs, rule.structure, &dims)?;
     let signal: SingleLine = match &evaluated.analysis {
@@ -178,31 +185,56 @@ pub fn analyze_rule(project: &Project, rule: &ImpedanceRule) -> Result<RuleResul
 }
 
 /// Runs synthesis for the rule's free dimension, writing the solution into `dims`.
-fn solve_dims(project: &Project, rule: &ImpedanceRule, cs: &CrossSection, dims: &mut Dims) -> Result<Option<&'static str>> {
+fn solve_dims(
+    project: &Project,
+    rule: &ImpedanceRule,
+    cs: &CrossSection,
+    dims: &mut Dims,
+) -> Result<Option<&'static str>> {
     let scale = cs.scale_height();
     let upper = (100.0 * scale).min(MAX_LENGTH_M);
     let unit = project.units;
     match rule.solve {
         Solve::Nothing => Ok(None),
         Solve::Width => {
-            let lo_reason = format!("the fabricator's minimum trace width ({})", format_length(project.fab.min_trace_m, unit));
+            let lo_reason = format!(
+                "the fabricator's minimum trace width ({})",
+                format_length(project.fab.min_trace_m, unit)
+            );
             let hi_reason = format!("the widest trace searched ({})", format_length(upper, unit));
-            let bracket = Bracket { lo: project.fab.min_trace_m, hi: upper, lo_reason: &lo_reason, hi_reason: &hi_reason };
+            let bracket = Bracket {
+                lo: project.fab.min_trace_m,
+                hi: upper,
+                lo_reason: &lo_reason,
+                hi_reason: &hi_reason,
+            };
             let base = *dims;
             let w = synth::solve("width", rule.target_ohm, &bracket, |w| {
-                models::evaluate(cs, rule.structure, &Dims { w, ..base }).map(|e| e.analysis.controlled())
+                models::evaluate(cs, rule.structure, &Dims { w, ..base })
+                    .map(|e| e.analysis.controlled())
             })?;
             dims.w = w;
             Ok(Some("width"))
         }
         Solve::Spacing => {
-            let lo_reason =
-                format!("the fabricator's minimum space ({})", format_length(project.fab.min_space_m, unit));
-            let hi_reason = format!("the widest spacing searched ({})", format_length(upper, unit));
-            let bracket = Bracket { lo: project.fab.min_space_m, hi: upper, lo_reason: &lo_reason, hi_reason: &hi_reason };
+            let lo_reason = format!(
+                "the fabricator's minimum space ({})",
+                format_length(project.fab.min_space_m, unit)
+            );
+            let hi_reason = format!(
+                "the widest spacing searched ({})",
+                format_length(upper, unit)
+            );
+            let bracket = Bracket {
+                lo: project.fab.min_space_m,
+                hi: upper,
+                lo_reason: &lo_reason,
+                hi_reason: &hi_reason,
+            };
             let base = *dims;
             let s = synth::solve("spacing", rule.target_ohm, &bracket, |s| {
-                models::evaluate(cs, rule.structure, &Dims { s: Some(s), ..base }).map(|e| e.analysis.controlled())
+                models::evaluate(cs, rule.structure, &Dims { s: Some(s), ..base })
+                    .map(|e| e.analysis.controlled())
             })?;
             dims.s = Some(s);
             Ok(Some("spacing"))
@@ -228,4 +260,3 @@ impl RuleOutcome {
         }
     }
 }
-

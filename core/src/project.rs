@@ -27,11 +27,19 @@ pub enum Structure {
 }
 
 impl Structure {
-    pub const ALL: [Structure; 5] =
-        [Structure::Single, Structure::EdgePair, Structure::BroadsidePair, Structure::Coplanar, Structure::CoplanarPair];
+    pub const ALL: [Structure; 5] = [
+        Structure::Single,
+        Structure::EdgePair,
+        Structure::BroadsidePair,
+        Structure::Coplanar,
+        Structure::CoplanarPair,
+    ];
 
     pub fn is_pair(self) -> bool {
-        matches!(self, Structure::EdgePair | Structure::BroadsidePair | Structure::CoplanarPair)
+        matches!(
+            self,
+            Structure::EdgePair | Structure::BroadsidePair | Structure::CoplanarPair
+        )
     }
 
     /// Plain words for tables and menus.
@@ -111,7 +119,11 @@ pub struct Fab {
 impl Default for Fab {
     fn default() -> Self {
         // 100 µm (≈4 mil) line and space: a common standard-class capability (common practice, no source).
-        Fab { min_trace_m: 100e-6, min_space_m: 100e-6, etch_factor: None }
+        Fab {
+            min_trace_m: 100e-6,
+            min_space_m: 100e-6,
+            etch_factor: None,
+        }
     }
 }
 
@@ -149,20 +161,28 @@ impl Project {
     /// Reads a project from JSON, migrating older schema versions; errors name the offending field's path.
     pub fn from_json(text: &str) -> Result<Project> {
         if text.len() > MAX_JSON_BYTES {
-            return Err(Error::Schema { message: format!("file is larger than {MAX_JSON_BYTES} bytes") });
+            return Err(Error::Schema {
+                message: format!("file is larger than {MAX_JSON_BYTES} bytes"),
+            });
         }
-        let value: serde_json::Value =
-            serde_json::from_str(text).map_err(|e| Error::Schema { message: format!("not valid JSON: {e}") })?;
-        let schema = value.get("schema").and_then(|v| v.as_u64()).ok_or_else(|| Error::Schema {
-            message: "field `schema` is missing or not a whole number".into(),
+        let value: serde_json::Value = serde_json::from_str(text).map_err(|e| Error::Schema {
+            message: format!("not valid JSON: {e}"),
         })?;
+        let schema = value
+            .get("schema")
+            .and_then(|v| v.as_u64())
+            .ok_or_else(|| Error::Schema {
+                message: "field `schema` is missing or not a whole number".into(),
+            })?;
         if schema != u64::from(SCHEMA_VERSION) {
             return Err(Error::Schema {
                 message: format!("schema {schema} is not known to this version (it reads schema {SCHEMA_VERSION})"),
             });
         }
-        let project: Project = serde_path_to_error::deserialize(value)
-            .map_err(|e| Error::Schema { message: format!("at `{}`: {}", e.path(), e.inner()) })?;
+        let project: Project =
+            serde_path_to_error::deserialize(value).map_err(|e| Error::Schema {
+                message: format!("at `{}`: {}", e.path(), e.inner()),
+            })?;
         project.validate()?;
         Ok(project)
     }
@@ -175,7 +195,10 @@ impl Project {
     /// Checks everything that can be checked without solving: the stack, the fab limits, each rule's fields.
     pub fn validate(&self) -> Result<()> {
         if self.title.chars().count() > 200 {
-            return Err(Error::Invalid { field: "title".into(), reason: "longer than 200 characters".into() });
+            return Err(Error::Invalid {
+                field: "title".into(),
+                reason: "longer than 200 characters".into(),
+            });
         }
         error::in_range("analysis_freq", self.analysis_freq_hz, 1.0, 1e12, "Hz")?;
         error::length("fab.min_trace", self.fab.min_trace_m)?;
@@ -187,11 +210,15 @@ impl Project {
         if self.rules.len() > MAX_RULES {
             return Err(Error::Invalid {
                 field: "rules".into(),
-                reason: format!("{} rules is more than the {MAX_RULES} allowed", self.rules.len()),
+                reason: format!(
+                    "{} rules is more than the {MAX_RULES} allowed",
+                    self.rules.len()
+                ),
             });
         }
         for (i, rule) in self.rules.iter().enumerate() {
-            rule.validate(&self.stackup).map_err(|e| prefix(e, &format!("rules[{i}] {:?}", rule.name)))?;
+            rule.validate(&self.stackup)
+                .map_err(|e| prefix(e, &format!("rules[{i}] {:?}", rule.name)))?;
         }
         Ok(())
     }
@@ -201,7 +228,10 @@ impl ImpedanceRule {
     /// Field checks that need only the stack (geometry is checked again by the models).
     pub fn validate(&self, stackup: &Stackup) -> Result<()> {
         if self.name.chars().count() > 80 {
-            return Err(Error::Invalid { field: "name".into(), reason: "longer than 80 characters".into() });
+            return Err(Error::Invalid {
+                field: "name".into(),
+                reason: "longer than 80 characters".into(),
+            });
         }
         match stackup.find(&self.layer).map(|i| &stackup.layers[i]) {
             Some(Layer::Copper(_)) => {}
@@ -212,7 +242,10 @@ impl ImpedanceRule {
                 })
             }
             None => {
-                return Err(Error::Invalid { field: "layer".into(), reason: format!("no layer named {:?}", self.layer) })
+                return Err(Error::Invalid {
+                    field: "layer".into(),
+                    reason: format!("no layer named {:?}", self.layer),
+                })
             }
         }
         error::in_range("target", self.target_ohm, 1.0, 1000.0, "Ω")?;
@@ -224,17 +257,37 @@ impl ImpedanceRule {
         if let Some(g) = self.gap_m {
             error::length("gap", g)?;
         }
-        if self.solve == Solve::Spacing && self.structure != Structure::EdgePair && self.structure != Structure::CoplanarPair {
+        if self.solve == Solve::Spacing
+            && self.structure != Structure::EdgePair
+            && self.structure != Structure::CoplanarPair
+        {
             return Err(Error::Invalid {
                 field: "solve".into(),
-                reason: format!("only edge-coupled pairs have a spacing to solve for, not a {}", self.structure.label()),
+                reason: format!(
+                    "only edge-coupled pairs have a spacing to solve for, not a {}",
+                    self.structure.label()
+                ),
             });
         }
-        if matches!(self.structure, Structure::EdgePair | Structure::CoplanarPair) && self.spacing_m.is_none() {
-            return Err(Error::Invalid { field: "spacing".into(), reason: "a pair needs a spacing".into() });
+        if matches!(
+            self.structure,
+            Structure::EdgePair | Structure::CoplanarPair
+        ) && self.spacing_m.is_none()
+        {
+            return Err(Error::Invalid {
+                field: "spacing".into(),
+                reason: "a pair needs a spacing".into(),
+            });
         }
-        if matches!(self.structure, Structure::Coplanar | Structure::CoplanarPair) && self.gap_m.is_none() {
-            return Err(Error::Invalid { field: "gap".into(), reason: "a coplanar structure needs a gap to ground".into() });
+        if matches!(
+            self.structure,
+            Structure::Coplanar | Structure::CoplanarPair
+        ) && self.gap_m.is_none()
+        {
+            return Err(Error::Invalid {
+                field: "gap".into(),
+                reason: "a coplanar structure needs a gap to ground".into(),
+            });
         }
         if self.structure == Structure::BroadsidePair && self.partner_layer.is_none() {
             return Err(Error::Invalid {
@@ -243,8 +296,15 @@ impl ImpedanceRule {
             });
         }
         for r in self.references.iter().chain(self.partner_layer.iter()) {
-            if stackup.find(r).and_then(|i| stackup.layers[i].copper()).is_none() {
-                return Err(Error::Invalid { field: "references".into(), reason: format!("no copper layer named {r:?}") });
+            if stackup
+                .find(r)
+                .and_then(|i| stackup.layers[i].copper())
+                .is_none()
+            {
+                return Err(Error::Invalid {
+                    field: "references".into(),
+                    reason: format!("no copper layer named {r:?}"),
+                });
             }
         }
         Ok(())
@@ -254,18 +314,51 @@ impl ImpedanceRule {
 /// Puts `context` in front of the error's field name.
 pub(crate) fn prefix(e: Error, context: &str) -> Error {
     match e {
-        Error::NotFinite { field } => Error::NotFinite { field: format!("{context}.{field}") },
-        Error::NonPositive { field, value, unit } => Error::NonPositive { field: format!("{context}.{field}"), value, unit },
-        Error::OutOfRange { field, value, min, max, unit } => {
-            Error::OutOfRange { field: format!("{context}.{field}"), value, min, max, unit }
-        }
-        Error::BadQuantity { field, text, expected } => {
-            Error::BadQuantity { field: format!("{context}.{field}"), text, expected }
-        }
-        Error::Unreachable { field, target, nearest, bound } => {
-            Error::Unreachable { field: format!("{context}.{field}"), target, nearest, bound }
-        }
-        Error::Invalid { field, reason } => Error::Invalid { field: format!("{context}.{field}"), reason },
+        Error::NotFinite { field } => Error::NotFinite {
+            field: format!("{context}.{field}"),
+        },
+        Error::NonPositive { field, value, unit } => Error::NonPositive {
+            field: format!("{context}.{field}"),
+            value,
+            unit,
+        },
+        Error::OutOfRange {
+            field,
+            value,
+            min,
+            max,
+            unit,
+        } => Error::OutOfRange {
+            field: format!("{context}.{field}"),
+            value,
+            min,
+            max,
+            unit,
+        },
+        Error::BadQuantity {
+            field,
+            text,
+            expected,
+        } => Error::BadQuantity {
+            field: format!("{context}.{field}"),
+            text,
+            expected,
+        },
+        Error::Unreachable {
+            field,
+            target,
+            nearest,
+            bound,
+        } => Error::Unreachable {
+            field: format!("{context}.{field}"),
+            target,
+            nearest,
+            bound,
+        },
+        Error::Invalid { field, reason } => Error::Invalid {
+            field: format!("{context}.{field}"),
+            reason,
+        },
         other => other,
     }
 }
@@ -283,7 +376,8 @@ mod tests {
 
     #[test]
     fn unknown_field_is_named() {
-        let mut v: serde_json::Value = serde_json::from_str(&crate::demo::project().to_json()).unwrap();
+        let mut v: serde_json::Value =
+            serde_json::from_str(&crate::demo::project().to_json()).unwrap();
         v["stackup"][1]["colour"] = serde_json::json!("green");
         let e = Project::from_json(&v.to_string()).unwrap_err().to_string();
         assert!(e.contains("colour") && e.contains("stackup[1]"), "{e}");
@@ -291,7 +385,8 @@ mod tests {
 
     #[test]
     fn wrong_type_is_named() {
-        let mut v: serde_json::Value = serde_json::from_str(&crate::demo::project().to_json()).unwrap();
+        let mut v: serde_json::Value =
+            serde_json::from_str(&crate::demo::project().to_json()).unwrap();
         v["rules"][0]["target_ohm"] = serde_json::json!("fifty");
         let e = Project::from_json(&v.to_string()).unwrap_err().to_string();
         assert!(e.contains("rules[0].target_ohm"), "{e}");
@@ -299,7 +394,9 @@ mod tests {
 
     #[test]
     fn future_schema_is_refused() {
-        let text = crate::demo::project().to_json().replacen("\"schema\": 1", "\"schema\": 99", 1);
+        let text = crate::demo::project()
+            .to_json()
+            .replacen("\"schema\": 1", "\"schema\": 99", 1);
         let e = Project::from_json(&text).unwrap_err().to_string();
         assert!(e.contains("schema 99"), "{e}");
     }

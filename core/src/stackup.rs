@@ -43,7 +43,8 @@ pub struct Copper {
 
 impl Copper {
     pub fn fill_pct(&self) -> f64 {
-        self.fill_pct.unwrap_or_else(|| self.role.default_fill_pct())
+        self.fill_pct
+            .unwrap_or_else(|| self.role.default_fill_pct())
     }
     /// The copper weight in oz/ft² that this thickness corresponds to.
     pub fn weight_oz(&self) -> f64 {
@@ -134,23 +135,38 @@ impl Stackup {
     /// Checks every layer; errors name the layer (`layers[3] "L2 GND".dk`).
     pub fn validate(&self) -> Result<()> {
         if self.layers.is_empty() {
-            return Err(Error::Invalid { field: "layers".into(), reason: "the stack has no layers".into() });
+            return Err(Error::Invalid {
+                field: "layers".into(),
+                reason: "the stack has no layers".into(),
+            });
         }
         if self.layers.len() > MAX_LAYERS {
             return Err(Error::Invalid {
                 field: "layers".into(),
-                reason: format!("{} layers is more than the {MAX_LAYERS} allowed", self.layers.len()),
+                reason: format!(
+                    "{} layers is more than the {MAX_LAYERS} allowed",
+                    self.layers.len()
+                ),
             });
         }
         for (i, layer) in self.layers.iter().enumerate() {
             let at = |f: &str| format!("layers[{i}] {:?}.{f}", layer.name());
             if layer.name().trim().is_empty() {
-                return Err(Error::Invalid { field: format!("layers[{i}].name"), reason: "must not be empty".into() });
+                return Err(Error::Invalid {
+                    field: format!("layers[{i}].name"),
+                    reason: "must not be empty".into(),
+                });
             }
             if layer.name().chars().count() > 80 {
-                return Err(Error::Invalid { field: at("name"), reason: "longer than 80 characters".into() });
+                return Err(Error::Invalid {
+                    field: at("name"),
+                    reason: "longer than 80 characters".into(),
+                });
             }
-            if let Some(j) = self.layers[..i].iter().position(|l| l.name() == layer.name()) {
+            if let Some(j) = self.layers[..i]
+                .iter()
+                .position(|l| l.name() == layer.name())
+            {
                 return Err(Error::Invalid {
                     field: at("name"),
                     reason: format!("the same name is already used by layers[{j}]"),
@@ -169,7 +185,10 @@ impl Stackup {
                     error::in_range(&at("df"), d.df, 0.0, 1.0, "")?;
                     error::in_range(&at("spec_freq"), d.spec_freq_hz, 1.0, 1e12, "Hz")?;
                     if d.material.chars().count() > 120 {
-                        return Err(Error::Invalid { field: at("material"), reason: "longer than 120 characters".into() });
+                        return Err(Error::Invalid {
+                            field: at("material"),
+                            reason: "longer than 120 characters".into(),
+                        });
                     }
                 }
             }
@@ -203,12 +222,17 @@ impl Stackup {
 
     /// Finished board thickness, m (pressed prepregs).
     pub fn total_thickness_m(&self) -> f64 {
-        (0..self.layers.len()).map(|i| self.pressed_thickness_m(i)).sum()
+        (0..self.layers.len())
+            .map(|i| self.pressed_thickness_m(i))
+            .sum()
     }
 
     /// Number of copper layers.
     pub fn copper_count(&self) -> usize {
-        self.layers.iter().filter(|l| matches!(l, Layer::Copper(_))).count()
+        self.layers
+            .iter()
+            .filter(|l| matches!(l, Layer::Copper(_)))
+            .count()
     }
 
     /// True when the stack reads the same from both sides (type, thickness, Dk and copper within 1 %):
@@ -235,7 +259,11 @@ mod tests {
     #[test]
     fn prepreg_presses_into_sparse_copper() {
         let s = crate::demo::project().stackup;
-        let i = s.layers.iter().position(|l| matches!(l, Layer::Prepreg(_))).unwrap();
+        let i = s
+            .layers
+            .iter()
+            .position(|l| matches!(l, Layer::Prepreg(_)))
+            .unwrap();
         assert!(s.pressed_thickness_m(i) < s.layers[i].thickness_m());
     }
 

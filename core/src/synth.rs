@@ -21,12 +21,20 @@ pub const MAX_ITER: usize = 200;
 ///
 /// Illinois false position on ln x with a bisection fallback: it keeps a sign-changing bracket at every step,
 /// so it cannot diverge, and converges superlinearly on the smooth curves of closed-form models.
-pub fn solve(field: &str, target: f64, bracket: &Bracket<'_>, z: impl Fn(f64) -> Result<f64>) -> Result<f64> {
+pub fn solve(
+    field: &str,
+    target: f64,
+    bracket: &Bracket<'_>,
+    z: impl Fn(f64) -> Result<f64>,
+) -> Result<f64> {
     crate::error::positive("target", target, "Ω")?;
     if !(bracket.lo > 0.0 && bracket.hi > bracket.lo && bracket.hi.is_finite()) {
         return Err(Error::Invalid {
             field: field.to_string(),
-            reason: format!("empty search range {:.4e} to {:.4e} m", bracket.lo, bracket.hi),
+            reason: format!(
+                "empty search range {:.4e} to {:.4e} m",
+                bracket.lo, bracket.hi
+            ),
         });
     }
     let (mut a, mut b) = (bracket.lo.ln(), bracket.hi.ln());
@@ -41,8 +49,17 @@ pub fn solve(field: &str, target: f64, bracket: &Bracket<'_>, z: impl Fn(f64) ->
     }
     if fa.signum() == fb.signum() {
         // Both ends on the same side: say which end is closest and what holds it there.
-        let (nearest, reason) = if fa.abs() < fb.abs() { (za, bracket.lo_reason) } else { (zb, bracket.hi_reason) };
-        return Err(Error::Unreachable { field: field.to_string(), target, nearest, bound: reason.to_string() });
+        let (nearest, reason) = if fa.abs() < fb.abs() {
+            (za, bracket.lo_reason)
+        } else {
+            (zb, bracket.hi_reason)
+        };
+        return Err(Error::Unreachable {
+            field: field.to_string(),
+            target,
+            nearest,
+            bound: reason.to_string(),
+        });
     }
     let mut side = 0i8;
     for _ in 0..MAX_ITER {
@@ -71,7 +88,11 @@ pub fn solve(field: &str, target: f64, bracket: &Bracket<'_>, z: impl Fn(f64) ->
             side = 1;
         }
     }
-    Err(Error::NotConverged { what: field.to_string(), iterations: MAX_ITER, residual: fa.abs().min(fb.abs()) })
+    Err(Error::NotConverged {
+        what: field.to_string(),
+        iterations: MAX_ITER,
+        residual: fa.abs().min(fb.abs()),
+    })
 }
 
 #[cfg(test)]
@@ -80,21 +101,39 @@ mod tests {
 
     #[test]
     fn solves_a_falling_curve() {
-        let br = Bracket { lo: 1e-6, hi: 1e-2, lo_reason: "min", hi_reason: "max" };
+        let br = Bracket {
+            lo: 1e-6,
+            hi: 1e-2,
+            lo_reason: "min",
+            hi_reason: "max",
+        };
         let x = solve("width", 50.0, &br, |w| Ok(1e-3 / w)).unwrap();
         assert!((x - 2e-5).abs() / 2e-5 < 1e-9);
     }
 
     #[test]
     fn solves_a_rising_curve() {
-        let br = Bracket { lo: 1e-6, hi: 1e-2, lo_reason: "min", hi_reason: "max" };
-        let x = solve("spacing", 62.0, &br, |s| Ok(60.0 + (s * 1e4).ln().max(-50.0))).unwrap();
+        let br = Bracket {
+            lo: 1e-6,
+            hi: 1e-2,
+            lo_reason: "min",
+            hi_reason: "max",
+        };
+        let x = solve("spacing", 62.0, &br, |s| {
+            Ok(60.0 + (s * 1e4).ln().max(-50.0))
+        })
+        .unwrap();
         assert!(((x * 1e4).ln() + 60.0 - 62.0).abs() < 1e-6);
     }
 
     #[test]
     fn unreachable_target_names_the_bound() {
-        let br = Bracket { lo: 1e-4, hi: 1e-2, lo_reason: "minimum trace width", hi_reason: "search limit" };
+        let br = Bracket {
+            lo: 1e-4,
+            hi: 1e-2,
+            lo_reason: "minimum trace width",
+            hi_reason: "search limit",
+        };
         let e = solve("width", 500.0, &br, |w| Ok(1e-3 / w)).unwrap_err();
         match e {
             Error::Unreachable { nearest, bound, .. } => {

@@ -34,7 +34,12 @@ pub enum LengthUnit {
 }
 
 impl LengthUnit {
-    pub const ALL: [LengthUnit; 4] = [LengthUnit::Um, LengthUnit::Mm, LengthUnit::Mil, LengthUnit::In];
+    pub const ALL: [LengthUnit; 4] = [
+        LengthUnit::Um,
+        LengthUnit::Mm,
+        LengthUnit::Mil,
+        LengthUnit::In,
+    ];
 
     /// Metres per one of this unit.
     pub fn metres(self) -> f64 {
@@ -76,7 +81,8 @@ fn split_number(text: &str) -> Option<(f64, &str)> {
                 || c == '+'
                 || c == '-'
                 || ((c == 'e' || c == 'E')
-                    && text[i + 1..].starts_with(|d: char| d.is_ascii_digit() || d == '-' || d == '+')))
+                    && text[i + 1..]
+                        .starts_with(|d: char| d.is_ascii_digit() || d == '-' || d == '+')))
         })
         .map(|(i, _)| i)
         .unwrap_or(text.len());
@@ -134,7 +140,11 @@ pub fn parse_number(field: &str, text: &str, allowed_suffixes: &[&str]) -> Resul
         expected: "a number",
     };
     let (value, unit) = split_number(text).ok_or_else(bad)?;
-    if !unit.is_empty() && !allowed_suffixes.iter().any(|s| s.eq_ignore_ascii_case(unit)) {
+    if !unit.is_empty()
+        && !allowed_suffixes
+            .iter()
+            .any(|s| s.eq_ignore_ascii_case(unit))
+    {
         return Err(bad());
     }
     crate::error::finite(field, value)

@@ -11,7 +11,9 @@ pub struct Warning {
 
 impl Warning {
     pub fn new(message: impl Into<String>) -> Self {
-        Warning { message: message.into() }
+        Warning {
+            message: message.into(),
+        }
     }
 }
 
