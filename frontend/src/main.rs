@@ -1,1 +1,9 @@
-fn main() {}
+//! Entry point of the Ohmstack browser app: mounts the Yew app into the page body.
+
+mod app;
+mod bridge;
+mod state;
+
+fn main() {
+    yew::Renderer::<app::App>::new().render();
+}

@@ -1,1 +1,48 @@
-fn main() {}
+//! Build tasks for the workspace, run as `cargo xtask <task>`: `dist` (one-file web app), `serve`, `test`.
+//! Hand-written argument parsing keeps this crate to a few dependencies.
+
+mod dist;
+mod serve;
+mod test;
+mod util;
+
+use anyhow::{bail, Result};
+
+const HELP: &str = "cargo xtask <task>
+
+tasks:
+  dist                 build the web app into one self-contained file, dist/ohmstack.html
+  serve [--port N]     build, then serve dist/ohmstack.html on http://127.0.0.1:N/ (default 8080)
+  test                 install what the tests need, then fmt check, clippy, all tests, reference and browser tests";
+
+fn main() {
+    if let Err(e) = run() {
+        eprintln!("xtask: {e:#}");
+        std::process::exit(1);
+    }
+}
+
+fn run() -> Result<()> {
+    let args: Vec<String> = std::env::args().skip(1).collect();
+    match args.first().map(String::as_str) {
+        Some("dist") => dist::run().map(|_| ()),
+        Some("serve") => {
+            let port = match args.get(1).map(String::as_str) {
+                None => 8080,
+                Some("--port") => args
+                    .get(2)
+                    .and_then(|p| p.parse().ok())
+                    .ok_or_else(|| anyhow::anyhow!("--port takes a number"))?,
+                Some(other) => bail!("serve: unknown option {other}"),
+            };
+            let file = dist::run()?;
+            serve::run(&file, port)
+        }
+        Some("test") => test::run(),
+        Some("-h" | "--help") | None => {
+            println!("{HELP}");
+            Ok(())
+        }
+        Some(other) => bail!("unknown task {other:?}\n\n{HELP}"),
+    }
+}

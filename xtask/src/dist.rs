@@ -1,0 +1,127 @@
+//! `cargo xtask dist`: build the Yew app for wasm32, run wasm-bindgen as a library, and inline CSS, JS and the
+//! base64 WASM into one HTML file that works from file:// with no network and no other file.
+
+use crate::util::{self, cargo, root};
+use anyhow::{bail, Context, Result};
+use base64::Engine;
+use sha2::{Digest, Sha256};
+use std::path::PathBuf;
+use std::process::Command;
+
+const TARGET: &str = "wasm32-unknown-unknown";
+/// Where index.html takes the app script.
+const APP_MARKER: &str = "<!-- OHMSTACK:APP -->";
+/// Where index.html takes the Content-Security-Policy hashes.
+const CSP_SCRIPT_MARKER: &str = "OHMSTACK:SCRIPT-HASH";
+const CSP_STYLE_MARKER: &str = "OHMSTACK:STYLE-HASH";
+
+/// Adds the wasm32 target through rustup when it is missing.
+pub fn ensure_wasm_target() -> Result<()> {
+    let installed = Command::new("rustup")
+        .args(["target", "list", "--installed"])
+        .output();
+    match installed {
+        Ok(out)
+            if String::from_utf8_lossy(&out.stdout)
+                .lines()
+                .any(|l| l.trim() == TARGET) =>
+        {
+            Ok(())
+        }
+        Ok(_) => util::run(Command::new("rustup").args(["target", "add", TARGET])),
+        Err(_) => {
+            eprintln!("xtask: rustup not found; assuming the {TARGET} target is available");
+            Ok(())
+        }
+    }
+}
+
+fn sha256_b64(text: &str) -> String {
+    base64::engine::general_purpose::STANDARD.encode(Sha256::digest(text.as_bytes()))
+}
+
+/// Builds dist/ohmstack.html and returns its path.
+pub fn run() -> Result<PathBuf> {
+    ensure_wasm_target()?;
+    util::run(cargo().args([
+        "build",
+        "-p",
+        "ohmstack-web",
+        "--profile",
+        "wasm-release",
+        "--target",
+        TARGET,
+    ]))?;
+    let target_dir = std::env::var_os("CARGO_TARGET_DIR")
+        .map(PathBuf::from)
+        .unwrap_or_else(|| root().join("target"));
+    let wasm_path = target_dir
+        .join(TARGET)
+        .join("wasm-release")
+        .join("ohmstack-web.wasm");
+    let mut output = wasm_bindgen_cli_support::Bindgen::new()
+        .input_path(&wasm_path)
+        .web(true)?
+        .typescript(false)
+        .generate_output()
+        .with_context(|| format!("wasm-bindgen on {}", wasm_path.display()))?;
+    let snippet_count: usize = output.snippets().values().map(Vec::len).sum();
+    if snippet_count > 0 || !output.local_modules().is_empty() {
+        bail!(
+            "the app uses JS snippets {:?} or local modules {:?}, which a one-file bundle cannot carry",
+            output.snippets().keys().collect::<Vec<_>>(),
+            output.local_modules().keys().collect::<Vec<_>>()
+        );
+    }
+    let js = output.js().to_string();
+    if js.contains("</script") {
+        bail!("the generated JS contains `</script`, which would end the inline script early");
+    }
+    let wasm = output.wasm_mut().emit_wasm();
+    let wasm_b64 = base64::engine::general_purpose::STANDARD.encode(&wasm);
+    // The generated module ends with `export { initSync, __wbg_init as default }`; strip the export so the code can
+    // sit in one inline module script, then start it with the inline bytes (async compile: no 8 MB sync limit).
+    let js = js.replace("export { initSync, __wbg_init as default };", "");
+    let script = format!(
+        "{js}\nconst b64 = \"{wasm_b64}\";\nconst bytes = Uint8Array.from(atob(b64), (c) => c.charCodeAt(0));\n\
+         __wbg_init({{ module_or_path: bytes }}).catch((e) => {{ document.body.dataset.loadError = String(e); \
+         const p = document.createElement('p'); p.className = 'load-error'; \
+         p.textContent = 'The app could not start: ' + e; document.body.prepend(p); }});\n"
+    );
+    let template_path = root().join("index.html");
+    let template = std::fs::read_to_string(&template_path)
+        .with_context(|| format!("reading {}", template_path.display()))?;
+    let style = template
+        .split_once("<style>")
+        .and_then(|(_, rest)| rest.split_once("</style>"))
+        .map(|(css, _)| css.to_string())
+        .context("index.html has no <style> block")?;
+    if !template.contains(APP_MARKER)
+        || !template.contains(CSP_SCRIPT_MARKER)
+        || !template.contains(CSP_STYLE_MARKER)
+    {
+        bail!("index.html lacks {APP_MARKER}, {CSP_SCRIPT_MARKER} or {CSP_STYLE_MARKER}");
+    }
+    let html = template
+        .replace(
+            CSP_SCRIPT_MARKER,
+            &format!("sha256-{}", sha256_b64(&script)),
+        )
+        .replace(CSP_STYLE_MARKER, &format!("sha256-{}", sha256_b64(&style)))
+        .replace(
+            APP_MARKER,
+            &format!("<script type=\"module\">{script}</script>"),
+        );
+    let dist = root().join("dist");
+    std::fs::create_dir_all(&dist)?;
+    let out = dist.join("ohmstack.html");
+    std::fs::write(&out, &html)?;
+    eprintln!(
+        "xtask: wrote {} ({} bytes: wasm {} bytes, js {} bytes)",
+        out.display(),
+        html.len(),
+        wasm.len(),
+        js.len()
+    );
+    Ok(out)
+}
