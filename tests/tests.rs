@@ -1,3 +1,4 @@
 //! Workspace integration tests: exact analytic references and regressions, against the public core API.
 
 mod closed_form;
+mod tidy;
