@@ -517,6 +517,7 @@ fn touchstone_cmd(args: &[String]) -> Result<()> {
         Some(t) => parse_number("z-ref", &t, &["ohm", "Ω"])?,
         None => 50.0,
     };
+    ohmstack_core::error::in_range("z-ref", z_ref, 1.0, 1000.0, "Ω")?;
     let output = map.remove("output");
     let sweep = sweep_flags(&mut map)?;
     let (project, name, model) = rule_model(&path, &mut map)?;
