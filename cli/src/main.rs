@@ -6,6 +6,7 @@ use ohmstack_core::case::{self, LineCase};
 use ohmstack_core::loss;
 use ohmstack_core::models::Dims;
 use ohmstack_core::models::{Analysis, Evaluated};
+use ohmstack_core::roughness::{Foil, Roughness};
 use ohmstack_core::touchstone;
 use ohmstack_core::units::{
     format_length, format_sig, parse_frequency, parse_length, parse_number, LengthUnit,
@@ -33,6 +34,8 @@ usage:
   ohmstack touchstone FILE|- --rule NAME --length 100mm [--z-ref 50] [--from --to --points] [-o out.s2p]
                                         Touchstone 1.1 S-parameters of a line segment (2-port, or 4-port for
                                         a pair); stdout unless -o names a file
+    loss and touchstone also take --foil standard|low-profile|very-low-profile|smooth
+    [--foil-model hammerstad-groiss|huray] to set every copper layer's roughness
 
 lengths take units: um, mm, mil, in (and oz for copper thickness); plain numbers are metres.";
 
@@ -342,7 +345,8 @@ fn rule_model(
     let name = map
         .remove("rule")
         .ok_or_else(|| anyhow!("--rule: missing (the name of the rule to compute)"))?;
-    let project = Project::from_json(&read_input(path)?)?;
+    let mut project = Project::from_json(&read_input(path)?)?;
+    apply_foil(&mut project, map)?;
     let Some(rule) = project.rules.iter().find(|r| r.name == name) else {
         let names: Vec<&str> = project.rules.iter().map(|r| r.name.as_str()).collect();
         bail!(
@@ -548,4 +552,38 @@ fn format_freq(hz: f64) -> String {
         _ => (1.0, "Hz"),
     };
     format!("{} {unit}", format_sig(hz / scale, 4))
+}
+
+/// `--foil standard|low-profile|very-low-profile|smooth` with `--foil-model hammerstad-groiss|huray` sets the
+/// roughness of every copper layer (a what-if over the project's own values).
+fn apply_foil(project: &mut Project, map: &mut BTreeMap<String, String>) -> Result<()> {
+    let model = map.remove("foil-model");
+    let Some(name) = map.remove("foil") else {
+        if model.is_some() {
+            bail!("--foil-model: only with --foil");
+        }
+        return Ok(());
+    };
+    let roughness = if name.trim().eq_ignore_ascii_case("smooth") {
+        Roughness::Smooth
+    } else {
+        let foil = Foil::from_label(&name).ok_or_else(|| {
+            anyhow!("--foil: unknown foil {name:?}; use standard, low-profile, very-low-profile or smooth")
+        })?;
+        match model
+            .as_deref()
+            .map(|m| m.trim().to_ascii_lowercase().replace('_', "-"))
+        {
+            None => foil.hammerstad_groiss(),
+            Some(m) if m == "hammerstad-groiss" => foil.hammerstad_groiss(),
+            Some(m) if m == "huray" => foil.huray(),
+            Some(m) => bail!("--foil-model: unknown model {m:?}; use hammerstad-groiss or huray"),
+        }
+    };
+    for layer in &mut project.stackup.layers {
+        if let ohmstack_core::Layer::Copper(c) = layer {
+            c.roughness = Some(roughness);
+        }
+    }
+    Ok(())
 }

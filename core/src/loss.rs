@@ -938,6 +938,24 @@ mod tests {
     }
 
     #[test]
+    fn each_surface_carries_its_own_roughness() {
+        // Rough trace on smooth planes: the effective factor lies strictly between 1 and the trace's own K, and
+        // the shares add up (Wheeler's derivative is linear in the wall recessions).
+        let rough = Roughness::HammerstadGroiss { rms_m: 1.5e-6 };
+        let base = microstrip_model(300e-6, 170e-6, 35e-6, 4.2, 0.0, Roughness::Smooth);
+        let mut inputs = base.inputs;
+        inputs.surfaces.trace = rough;
+        let m = LineModel::new(&base.cross_section, base.structure, &base.dims, inputs).unwrap();
+        let f = 20e9;
+        let k_trace = rough.factor(skin_depth(f, 5.8e7));
+        let k = m.at(f).unwrap().line.unwrap().roughness_factor;
+        assert!(k > 1.05 && k < k_trace - 0.05, "{k} vs {k_trace}");
+        let sl = m.slopes[0];
+        let expect = (k_trace * sl.trace + sl.above + sl.below) / (sl.trace + sl.above + sl.below);
+        assert!((k - expect).abs() < 1e-12);
+    }
+
+    #[test]
     fn dielectric_loss_follows_the_filling_factor_formula() {
         // The filling-factor formula (Pozar, "Microwave Engineering", microstrip dielectric attenuation, from
         // memory) evaluated by hand from the line's εeff.

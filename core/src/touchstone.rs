@@ -175,6 +175,31 @@ mod tests {
     }
 
     #[test]
+    fn uncoupled_pair_is_two_separate_lines_in_the_documented_port_order() {
+        // Equal odd and even modes mean no coupling: 1 → 3 and 2 → 4 are the two lines, nothing crosses.
+        let m = (Complex64::new(60.0, -0.5), Complex64::new(0.8, 95.0));
+        let s4 = s_pair(m, m, 0.07, 50.0);
+        let s2 = s_line(m.0, m.1, 0.07, 50.0);
+        assert!((s4[2][0] - s2[1][0]).norm() < 1e-15 && (s4[3][1] - s2[1][0]).norm() < 1e-15);
+        assert!((s4[0][0] - s2[0][0]).norm() < 1e-15);
+        for (i, j) in [(1, 0), (3, 0), (2, 1), (0, 3)] {
+            assert!(s4[i][j].norm() < 1e-15, "S{}{}", i + 1, j + 1);
+        }
+        // Reciprocity (exact for a passive line): S = Sᵀ.
+        let c = s_pair(
+            (Complex64::new(40.0, -0.3), Complex64::new(1.0, 120.0)),
+            (Complex64::new(65.0, -0.2), Complex64::new(0.7, 112.0)),
+            0.05,
+            50.0,
+        );
+        for (i, row) in c.iter().enumerate() {
+            for (j, v) in row.iter().enumerate() {
+                assert!((v - c[j][i]).norm() < 1e-15);
+            }
+        }
+    }
+
+    #[test]
     fn quarter_wave_transformer() {
         // A λ/4 line of Zc between Zref ports: Zin = Zc²/Zref, so S11 = (Zc² − Z²)/(Zc² + Z²) (exact).
         let beta: f64 = 100.0;
