@@ -17,7 +17,7 @@
 //! from memory: α_c = Rs/(2Z0η)·dZ0/dl). We take ∂/∂n by a central difference with a step of 10⁻⁴ of the
 //! smallest dimension; the derivative is split into the trace's own walls and each plane's walls, so that every
 //! copper layer's roughness factor multiplies its own share. The rule assumes δ small against the conductor
-//! thickness and radius of curvature (we warn for t < 2δ); a zero-thickness strip has unbounded loss under it,
+//! thickness and radius of curvature (we warn for 0.5δ < t < 3δ, where the slab transition below carries it); a zero-thickness strip has unbounded loss under it,
 //! which we report as an error naming `thickness`.
 //!
 //! **DC to skin effect** — R_dc = 1/(σ·w·t) per length for the trace. The trace's internal impedance follows
@@ -43,13 +43,21 @@
 //!
 //! **Per-length model** — L = Z0·√εeff/c + X_int/ω, C = √εeff/(Z0·c), Z = R + jωL, Y = G + jωC,
 //! Zc = √(Z/Y), γ = √(ZY). Conductor and dielectric attenuation are reported by the low-loss forms R/(2Z0) and
-//! G·Z0/2 (Z0 the external, lossless impedance of the model); the total is Re γ, exact for the RLGC line. Group delay is dβ/dω by a central difference.
+//! G·Z0/2 (Z0 the external, lossless impedance of the model); the total is Re γ, exact for the RLGC line.
+//! Group delay is dβ/dω by a central difference.
 //!
 //! Pairs give two modes, odd and even, each as one line (per-line R, L, G, C of that mode); the differential
 //! signal travels in the odd mode.
 //!
+//! Claimed accuracy: Wheeler's rule is exact as δ → 0; its error here is that of the Z0_air formula's derivative
+//! (≈1 % for Hammerstad–Jensen microstrip, measured against a field solve).
+//!
 //! Checked against: skin depth of copper (2.09 µm at 1 GHz); R_dc = ρ·len/area exactly; the parallel-plate limit
-//! R → 2Rs/w of a very wide microstrip (exact); scikit-rf `MLine` losses (`tests/python/test_loss.py`).
+//! R → 2Rs/w of a very wide microstrip and the exact one-sided slab from DC to skin effect (unit tests);
+//! Wheeler's rule on a scikit-fem Laplace solve of Z0_air (≤ 1.2 %) and on Wheeler's 1977 closed form (≤ 1.4 %);
+//! scikit-rf `MLine` dielectric loss (≤ 4e-6), roughness factor and dispersion (round-off)
+//! (`tests/python/test_loss.py`). scikit-rf's own conductor loss is Hammerstad–Jensen's current-distribution
+//! factor, not Wheeler's rule; it is 7–60 % above ours (most for thick, narrow strips, where it ignores thickness).
 
 use crate::cross_section::{Cover, CrossSection, Medium};
 use crate::dielectric::{DielectricModel, Dispersive};
