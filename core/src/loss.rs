@@ -729,6 +729,37 @@ fn slab(x: Complex64) -> Complex64 {
     }
 }
 
+/// The signal mode of a sweep as columns, ready for a plot or a table.
+#[derive(Debug, Clone, PartialEq, Default, Serialize)]
+pub struct LossSeries {
+    pub freq_hz: Vec<f64>,
+    pub conductor_db_per_m: Vec<f64>,
+    pub dielectric_db_per_m: Vec<f64>,
+    pub total_db_per_m: Vec<f64>,
+    pub z0_re_ohm: Vec<f64>,
+    pub z0_im_ohm: Vec<f64>,
+    pub eps_eff: Vec<f64>,
+    pub group_delay_s_per_m: Vec<f64>,
+}
+
+/// Columns of the signal mode (the line, or the odd mode of a pair) over `points`.
+pub fn series(points: &[LossAt]) -> LossSeries {
+    let mut s = LossSeries::default();
+    for p in points {
+        if let Some(m) = p.signal() {
+            s.freq_hz.push(p.freq_hz);
+            s.conductor_db_per_m.push(m.conductor.db_per_m);
+            s.dielectric_db_per_m.push(m.dielectric.db_per_m);
+            s.total_db_per_m.push(m.total.db_per_m);
+            s.z0_re_ohm.push(m.z0_re_ohm);
+            s.z0_im_ohm.push(m.z0_im_ohm);
+            s.eps_eff.push(m.eps_eff);
+            s.group_delay_s_per_m.push(m.group_delay_s_per_m);
+        }
+    }
+    s
+}
+
 /// (Zc, γ) of an RLGC line at angular frequency `omega`, with Re γ ≥ 0 and Re Zc ≥ 0.
 pub fn propagation(r: f64, l: f64, g: f64, c: f64, omega: f64) -> (Complex64, Complex64) {
     let z = Complex64::new(r, omega * l);
@@ -1092,6 +1123,19 @@ mod tests {
         cs2.t = 35e-6;
         let e = LineModel::new(&cs2, Structure::BroadsidePair, &dims, inputs).unwrap_err();
         assert!(e.to_string().contains("structure"), "{e}");
+    }
+
+    #[test]
+    fn sweep_series_rise_with_frequency() {
+        let m = microstrip_model(300e-6, 170e-6, 35e-6, 4.2, 0.02, Roughness::Smooth);
+        let pts = m.sweep(&Sweep::default()).unwrap();
+        let s = series(&pts);
+        assert_eq!(s.freq_hz.len(), 50);
+        // Conductor loss grows as √f or faster, dielectric loss as f: both strictly increase.
+        assert!(s.conductor_db_per_m.windows(2).all(|w| w[1] > w[0]));
+        assert!(s.dielectric_db_per_m.windows(2).all(|w| w[1] > w[0]));
+        let ratio = s.dielectric_db_per_m[49] / s.dielectric_db_per_m[0];
+        assert!((ratio / (40e9 / 10e6) - 1.0).abs() < 0.01, "{ratio}");
     }
 
     #[test]

@@ -200,6 +200,60 @@ mod tests {
     }
 
     #[test]
+    fn segment_text_is_touchstone_one_point_one() {
+        use crate::cross_section::{Cover, CrossSection, Medium};
+        use crate::dielectric::{DielectricModel, Dispersive};
+        use crate::loss::{LossInputs, Surfaces};
+        let cs = CrossSection {
+            medium: Medium::Microstrip {
+                h: 170e-6,
+                er: 4.2,
+                cover: Cover::Air,
+            },
+            t: 35e-6,
+            references: vec![],
+            warnings: vec![],
+        };
+        let inputs = LossInputs {
+            conductivity_s_per_m: 5.8e7,
+            surfaces: Surfaces::default(),
+            dielectric: Dispersive::fit(DielectricModel::Wideband, 4.2, 0.02, 1e9).unwrap(),
+            dispersion: true,
+        };
+        let dims = crate::models::Dims {
+            w: 330e-6,
+            s: None,
+            gap: None,
+        };
+        let model = LineModel::new(&cs, crate::project::Structure::Single, &dims, inputs).unwrap();
+        let freqs = [1e8, 1e9, 1e10];
+        let (text, ports) = segment(&model, 0.1, 50.0, &freqs, "test\nline").unwrap();
+        assert_eq!(ports, 2);
+        let lines: Vec<&str> = text.lines().collect();
+        assert!(lines.iter().all(|l| !l.contains("test\nline")));
+        assert_eq!(lines.iter().filter(|l| l.starts_with('#')).count(), 1);
+        assert!(lines.contains(&"# Hz S RI R 50"));
+        let data: Vec<Vec<f64>> = lines
+            .iter()
+            .filter(|l| !l.starts_with(['!', '#']))
+            .map(|l| l.split_whitespace().map(|v| v.parse().unwrap()).collect())
+            .collect();
+        assert_eq!(data.len(), 3);
+        for (row, f) in data.iter().zip(freqs) {
+            assert_eq!(row.len(), 9);
+            assert_eq!(row[0], f);
+            // Lossy line: |S21| < 1, and N21 = N12 (reciprocal).
+            let s21 = (row[3] * row[3] + row[4] * row[4]).sqrt();
+            assert!(s21 < 1.0 && s21 > 0.5, "{s21}");
+            assert_eq!((row[3], row[4]), (row[5], row[6]));
+        }
+        let e = segment(&model, 0.0, 50.0, &freqs, "x").unwrap_err();
+        assert!(e.to_string().starts_with("length"), "{e}");
+        let e = segment(&model, 0.1, f64::NAN, &freqs, "x").unwrap_err();
+        assert!(e.to_string().starts_with("z_ref"), "{e}");
+    }
+
+    #[test]
     fn quarter_wave_transformer() {
         // A λ/4 line of Zc between Zref ports: Zin = Zc²/Zref, so S11 = (Zc² − Z²)/(Zc² + Z²) (exact).
         let beta: f64 = 100.0;
