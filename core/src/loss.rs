@@ -778,9 +778,13 @@ pub fn propagation(r: f64, l: f64, g: f64, c: f64, omega: f64) -> (Complex64, Co
 /// Series (energy-weighted) Dk, Df and log-mean spec frequency of the dielectric layers strictly between two
 /// layer indices: in series the field D is common, so each layer's stored energy goes as h/ε.
 fn series_group(stackup: &Stackup, a: usize, b: usize) -> Option<(f64, f64, f64, f64)> {
-    let (lo, hi) = (a.min(b) + 1, a.max(b));
+    series_range(stackup, a.min(b) + 1..a.max(b))
+}
+
+/// As [`series_group`] over the layers in `range`.
+fn series_range(stackup: &Stackup, range: std::ops::Range<usize>) -> Option<(f64, f64, f64, f64)> {
     let (mut h, mut h_over_e, mut tan_w, mut logf_w) = (0.0, 0.0, 0.0, 0.0);
-    for idx in lo..hi.min(stackup.layers.len()) {
+    for idx in range.start..range.end.min(stackup.layers.len()) {
         if let Some(d) = stackup.layers[idx].dielectric() {
             let hi_ = stackup.pressed_thickness_m(idx);
             h += hi_;
@@ -816,8 +820,8 @@ fn rule_dielectric(stackup: &Stackup, rule: &ImpedanceRule, cs: &CrossSection) -
     }
     if groups.is_empty() {
         // No plane: the thicker dielectric side, to the board edge.
-        let up = series_group(stackup, 0, idx).filter(|_| idx > 0);
-        let down = series_group(stackup, idx, stackup.layers.len());
+        let up = series_range(stackup, 0..idx);
+        let down = series_range(stackup, idx + 1..stackup.layers.len());
         let pick = match (up, down) {
             (Some(u), Some(d)) => Some(if u.0 > d.0 { u } else { d }),
             (u, d) => u.or(d),
@@ -1076,6 +1080,63 @@ mod tests {
         p.loss.conductivity_s_per_m = -1.0;
         let e = Project::from_json(&p.to_json()).unwrap_err().to_string();
         assert!(e.starts_with("loss.conductivity"), "{e}");
+    }
+
+    #[test]
+    fn df_of_layers_in_series_is_energy_weighted() {
+        // Two dielectrics between trace and plane: D is common, energy ∝ h/ε, so
+        // tanδ = Σ(h·tanδ/ε)/Σ(h/ε) (exact for series capacitors with small loss).
+        use crate::stackup::{Copper, CopperRole, Dielectric, Layer};
+        let copper = |name: &str, role| {
+            Layer::Copper(Copper {
+                name: name.into(),
+                thickness_m: 35e-6,
+                role,
+                fill_pct: Some(100.0),
+                roughness: None,
+            })
+        };
+        let diel = |name: &str, h: f64, dk: f64, df: f64| Dielectric {
+            name: name.into(),
+            material: String::new(),
+            thickness_m: h,
+            dk,
+            df,
+            spec_freq_hz: 1e9,
+        };
+        let mut p = crate::demo::project();
+        p.stackup.layers = vec![
+            copper("T", CopperRole::Signal),
+            Layer::Core(diel("A", 100e-6, 3.0, 0.002)),
+            Layer::Core(diel("B", 200e-6, 4.0, 0.02)),
+            copper("G", CopperRole::Plane),
+        ];
+        let mut rule = p.rules[0].clone();
+        rule.layer = "T".into();
+        rule.structure = Structure::Single;
+        rule.solve = crate::project::Solve::Nothing;
+        let cs = crate::cross_section::resolve(&p.stackup, &rule).unwrap();
+        let (df, spec) = rule_dielectric(&p.stackup, &rule, &cs);
+        let expect = (100e-6 / 3.0 * 0.002 + 200e-6 / 4.0 * 0.02) / (100e-6 / 3.0 + 200e-6 / 4.0);
+        assert!((df - expect).abs() < 1e-15, "{df} vs {expect}");
+        assert!((spec - 1e9).abs() < 1e-3);
+        // With no plane the thicker side to the board edge is the substrate, including the outermost layer.
+        p.stackup.layers[3] = copper("G", CopperRole::Signal);
+        p.stackup
+            .layers
+            .insert(0, Layer::SolderMask(diel("M", 20e-6, 3.5, 0.03)));
+        let expect = (20e-6 / 3.5 * 0.03 + 100e-6 / 3.0 * 0.002 + 200e-6 / 4.0 * 0.02)
+            / (20e-6 / 3.5 + 100e-6 / 3.0 + 200e-6 / 4.0);
+        rule.structure = Structure::Coplanar;
+        let cs = CrossSection {
+            medium: Medium::NoPlane { h: 335e-6, er: 3.6 },
+            t: 35e-6,
+            references: vec![],
+            warnings: vec![],
+        };
+        rule.layer = "G".into();
+        let (df_up, _) = rule_dielectric(&p.stackup, &rule, &cs);
+        assert!((df_up - expect).abs() < 1e-15, "{df_up}");
     }
 
     #[test]
