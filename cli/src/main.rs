@@ -3,8 +3,14 @@
 
 use anyhow::{anyhow, bail, Context, Result};
 use ohmstack_core::case::{self, LineCase};
+use ohmstack_core::loss;
+use ohmstack_core::models::Dims;
 use ohmstack_core::models::{Analysis, Evaluated};
-use ohmstack_core::units::{format_length, format_sig, LengthUnit};
+use ohmstack_core::roughness::{Foil, Roughness};
+use ohmstack_core::touchstone;
+use ohmstack_core::units::{
+    format_length, format_sig, parse_frequency, parse_length, parse_number, LengthUnit,
+};
 use ohmstack_core::{Project, RuleOutcome};
 use serde_json::{json, Value};
 use std::collections::BTreeMap;
@@ -22,6 +28,14 @@ usage:
                                         find the width that gives the target impedance
   ohmstack batch                        JSON lines of cases on stdin, JSON lines of results on stdout
   ohmstack kinds                        list the structures calc/solve/batch know
+  ohmstack loss FILE|- --rule NAME [--freq 5GHz | --from 10MHz --to 40GHz --points 50] [--json]
+                                        loss, complex Z0 and delay of one rule's line at one frequency or
+                                        over a log-spaced sweep (default 10 MHz to 40 GHz, 50 points)
+  ohmstack touchstone FILE|- --rule NAME --length 100mm [--z-ref 50] [--from --to --points] [-o out.s2p]
+                                        Touchstone 1.1 S-parameters of a line segment (2-port, or 4-port for
+                                        a pair); stdout unless -o names a file
+    loss and touchstone also take --foil standard|low-profile|very-low-profile|smooth
+    [--foil-model hammerstad-groiss|huray] to set every copper layer's roughness
 
 lengths take units: um, mm, mil, in (and oz for copper thickness); plain numbers are metres.";
 
@@ -51,6 +65,8 @@ fn run(args: &[String]) -> Result<()> {
         "calc" => calc(rest, false),
         "solve" => calc(rest, true),
         "batch" => batch(),
+        "loss" => loss_cmd(rest),
+        "touchstone" => touchstone_cmd(rest),
         "kinds" => {
             for (name, what) in case::KINDS {
                 println!("{name:<24} {what}");
@@ -319,4 +335,255 @@ fn batch_line(line: &str) -> Result<Value> {
     let solve = map.contains_key("target");
     let (case, e) = compute(&kind, map, solve)?;
     Ok(evaluated_json(&case, &e))
+}
+
+/// The project, the rule called `--rule`, and its loss model (after synthesis of its free dimension).
+fn rule_model(
+    path: &str,
+    map: &mut BTreeMap<String, String>,
+) -> Result<(Project, String, loss::LineModel)> {
+    let name = map
+        .remove("rule")
+        .ok_or_else(|| anyhow!("--rule: missing (the name of the rule to compute)"))?;
+    let mut project = Project::from_json(&read_input(path)?)?;
+    apply_foil(&mut project, map)?;
+    let Some(rule) = project.rules.iter().find(|r| r.name == name) else {
+        let names: Vec<&str> = project.rules.iter().map(|r| r.name.as_str()).collect();
+        bail!(
+            "--rule: no rule named {name:?}; the project's rules are {}",
+            names
+                .iter()
+                .map(|n| format!("{n:?}"))
+                .collect::<Vec<_>>()
+                .join(", ")
+        );
+    };
+    let result = ohmstack_core::plan::analyze_rule(&project, rule)?;
+    let dims = Dims {
+        w: result.width_m,
+        s: result.spacing_m,
+        gap: result.gap_m,
+    };
+    let model = loss::for_rule(&project, rule, &result.cross_section, &dims)?;
+    Ok((project, name, model))
+}
+
+/// Reads `--from --to --points` (each optional, defaults 10 MHz, 40 GHz, 50).
+fn sweep_flags(map: &mut BTreeMap<String, String>) -> Result<loss::Sweep> {
+    let mut sweep = loss::Sweep::default();
+    if let Some(t) = map.remove("from") {
+        sweep.from_hz = parse_frequency("from", &t)?;
+    }
+    if let Some(t) = map.remove("to") {
+        sweep.to_hz = parse_frequency("to", &t)?;
+    }
+    if let Some(t) = map.remove("points") {
+        sweep.points = t
+            .trim()
+            .parse()
+            .map_err(|_| anyhow!("points: cannot read {t:?}, expected a whole number"))?;
+    }
+    sweep.frequencies()?;
+    Ok(sweep)
+}
+
+fn one_path(positional: &[String], cmd: &str) -> Result<String> {
+    match positional {
+        [path] => Ok(path.clone()),
+        _ => bail!("{cmd} takes one FILE (or - for stdin)"),
+    }
+}
+
+fn no_more_flags(map: &BTreeMap<String, String>, cmd: &str) -> Result<()> {
+    if let Some(k) = map.keys().next() {
+        bail!("--{k}: not an option of {cmd}");
+    }
+    Ok(())
+}
+
+fn loss_cmd(args: &[String]) -> Result<()> {
+    let (mut map, json, positional) = flags(args)?;
+    let path = one_path(&positional, "loss")?;
+    let freq = map.remove("freq");
+    let has_sweep = ["from", "to", "points"]
+        .iter()
+        .any(|k| map.contains_key(*k));
+    let freqs = match (freq, has_sweep) {
+        (Some(_), true) => {
+            bail!("--freq: give either --freq or a sweep (--from/--to/--points), not both")
+        }
+        (Some(t), false) => {
+            let f = parse_frequency("freq", &t)?;
+            ohmstack_core::error::in_range("freq", f, 1.0, loss::MAX_FREQ_HZ, "Hz")?;
+            vec![f]
+        }
+        (None, _) => sweep_flags(&mut map)?.frequencies()?,
+    };
+    let (_, name, model) = rule_model(&path, &mut map)?;
+    no_more_flags(&map, "loss")?;
+    let points = freqs
+        .iter()
+        .map(|&f| model.at(f))
+        .collect::<std::result::Result<Vec<_>, _>>()?;
+    if json {
+        let v = json!({
+            "rule": name,
+            "structure": model.structure.label(),
+            "family": model.cross_section.family(),
+            "width_m": model.dims.w,
+            "spacing_m": model.dims.s,
+            "gap_m": model.dims.gap,
+            "r_dc_ohm_per_m": model.r_dc_per_m(),
+            "inputs": model.inputs,
+            "points": points,
+        });
+        println!("{}", serde_json::to_string_pretty(&v)?);
+        return Ok(());
+    }
+    println!(
+        "{name}: {} {} (loss in dB per inch; delay in ps per inch)",
+        model.cross_section.family(),
+        model.structure.label()
+    );
+    println!(
+        "{:>12} {:>5} {:>7} {:>7} {:>8} {:>9} {:>7} {:>9} {:>9} {:>9} {:>9} {:>8}",
+        "freq",
+        "mode",
+        "Dk",
+        "Df",
+        "Re Z0",
+        "Im Z0",
+        "Dk eff",
+        "cond",
+        "diel",
+        "total",
+        "dB/m",
+        "delay"
+    );
+    let mut notes: Vec<String> = Vec::new();
+    for p in &points {
+        let modes: Vec<(&str, &loss::ModeLoss)> = match (&p.line, &p.odd, &p.even) {
+            (Some(l), _, _) => vec![("line", l)],
+            (None, Some(o), Some(e)) => vec![("odd", o), ("even", e)],
+            _ => vec![],
+        };
+        for (label, m) in modes {
+            println!(
+                "{:>12} {:>5} {:>7.4} {:>7.5} {:>8.3} {:>9.4} {:>7.4} {:>9.5} {:>9.5} {:>9.5} {:>9.4} {:>8.3}",
+                format_freq(p.freq_hz),
+                label,
+                p.dk,
+                p.df,
+                m.z0_re_ohm,
+                m.z0_im_ohm,
+                m.eps_eff,
+                m.conductor.db_per_in,
+                m.dielectric.db_per_in,
+                m.total.db_per_in,
+                m.total.db_per_m,
+                m.group_delay_s_per_m * ohmstack_core::units::INCH * 1e12
+            );
+        }
+        for w in &p.warnings {
+            if !notes.contains(&w.message) {
+                notes.push(w.message.clone());
+            }
+        }
+    }
+    for n in notes {
+        println!("  note: {n}");
+    }
+    Ok(())
+}
+
+fn touchstone_cmd(args: &[String]) -> Result<()> {
+    // `-o FILE` is the one short option; the flag parser reads long options only.
+    let args: Vec<String> = args
+        .iter()
+        .map(|a| {
+            if a == "-o" {
+                "--output".to_string()
+            } else {
+                a.clone()
+            }
+        })
+        .collect();
+    let (mut map, json, positional) = flags(&args)?;
+    if json {
+        bail!("--json: not an option of touchstone");
+    }
+    let path = one_path(&positional, "touchstone")?;
+    let length = map
+        .remove("length")
+        .ok_or_else(|| anyhow!("--length: missing (the segment length, e.g. 100mm)"))?;
+    let length = parse_length("length", &length)?;
+    let z_ref = match map.remove("z-ref") {
+        Some(t) => parse_number("z-ref", &t, &["ohm", "Ω"])?,
+        None => 50.0,
+    };
+    ohmstack_core::error::in_range("z-ref", z_ref, 1.0, 1000.0, "Ω")?;
+    let output = map.remove("output");
+    let sweep = sweep_flags(&mut map)?;
+    let (project, name, model) = rule_model(&path, &mut map)?;
+    no_more_flags(&map, "touchstone")?;
+    let title = format!("{} — rule {name}", project.title);
+    let (text, ports) = touchstone::segment(&model, length, z_ref, &sweep.frequencies()?, &title)?;
+    match output {
+        None => print!("{text}"),
+        Some(file) => {
+            let want = format!(".s{ports}p");
+            if !file.to_ascii_lowercase().ends_with(&want) {
+                bail!(
+                    "--output: a {ports}-port Touchstone file should end in {want} (got {file:?})"
+                );
+            }
+            std::fs::write(&file, text).with_context(|| format!("--output: writing {file}"))?;
+        }
+    }
+    Ok(())
+}
+
+/// A frequency in the largest unit that keeps it at or above 1 (`2.4 GHz`, `10 MHz`).
+fn format_freq(hz: f64) -> String {
+    let (scale, unit) = match hz {
+        f if f >= 1e9 => (1e9, "GHz"),
+        f if f >= 1e6 => (1e6, "MHz"),
+        f if f >= 1e3 => (1e3, "kHz"),
+        _ => (1.0, "Hz"),
+    };
+    format!("{} {unit}", format_sig(hz / scale, 4))
+}
+
+/// `--foil standard|low-profile|very-low-profile|smooth` with `--foil-model hammerstad-groiss|huray` sets the
+/// roughness of every copper layer (a what-if over the project's own values).
+fn apply_foil(project: &mut Project, map: &mut BTreeMap<String, String>) -> Result<()> {
+    let model = map.remove("foil-model");
+    let Some(name) = map.remove("foil") else {
+        if model.is_some() {
+            bail!("--foil-model: only with --foil");
+        }
+        return Ok(());
+    };
+    let roughness = if name.trim().eq_ignore_ascii_case("smooth") {
+        Roughness::Smooth
+    } else {
+        let foil = Foil::from_label(&name).ok_or_else(|| {
+            anyhow!("--foil: unknown foil {name:?}; use standard, low-profile, very-low-profile or smooth")
+        })?;
+        match model
+            .as_deref()
+            .map(|m| m.trim().to_ascii_lowercase().replace('_', "-"))
+        {
+            None => foil.hammerstad_groiss(),
+            Some(m) if m == "hammerstad-groiss" => foil.hammerstad_groiss(),
+            Some(m) if m == "huray" => foil.huray(),
+            Some(m) => bail!("--foil-model: unknown model {m:?}; use hammerstad-groiss or huray"),
+        }
+    };
+    for layer in &mut project.stackup.layers {
+        if let ohmstack_core::Layer::Copper(c) = layer {
+            c.roughness = Some(roughness);
+        }
+    }
+    Ok(())
 }

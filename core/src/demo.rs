@@ -11,6 +11,7 @@ fn copper(name: &str, um: f64, role: CopperRole) -> Layer {
         thickness_m: um * 1e-6,
         role,
         fill_pct: None,
+        roughness: None,
     })
 }
 
@@ -131,6 +132,7 @@ pub fn project() -> Project {
         units: LengthUnit::Um,
         analysis_freq_hz: 1e9,
         fab: Fab::default(),
+        loss: Default::default(),
         stackup: Stackup { layers },
         rules: vec![
             rule(

@@ -14,14 +14,19 @@
 pub mod case;
 pub mod cross_section;
 pub mod demo;
+pub mod dielectric;
+pub mod dispersion;
 pub mod error;
 pub mod lines;
+pub mod loss;
 pub mod microstrip;
 pub mod models;
 pub mod plan;
 pub mod project;
+pub mod roughness;
 pub mod stackup;
 pub mod synth;
+pub mod touchstone;
 pub mod units;
 pub mod validity;
 

@@ -60,6 +60,10 @@ pub struct RuleResult {
     pub inductance_per_m: f64,
     pub capacitance_per_m: f64,
     pub analysis: Analysis,
+    /// Loss, complex Z0 and delay at the project's analysis frequency (`None` when the loss model does not apply;
+    /// the reason is then among the warnings).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub loss: Option<crate::loss::LossAt>,
     pub cross_section: CrossSection,
     pub warnings: Vec<Warning>,
 }
@@ -155,6 +159,18 @@ pub fn analyze_rule(project: &Project, rule: &ImpedanceRule) -> Result<RuleResul
     let deviation_pct = (z - rule.target_ohm) / rule.target_ohm * 100.0;
     let mut warnings = cs.warnings.clone();
     warnings.extend(evaluated.analysis.warnings().iter().cloned());
+    let loss = match crate::loss::for_rule(project, rule, &cs, &dims)
+        .and_then(|m| m.at(project.analysis_freq_hz))
+    {
+        Ok(at) => {
+            warnings.extend(at.warnings.iter().cloned());
+            Some(at)
+        }
+        Err(e) => {
+            warnings.push(Warning::new(format!("loss not computed: {e}")));
+            None
+        }
+    };
     Ok(RuleResult {
         name: rule.name.clone(),
         layer: rule.layer.clone(),
@@ -179,6 +195,7 @@ pub fn analyze_rule(project: &Project, rule: &ImpedanceRule) -> Result<RuleResul
         inductance_per_m: signal.inductance_per_m(),
         capacitance_per_m: signal.capacitance_per_m(),
         analysis: evaluated.analysis,
+        loss,
         cross_section: cs,
         warnings,
     })

@@ -143,6 +143,9 @@ pub struct Project {
     pub analysis_freq_hz: f64,
     #[serde(default)]
     pub fab: Fab,
+    /// Options of the loss model (conductivity, dielectric and dispersion models).
+    #[serde(default, skip_serializing_if = "crate::loss::LossOptions::is_default")]
+    pub loss: crate::loss::LossOptions,
     pub stackup: Stackup,
     #[serde(default)]
     pub rules: Vec<ImpedanceRule>,
@@ -206,6 +209,7 @@ impl Project {
         if let Some(ef) = self.fab.etch_factor {
             error::in_range("fab.etch_factor", ef, 0.5, 100.0, "")?;
         }
+        self.loss.validate()?;
         self.stackup.validate()?;
         if self.rules.len() > MAX_RULES {
             return Err(Error::Invalid {

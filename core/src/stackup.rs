@@ -39,6 +39,9 @@ pub struct Copper {
     /// Share of the layer's area covered by copper, %; `None` takes the role's default.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub fill_pct: Option<f64>,
+    /// Surface roughness of the foil for conductor loss; `None` is smooth copper.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub roughness: Option<crate::roughness::Roughness>,
 }
 
 impl Copper {
@@ -177,6 +180,9 @@ impl Stackup {
                     error::length_or_zero(&at("thickness"), c.thickness_m)?;
                     if let Some(fill) = c.fill_pct {
                         error::in_range(&at("fill"), fill, 0.0, 100.0, "%")?;
+                    }
+                    if let Some(r) = &c.roughness {
+                        r.validate(&at("roughness"))?;
                     }
                 }
                 Layer::Core(d) | Layer::Prepreg(d) | Layer::SolderMask(d) => {
