@@ -131,6 +131,7 @@ pub fn project() -> Project {
         units: LengthUnit::Um,
         analysis_freq_hz: 1e9,
         fab: Fab::default(),
+        process: None,
         stackup: Stackup { layers },
         rules: vec![
             rule(

@@ -20,12 +20,14 @@ pub mod microstrip;
 pub mod models;
 pub mod plan;
 pub mod project;
+pub mod spread;
 pub mod stackup;
 pub mod synth;
 pub mod units;
 pub mod validity;
 
 pub use error::{Error, Result};
-pub use plan::{plan, Plan, RuleOutcome, RuleResult};
+pub use plan::{plan, plan_with, Plan, PlanOptions, RuleOutcome, RuleResult};
 pub use project::{ImpedanceRule, Project, Solve, Structure};
+pub use spread::{Process, SpreadSummary};
 pub use stackup::{Layer, Stackup};

@@ -2,6 +2,7 @@
 //! Serialised as JSON with `"schema": 1`; unknown or wrong fields are errors that name the field's path.
 
 use crate::error::{self, Error, Result};
+use crate::spread::Process;
 use crate::stackup::{Layer, Stackup};
 use crate::units::LengthUnit;
 use serde::{Deserialize, Serialize};
@@ -143,6 +144,9 @@ pub struct Project {
     pub analysis_freq_hz: f64,
     #[serde(default)]
     pub fab: Fab,
+    /// Process variation for tolerance spread; `None` takes the common-practice defaults of [`Process::default`].
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub process: Option<Process>,
     pub stackup: Stackup,
     #[serde(default)]
     pub rules: Vec<ImpedanceRule>,
@@ -207,6 +211,9 @@ impl Project {
             error::in_range("fab.etch_factor", ef, 0.5, 100.0, "")?;
         }
         self.stackup.validate()?;
+        if let Some(process) = &self.process {
+            process.validate(&self.stackup)?;
+        }
         if self.rules.len() > MAX_RULES {
             return Err(Error::Invalid {
                 field: "rules".into(),
