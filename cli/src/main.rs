@@ -4,7 +4,7 @@
 use anyhow::{anyhow, bail, Context, Result};
 use ohmstack_core::case::{self, LineCase};
 use ohmstack_core::models::{Analysis, Evaluated};
-use ohmstack_core::spread::{self, SpreadOptions, SpreadSummary};
+use ohmstack_core::spread::{self, SampleModel, SpreadOptions, SpreadSummary};
 use ohmstack_core::units::{format_length, format_sig, LengthUnit};
 use ohmstack_core::{Project, RuleOutcome};
 use serde_json::{json, Value};
@@ -21,9 +21,10 @@ usage:
                                         ohmstack calc microstrip --width 0.3mm --height 0.17mm --thickness 35um --dk 4.2
   ohmstack solve KIND --target OHMS --field value ... [--json]
                                         find the width that gives the target impedance
-  ohmstack spread FILE|- [--rule NAME] [--samples N] [--seed S] [--json]
+  ohmstack spread FILE|- [--rule NAME] [--samples N] [--seed S] [--model direct|quadratic] [--json]
                                         tolerance spread and yield per rule: corners, Monte Carlo,
-                                        sensitivities, tolerance-centred width (default 10000 samples, seed 1)
+                                        sensitivities, tolerance-centred width (default 10000 samples, seed 1;
+                                        quadratic = the fast response surface the app uses)
   ohmstack random normal|uniform [--count N] [--seed S]
                                         the spread's seeded random stream, one number a line (for checks)
   ohmstack batch                        JSON lines of cases on stdin, JSON lines of results on stdout
@@ -354,6 +355,11 @@ fn spread(args: &[String]) -> Result<()> {
     let samples = parse_count::<usize>(&mut map, "samples")?.unwrap_or(spread::DEFAULT_SAMPLES);
     let seed = parse_count::<u64>(&mut map, "seed")?.unwrap_or(spread::DEFAULT_SEED);
     let only = map.remove("rule");
+    let model = match map.remove("model").as_deref() {
+        None | Some("direct") => SampleModel::Direct,
+        Some("quadratic") => SampleModel::Quadratic,
+        Some(other) => bail!("--model: {other:?} is not direct or quadratic"),
+    };
     if let Some(k) = map.keys().next() {
         bail!("--{k}: not an option of spread");
     }
@@ -380,6 +386,7 @@ fn spread(args: &[String]) -> Result<()> {
         samples,
         seed,
         centre: true,
+        model,
     };
     let mut out = Vec::new();
     for rule in rules {

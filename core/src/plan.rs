@@ -6,7 +6,7 @@ use crate::error::Result;
 use crate::lines::{reflection, return_loss_db, SingleLine};
 use crate::models::{self, Analysis, Dims};
 use crate::project::{ImpedanceRule, Project, Solve};
-use crate::spread::{self, SpreadOptions, SpreadSummary};
+use crate::spread::{self, SampleModel, SpreadOptions, SpreadSummary};
 use crate::stackup::Layer;
 use crate::synth::{self, Bracket};
 use crate::units::{format_length, MAX_LENGTH_M};
@@ -94,6 +94,9 @@ pub struct PlanOptions {
     pub spread_samples: usize,
     /// Seed of the spread's random stream (each rule mixes in its name).
     pub seed: u64,
+    /// What the spread's samples call: the model itself, or its quadratic response surface (fast enough to
+    /// recompute on every edit).
+    pub spread_model: SampleModel,
 }
 
 impl Default for PlanOptions {
@@ -102,6 +105,7 @@ impl Default for PlanOptions {
         PlanOptions {
             spread_samples: 0,
             seed: spread::DEFAULT_SEED,
+            spread_model: SampleModel::Quadratic,
         }
     }
 }
@@ -112,6 +116,7 @@ impl PlanOptions {
         PlanOptions {
             spread_samples: spread::DEFAULT_SAMPLES,
             seed: spread::DEFAULT_SEED,
+            spread_model: SampleModel::Quadratic,
         }
     }
 }
@@ -162,6 +167,7 @@ pub fn plan_with(project: &Project, options: &PlanOptions) -> Result<Plan> {
                         samples: options.spread_samples,
                         seed: options.seed,
                         centre: true,
+                        model: options.spread_model,
                     };
                     match spread::run(project, rule, &r, &opts) {
                         Ok(s) => r.spread = Some(s),

@@ -195,6 +195,8 @@ pub struct Centred {
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct SpreadSummary {
     pub seed: u64,
+    /// What the corners and samples called.
+    pub model: SampleModel,
     pub target_ohm: f64,
     pub lower_ohm: f64,
     pub upper_ohm: f64,
@@ -212,6 +214,19 @@ pub struct SpreadSummary {
     pub warnings: Vec<Warning>,
 }
 
+/// What the corners and the Monte Carlo samples call.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Default)]
+#[serde(rename_all = "snake_case")]
+pub enum SampleModel {
+    /// The impedance model itself on every sample (the reference; about 1.5 µs per closed-form call natively).
+    #[default]
+    Direct,
+    /// A quadratic response surface of the impedance model, fitted once per rule from 1 + 2n + 2n(n−1) model
+    /// calls at the ± limits (exact on the axes and at the pairwise corners); then tens of nanoseconds a sample.
+    /// This is the mode for recomputing on every keystroke.
+    Quadratic,
+}
+
 /// Options of one spread run.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct SpreadOptions {
@@ -219,6 +234,7 @@ pub struct SpreadOptions {
     pub seed: u64,
     /// Also find the tolerance-centred dimension (one more Monte Carlo run).
     pub centre: bool,
+    pub model: SampleModel,
 }
 
 impl Default for SpreadOptions {
@@ -227,7 +243,85 @@ impl Default for SpreadOptions {
             samples: DEFAULT_SAMPLES,
             seed: DEFAULT_SEED,
             centre: true,
+            model: SampleModel::Direct,
         }
+    }
+}
+
+/// A quadratic response surface Z(δ) = z0 + Σ aₖδₖ + Σ bₖδₖ² + Σ_{j<k} c_jk δⱼδₖ of the parameter deviations.
+///
+/// Fitted by central differences at ± each limit (aₖ, bₖ) and at the four pairwise corners (c_jk), so it
+/// reproduces the model exactly on every axis point and pairwise corner. Any model can be fitted the same way,
+/// which is the intended shape for a field-solver response surface as well.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Quadratic {
+    z0: f64,
+    lin: Vec<f64>,
+    sq: Vec<f64>,
+    /// Upper triangle, row by row: (0,1), (0,2), …, (1,2), …
+    cross: Vec<f64>,
+}
+
+impl Quadratic {
+    /// Fits the surface to `z` over the parameters' ± limits.
+    pub fn fit(
+        params: &[Parameter],
+        z: &mut dyn FnMut(&[f64]) -> Result<f64>,
+    ) -> Result<Quadratic> {
+        let n = params.len();
+        let mut dev = vec![0.0; n];
+        let z0 = z(&dev)?;
+        let mut lin = Vec::with_capacity(n);
+        let mut sq = Vec::with_capacity(n);
+        for (k, p) in params.iter().enumerate() {
+            let l = p.limit;
+            dev[k] = l;
+            let zp = z(&dev)?;
+            dev[k] = -l;
+            let zm = z(&dev)?;
+            dev[k] = 0.0;
+            lin.push((zp - zm) / (2.0 * l));
+            sq.push((zp - 2.0 * z0 + zm) / (2.0 * l * l));
+        }
+        let mut cross = Vec::with_capacity(n * n.saturating_sub(1) / 2);
+        for a in 0..n {
+            for b in a + 1..n {
+                let (la, lb) = (params[a].limit, params[b].limit);
+                let mut at = |sa: f64, sb: f64| {
+                    dev[a] = sa * la;
+                    dev[b] = sb * lb;
+                    let v = z(&dev);
+                    dev[a] = 0.0;
+                    dev[b] = 0.0;
+                    v
+                };
+                let (pp, pm, mp, mm) = (
+                    at(1.0, 1.0)?,
+                    at(1.0, -1.0)?,
+                    at(-1.0, 1.0)?,
+                    at(-1.0, -1.0)?,
+                );
+                cross.push((pp - pm - mp + mm) / (4.0 * la * lb));
+            }
+        }
+        Ok(Quadratic { z0, lin, sq, cross })
+    }
+
+    /// The surface at deviations `d`.
+    pub fn z(&self, d: &[f64]) -> f64 {
+        let n = self.lin.len().min(d.len());
+        let mut z = self.z0;
+        let mut c = 0;
+        for a in 0..n {
+            let da = d[a];
+            let mut row = self.lin[a] + self.sq[a] * da;
+            for &db in &d[a + 1..n] {
+                row += self.cross[c] * db;
+                c += 1;
+            }
+            z += row * da;
+        }
+        z
     }
 }
 
@@ -862,6 +956,30 @@ pub fn percentile(sorted: &[f64], q: f64) -> f64 {
     }
 }
 
+/// The seeded standard deviates of a run: `samples` rows of one value per parameter, N(0, 1) for normal and
+/// U(−1, 1) for uniform parameters (scaled by each limit when used). Drawn once so that a second run (tolerance
+/// centring) reuses the very same deviates.
+pub fn standard_draws(params: &[Parameter], samples: usize, seed: u64) -> Result<Vec<f64>> {
+    crate::error::in_range(
+        "samples",
+        samples as f64,
+        MIN_SAMPLES as f64,
+        MAX_SAMPLES as f64,
+        "",
+    )?;
+    let mut rng = Rng::new(seed);
+    let mut out = Vec::with_capacity(samples * params.len());
+    for _ in 0..samples {
+        for p in params {
+            out.push(match p.distribution {
+                Distribution::Normal => rng.normal(),
+                Distribution::Uniform => rng.symmetric(),
+            });
+        }
+    }
+    Ok(out)
+}
+
 /// Seeded Monte Carlo of `samples` draws. Returns the statistics and the sorted successful values.
 pub fn monte_carlo(
     params: &[Parameter],
@@ -871,23 +989,37 @@ pub fn monte_carlo(
     upper: f64,
     z: &mut dyn FnMut(&[f64]) -> Result<f64>,
 ) -> Result<(MonteCarlo, Vec<f64>)> {
-    crate::error::in_range(
-        "samples",
-        samples as f64,
-        MIN_SAMPLES as f64,
-        MAX_SAMPLES as f64,
-        "",
-    )?;
-    let mut rng = Rng::new(seed);
+    let draws = standard_draws(params, samples, seed)?;
+    monte_carlo_on(params, &draws, lower, upper, z)
+}
+
+/// Monte Carlo over deviates from [`standard_draws`].
+pub fn monte_carlo_on(
+    params: &[Parameter],
+    draws: &[f64],
+    lower: f64,
+    upper: f64,
+    z: &mut dyn FnMut(&[f64]) -> Result<f64>,
+) -> Result<(MonteCarlo, Vec<f64>)> {
+    let n = params.len().max(1);
+    let samples = if params.is_empty() {
+        draws.len()
+    } else {
+        draws.len() / n
+    };
+    let scale: Vec<f64> = params
+        .iter()
+        .map(|p| match p.distribution {
+            Distribution::Normal => p.limit / 3.0,
+            Distribution::Uniform => p.limit,
+        })
+        .collect();
     let mut dev = vec![0.0; params.len()];
     let mut values = Vec::with_capacity(samples);
     let mut first_error = None;
-    for _ in 0..samples {
-        for (d, p) in dev.iter_mut().zip(params) {
-            *d = match p.distribution {
-                Distribution::Normal => p.limit / 3.0 * rng.normal(),
-                Distribution::Uniform => p.limit * rng.symmetric(),
-            };
+    for row in draws.chunks_exact(n).take(samples) {
+        for ((d, s), r) in dev.iter_mut().zip(&scale).zip(row) {
+            *d = s * r;
         }
         match z(&dev) {
             Ok(v) if v.is_finite() => values.push(v),
@@ -1029,10 +1161,19 @@ pub fn run_with_model(
     let seed = rule_seed(opts.seed, &rule.name);
     let (lower, upper) = (setup.lower_ohm, setup.upper_ohm);
     let mut ev = setup.evaluator(model);
-    let mut f = |d: &[f64]| ev.z(d);
-    let (z0, sens) = sensitivities(&setup.params, &mut f)?;
+    let mut direct = |d: &[f64]| ev.z(d);
+    let (z0, sens) = sensitivities(&setup.params, &mut direct)?;
+    let surface = match opts.model {
+        SampleModel::Direct => None,
+        SampleModel::Quadratic => Some(Quadratic::fit(&setup.params, &mut direct)?),
+    };
+    let mut f = |d: &[f64]| match &surface {
+        Some(q) => Ok(q.z(d)),
+        None => direct(d),
+    };
     let corners = corners(&setup.params, &sens, lower, upper, &mut f);
-    let (mc, sorted) = monte_carlo(&setup.params, opts.samples, seed, lower, upper, &mut f)?;
+    let draws = standard_draws(&setup.params, opts.samples, seed)?;
+    let (mc, sorted) = monte_carlo_on(&setup.params, &draws, lower, upper, &mut f)?;
     let linear_sigma = sens
         .iter()
         .zip(&setup.params)
@@ -1054,7 +1195,7 @@ pub fn run_with_model(
         )));
     }
     let centred = if opts.centre {
-        match centre(project, &setup, model, &sorted, z0, &mc, opts.samples, seed) {
+        match centre(project, &setup, model, &sorted, z0, &mc, opts, &draws) {
             Ok(c) => Some(c),
             Err(e) => {
                 warnings.push(Warning::new(format!("tolerance centring: {e}")));
@@ -1068,6 +1209,7 @@ pub fn run_with_model(
     sorted_sens.sort_by(|a, b| b.impact_ohm.abs().total_cmp(&a.impact_ohm.abs()));
     Ok(SpreadSummary {
         seed: opts.seed,
+        model: opts.model,
         target_ohm: setup.target_ohm,
         lower_ohm: lower,
         upper_ohm: upper,
@@ -1091,8 +1233,8 @@ fn centre(
     sorted: &[f64],
     z0: f64,
     mc: &MonteCarlo,
-    samples: usize,
-    seed: u64,
+    opts: &SpreadOptions,
+    draws: &[f64],
 ) -> Result<Centred> {
     let x0 = setup.free_value();
     let keep = || Centred {
@@ -1130,11 +1272,18 @@ fn centre(
     })?;
     let moved = setup.with_free(x);
     let mut ev = moved.evaluator(model);
-    let mut f = |d: &[f64]| ev.z(d);
-    let (mc_c, _) = monte_carlo(
+    let mut direct = |d: &[f64]| ev.z(d);
+    let surface = match opts.model {
+        SampleModel::Direct => None,
+        SampleModel::Quadratic => Some(Quadratic::fit(&moved.params, &mut direct)?),
+    };
+    let mut f = |d: &[f64]| match &surface {
+        Some(q) => Ok(q.z(d)),
+        None => direct(d),
+    };
+    let (mc_c, _) = monte_carlo_on(
         &moved.params,
-        samples,
-        seed,
+        draws,
         moved.lower_ohm,
         moved.upper_ohm,
         &mut f,

@@ -81,7 +81,7 @@ fn run_default(p: &Project, samples: usize, seed: u64) -> SpreadSummary {
     let opts = SpreadOptions {
         samples,
         seed,
-        centre: true,
+        ..SpreadOptions::default()
     };
     run_rule(p, &p.rules[0], &opts).unwrap()
 }
@@ -500,6 +500,7 @@ fn plan_with_attaches_the_spread_and_plan_does_not() {
     let opts = crate::PlanOptions {
         spread_samples: 1_000,
         seed: 3,
+        ..crate::PlanOptions::default()
     };
     let with = crate::plan_with(&p, &opts).unwrap();
     let r = with.rules[0].ok().unwrap();
@@ -529,4 +530,59 @@ fn etch_factor_enters_only_when_the_fab_gives_one() {
         .unwrap();
     // A larger etch factor means straighter walls, a wider mean width, lower Z.
     assert!(ef.dz_dp < 0.0);
+}
+
+#[test]
+fn quadratic_surface_reproduces_the_direct_monte_carlo() {
+    // Reference: the same run calling the closed-form model on every sample. The surface is exact on axes and
+    // pairwise corners; elsewhere the cubic terms remain. Allow 0.02 Ω on the mean, 1 % on σ, 0.5 points of yield
+    // (the same seed draws the same deviations, so the difference is the surface's error alone).
+    for (p, tol_pct) in [(surface(None), 5.0), (crate::demo::project(), 5.0)] {
+        let mut p = p;
+        p.rules.truncate(1);
+        p.rules[0].tolerance_pct = tol_pct;
+        let run = |model| {
+            let opts = SpreadOptions {
+                samples: 10_000,
+                seed: 21,
+                model,
+                ..SpreadOptions::default()
+            };
+            run_rule(&p, &p.rules[0], &opts).unwrap()
+        };
+        let (d, q) = (run(SampleModel::Direct), run(SampleModel::Quadratic));
+        let (md, mq) = (&d.monte_carlo, &q.monte_carlo);
+        assert!(
+            (md.mean_ohm - mq.mean_ohm).abs() < 0.02,
+            "{} vs {}",
+            md.mean_ohm,
+            mq.mean_ohm
+        );
+        assert!((md.sigma_ohm - mq.sigma_ohm).abs() / md.sigma_ohm < 0.01);
+        assert!(
+            (md.yield_pct - mq.yield_pct).abs() < 0.5,
+            "{} vs {}",
+            md.yield_pct,
+            mq.yield_pct
+        );
+        assert!((d.corners.min_ohm - q.corners.min_ohm).abs() < 0.1);
+        assert!((d.corners.max_ohm - q.corners.max_ohm).abs() < 0.1);
+    }
+}
+
+#[test]
+fn quadratic_surface_is_exact_for_a_quadratic() {
+    // Exact: a quadratic in the deviations is its own response surface.
+    let params = vec![
+        toy(Distribution::Normal, 1.0).remove(0),
+        toy(Distribution::Uniform, 2.0).remove(0),
+        toy(Distribution::Normal, 0.5).remove(0),
+    ];
+    let f = |d: &[f64]| {
+        3.0 + 2.0 * d[0] - d[1] + 0.5 * d[0] * d[0] + 0.25 * d[0] * d[2] - 0.1 * d[1] * d[2]
+    };
+    let q = Quadratic::fit(&params, &mut |d| Ok(f(d))).unwrap();
+    for d in [[0.3, -1.2, 0.4], [-0.9, 1.9, -0.5], [0.0, 0.0, 0.0]] {
+        assert!((q.z(&d) - f(&d)).abs() < 1e-12, "{d:?}");
+    }
 }
