@@ -61,6 +61,9 @@ pub const DEFAULT_SEED: u64 = 1;
 pub const HISTOGRAM_BINS: usize = 32;
 /// Up to this many varied parameters every corner (2^n) is evaluated.
 pub const MAX_FULL_CORNERS: usize = 8;
+/// Up to this many varied parameters the second-order cross terms (Dk series combination, response surface) are
+/// fitted; beyond it only the diagonal terms, so that an absurd stack cannot make setup quadratic in cost.
+pub const MAX_CROSS_PARAMS: usize = 24;
 
 /// The impedance model the spread calls per sample: the controlled impedance (Z0, or Zdiff for pairs), Ω.
 pub trait ImpedanceModel {
@@ -251,7 +254,8 @@ impl Default for SpreadOptions {
 /// A quadratic response surface Z(δ) = z0 + Σ aₖδₖ + Σ bₖδₖ² + Σ_{j<k} c_jk δⱼδₖ of the parameter deviations.
 ///
 /// Fitted by central differences at ± each limit (aₖ, bₖ) and at the four pairwise corners (c_jk), so it
-/// reproduces the model exactly on every axis point and pairwise corner. Any model can be fitted the same way,
+/// reproduces the model exactly on every axis point and pairwise corner (cross terms only up to
+/// [`MAX_CROSS_PARAMS`] parameters). Any model can be fitted the same way,
 /// which is the intended shape for a field-solver response surface as well.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Quadratic {
@@ -286,6 +290,10 @@ impl Quadratic {
         let mut cross = Vec::with_capacity(n * n.saturating_sub(1) / 2);
         for a in 0..n {
             for b in a + 1..n {
+                if n > MAX_CROSS_PARAMS {
+                    cross.push(0.0);
+                    continue;
+                }
                 let (la, lb) = (params[a].limit, params[b].limit);
                 let mut at = |sa: f64, sb: f64| {
                     dev[a] = sa * la;
@@ -705,7 +713,12 @@ impl Setup {
                 continue;
             }
             let la = params[a].limit;
-            for b in a..params.len() {
+            let last = if params.len() <= MAX_CROSS_PARAMS {
+                params.len()
+            } else {
+                a + 1
+            };
+            for b in a..last {
                 let Some((ib, db)) = knobs[b] else { continue };
                 if !touches(b) {
                     continue;
