@@ -592,7 +592,10 @@ fn many_layers_use_the_sign_corners_which_still_bound_the_samples() {
     // Ten thin cores of alternating Dk under the trace: 22 parameters, too many for 2^n corners. For a model
     // monotone in each parameter the two sign corners are the true extremes, so uniform samples stay inside them.
     let mut process = Process::default();
-    all(Tolerance::abs(0.0).with(Distribution::Uniform), &mut process);
+    all(
+        Tolerance::abs(0.0).with(Distribution::Uniform),
+        &mut process,
+    );
     let mut p = surface(Some(process));
     let mut layers = vec![copper("L1", 35.0, CopperRole::Signal)];
     for i in 0..10 {
@@ -611,7 +614,13 @@ fn many_layers_use_the_sign_corners_which_still_bound_the_samples() {
         let s = run_rule(&p, &p.rules[0], &opts).unwrap();
         assert_eq!(s.parameters.len(), 22);
         assert_eq!(s.corners.method, "two corners from the sensitivity signs");
-        assert!(s.monte_carlo.min_ohm >= s.corners.min_ohm - 1e-6, "{model:?}");
-        assert!(s.monte_carlo.max_ohm <= s.corners.max_ohm + 1e-6, "{model:?}");
+        assert!(
+            s.monte_carlo.min_ohm >= s.corners.min_ohm - 1e-6,
+            "{model:?}"
+        );
+        assert!(
+            s.monte_carlo.max_ohm <= s.corners.max_ohm + 1e-6,
+            "{model:?}"
+        );
     }
 }
