@@ -7,30 +7,36 @@
 //! [`CrossSection`] (heights, Dk, cover, copper thickness) and of the trace [`Dims`] moves with it. Heights and
 //! thicknesses are sums of layer thicknesses, so that map is exact for them; a mixed-dielectric Dk is a series
 //! combination, kept to second order (curvature and height × Dk cross terms from mixed differences of the
-//! resolve; within 1e-4 relative of a full re-resolve at the limits). Each sample
-//! then costs a few multiply-adds plus one call of the impedance model on a perturbed copy of the cross-section;
-//! synthesis stays out of the sample loop (the solved width is fixed and the etch moves it).
+//! resolve; within 1e-4 relative of a full re-resolve at the limits). Each sample then costs a few multiply-adds
+//! plus one call of the impedance model on a perturbed copy of the cross-section ([`SampleModel::Direct`]), or,
+//! for interactive use, one evaluation of a quadratic response surface of that model fitted once per rule
+//! ([`SampleModel::Quadratic`], [`Quadratic`]). Synthesis stays out of the sample loop: the solved width is fixed
+//! and the etch moves it.
 //!
 //! Methods:
 //! - Corners: when a rule has at most [`MAX_FULL_CORNERS`] varied parameters, all 2^n combinations of the limits
 //!   are evaluated and the extremes kept; with more, only the two corners picked by the signs of the sensitivities
-//!   (exact for a model monotone in each parameter).
-//! - Monte Carlo: N seeded samples (xoshiro256**, Marsaglia polar normals; see [`rng`]); mean, σ, percentiles by
-//!   linear interpolation between order statistics, a histogram, yield = share inside the rule's tolerance window
-//!   (failed samples count as outside), and the process capability Cpk = min(USL − µ, µ − LSL)/(3σ).
-//! - Sensitivities: central differences with a step of a tenth of each limit; first-order propagation
-//!   σ_Z = √Σ(∂Z/∂p·σ_p)² (JCGM 100:2008 "GUM" §5.1.2) and the second-order mean Z0 + ½Σ ∂²Z/∂p²·σ_p² are
-//!   reported beside the Monte Carlo figures.
-//! - Tolerance centring: on the sorted Monte Carlo values, slide a window as wide as the rule's tolerance window
-//!   to where it holds the most samples (midpoint of that position; nearest to no shift on ties); shifting the
-//!   nominal impedance by the same amount is, to first order, the shift that maximises yield. The free dimension
-//!   is solved for that nominal impedance and a second Monte Carlo with the same seed (common random numbers)
-//!   gives the centred yield; if it is not better, the nominal dimension is kept.
+//!   (exact for a model monotone in each parameter). Corners use the same sample model as the Monte Carlo.
+//! - Monte Carlo: N seeded samples (xoshiro256**, ziggurat normals; see [`rng`]); mean, σ, percentiles by linear
+//!   interpolation between order statistics, a histogram, yield = share of all samples inside the rule's
+//!   tolerance window (failed samples count as outside), and the process capability
+//!   Cpk = min(USL − µ, µ − LSL)/(3σ). Each rule draws its own stream (the seed mixed with the rule's name).
+//! - Sensitivities: central differences of the model itself with a step of a tenth of each limit, listed by
+//!   |∂Z/∂p × limit|; first-order propagation σ_Z = √Σ(∂Z/∂p·σ_p)² (JCGM 100:2008 "GUM" §5.1.2) and the
+//!   second-order mean Z0 + ½Σ ∂²Z/∂p²·σ_p² are reported beside the Monte Carlo figures.
+//! - Tolerance centring of the free dimension (the width, or the spacing when the rule solves spacing): on the
+//!   sorted Monte Carlo values, slide a window as wide as the rule's tolerance window to where it holds the most
+//!   samples (midpoint of that position; the smallest shift on ties); shifting the nominal impedance by the same
+//!   amount is, to first order, the shift that maximises yield (when every sample fits, it centres the sampled
+//!   range in the window). The free dimension is solved for that nominal impedance and the same deviates
+//!   (common random numbers) are run again for the centred yield; if it is not better, the nominal is kept.
 //!
-//! The impedance model is a hook ([`ImpedanceModel`]): [`ClosedForm`] calls [`models::evaluate`]; a response
-//! surface fitted over the field solver can implement the same trait, or replace the whole per-sample evaluator,
-//! since [`monte_carlo`], [`corners`] and [`sensitivities`] take any `FnMut(&[f64]) -> Result<f64>` of the
-//! parameter deviations.
+//! The impedance model is a hook ([`ImpedanceModel`]): [`ClosedForm`] calls [`models::evaluate`], so every
+//! structure the models know is covered; a field solver can implement the same trait and be fitted by
+//! [`Quadratic::fit`] into a response surface, or replace the whole per-sample evaluator, since [`monte_carlo`],
+//! [`corners`], [`sensitivities`] and [`Quadratic::fit`] take any `FnMut(&[f64]) -> Result<f64>` of the parameter
+//! deviations. A new [`Medium`] variant needs one line in each of `medium_slots`, `set_medium_slots` and
+//! `dk_slots` (the compiler points there).
 
 pub mod process;
 pub mod rng;
@@ -1211,6 +1217,13 @@ pub fn run_with_model(
         gap: result.gap_m,
     };
     let setup = Setup::new(project, rule, &result.cross_section, &dims)?;
+    if setup.params.is_empty() {
+        return Err(Error::Invalid {
+            field: "process".into(),
+            reason: "no process tolerance varies this rule (every limit that touches it is zero)"
+                .into(),
+        });
+    }
     let seed = rule_seed(opts.seed, &rule.name);
     let (lower, upper) = (setup.lower_ohm, setup.upper_ohm);
     let mut ev = setup.evaluator(model);

@@ -624,3 +624,86 @@ fn many_layers_use_the_sign_corners_which_still_bound_the_samples() {
         );
     }
 }
+
+#[test]
+fn all_zero_tolerances_are_an_error_naming_process() {
+    let zero_pct = Tolerance::pct(0.0);
+    let zero = Tolerance::abs(0.0);
+    let process = Process {
+        etch_width: zero,
+        etch_factor: zero,
+        core_thickness: zero_pct,
+        prepreg_thickness: zero_pct,
+        dk: zero,
+        copper_thickness: zero_pct,
+        mask_thickness: zero,
+        layers: Vec::new(),
+    };
+    let p = surface(Some(process));
+    let e = run_rule(&p, &p.rules[0], &SpreadOptions::default())
+        .unwrap_err()
+        .to_string();
+    assert!(e.starts_with("process"), "{e}");
+    // In a plan the same problem is a note on the rule, not a failed plan.
+    let plan = crate::plan_with(&p, &crate::PlanOptions::with_spread()).unwrap();
+    let r = plan.rules[0].ok().unwrap();
+    assert!(r.spread.is_none());
+    assert!(r
+        .warnings
+        .iter()
+        .any(|w| w.message.starts_with("tolerance spread: process")));
+}
+
+#[test]
+fn extreme_but_legal_process_inputs_never_panic() {
+    // Every limit the validation lets through, on a 50 Ω and an 80 Ω line: each run returns Ok or a typed Err.
+    let mut rng = Rng::new(99);
+    let mut ok = 0;
+    for k in 0..40 {
+        let pick = |r: &mut Rng, max_abs: f64| {
+            let t = if r.uniform() < 0.5 {
+                Tolerance::abs(max_abs * r.uniform().powi(4))
+            } else {
+                Tolerance::pct(50.0 * r.uniform().powi(2))
+            };
+            t.with(if r.uniform() < 0.5 {
+                Distribution::Normal
+            } else {
+                Distribution::Uniform
+            })
+        };
+        let process = Process {
+            etch_width: pick(&mut rng, 1e-3),
+            etch_factor: pick(&mut rng, 50.0),
+            core_thickness: pick(&mut rng, 1e-3),
+            prepreg_thickness: pick(&mut rng, 1e-3),
+            dk: pick(&mut rng, 5.0),
+            copper_thickness: pick(&mut rng, 1e-3),
+            mask_thickness: pick(&mut rng, 1e-3),
+            layers: Vec::new(),
+        };
+        let mut p = surface(Some(process));
+        p.fab.etch_factor = Some(2.5);
+        p.rules[0].target_ohm = if k % 2 == 0 { 50.0 } else { 80.0 };
+        let opts = SpreadOptions {
+            samples: 200,
+            seed: k,
+            model: if k % 3 == 0 {
+                SampleModel::Quadratic
+            } else {
+                SampleModel::Direct
+            },
+            ..SpreadOptions::default()
+        };
+        match run_rule(&p, &p.rules[0], &opts) {
+            Ok(s) => {
+                ok += 1;
+                assert!((0.0..=100.0).contains(&s.monte_carlo.yield_pct));
+                assert!(s.monte_carlo.sigma_ohm.is_finite());
+            }
+            Err(e) => assert!(e.to_string().starts_with("process"), "{e}"),
+        }
+    }
+    // Some draws must get through validation, or the test checks nothing.
+    assert!(ok >= 5, "only {ok} runs");
+}
