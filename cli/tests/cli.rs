@@ -327,6 +327,14 @@ fn spread_reports_every_figure_and_is_reproducible() {
     json_args[7] = "8";
     let (_, other, _) = ohmstack(&json_args, &demo);
     assert_ne!(json, other, "another seed must give other samples");
+    // The fast response surface the app uses lands close to the direct model (same seed, same deviates).
+    json_args[7] = "7";
+    json_args.extend(["--model", "quadratic"]);
+    let (code, fast, err) = ohmstack(&json_args, &demo);
+    assert_eq!(code, 0, "{err}");
+    let fast: serde_json::Value = serde_json::from_str(&fast).unwrap();
+    let mean = |v: &serde_json::Value| v["monte_carlo"]["mean_ohm"].as_f64().unwrap();
+    assert!((mean(&fast["rules"][0]["spread"]) - mean(s)).abs() < 0.05);
 }
 
 #[test]
@@ -338,6 +346,7 @@ fn spread_bad_arguments_name_the_option() {
         (vec!["spread", "-", "--seed", "-1"], "--seed"),
         (vec!["spread", "-", "--rule", "nope"], "--rule"),
         (vec!["spread", "-", "--colour", "red"], "--colour"),
+        (vec!["spread", "-", "--model", "cubic"], "--model"),
     ] {
         let (code, _, err) = ohmstack(&args, &demo);
         assert_eq!(code, 2, "{args:?}");
