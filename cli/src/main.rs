@@ -7,6 +7,7 @@ use ohmstack_core::loss;
 use ohmstack_core::models::Dims;
 use ohmstack_core::models::{Analysis, Evaluated};
 use ohmstack_core::roughness::{Foil, Roughness};
+use ohmstack_core::spread::{self, SampleModel, SpreadOptions, SpreadSummary};
 use ohmstack_core::touchstone;
 use ohmstack_core::units::{
     format_length, format_sig, parse_frequency, parse_length, parse_number, LengthUnit,
@@ -26,6 +27,12 @@ usage:
                                         ohmstack calc microstrip --width 0.3mm --height 0.17mm --thickness 35um --dk 4.2
   ohmstack solve KIND --target OHMS --field value ... [--json]
                                         find the width that gives the target impedance
+  ohmstack spread FILE|- [--rule NAME] [--samples N] [--seed S] [--model direct|quadratic] [--json]
+                                        tolerance spread and yield per rule: corners, Monte Carlo,
+                                        sensitivities, tolerance-centred width (default 10000 samples, seed 1;
+                                        quadratic = the fast response surface the app uses)
+  ohmstack random normal|uniform [--count N] [--seed S]
+                                        the spread's seeded random stream, one number a line (for checks)
   ohmstack batch                        JSON lines of cases on stdin, JSON lines of results on stdout
   ohmstack kinds                        list the structures calc/solve/batch know
   ohmstack loss FILE|- --rule NAME [--freq 5GHz | --from 10MHz --to 40GHz --points 50] [--json]
@@ -67,6 +74,8 @@ fn run(args: &[String]) -> Result<()> {
         "batch" => batch(),
         "loss" => loss_cmd(rest),
         "touchstone" => touchstone_cmd(rest),
+        "spread" => spread(rest),
+        "random" => random(rest),
         "kinds" => {
             for (name, what) in case::KINDS {
                 println!("{name:<24} {what}");
@@ -584,6 +593,215 @@ fn apply_foil(project: &mut Project, map: &mut BTreeMap<String, String>) -> Resu
         if let ohmstack_core::Layer::Copper(c) = layer {
             c.roughness = Some(roughness);
         }
+    }
+    Ok(())
+}
+
+fn parse_count<T: std::str::FromStr>(
+    map: &mut BTreeMap<String, String>,
+    key: &str,
+) -> Result<Option<T>> {
+    match map.remove(key) {
+        None => Ok(None),
+        Some(text) => text
+            .trim()
+            .parse::<T>()
+            .map(Some)
+            .map_err(|_| anyhow!("--{key}: {text:?} is not a whole number")),
+    }
+}
+
+/// `ohmstack spread`: the tolerance spread of every rule (or one) of a project.
+fn spread(args: &[String]) -> Result<()> {
+    let (mut map, json, positional) = flags(args)?;
+    let [path] = positional.as_slice() else {
+        bail!("spread takes one FILE (or - for stdin)")
+    };
+    // Read the input before checking options, so a pipe feeding us never sees a closed end.
+    let text = read_input(path)?;
+    let samples = parse_count::<usize>(&mut map, "samples")?.unwrap_or(spread::DEFAULT_SAMPLES);
+    let seed = parse_count::<u64>(&mut map, "seed")?.unwrap_or(spread::DEFAULT_SEED);
+    let only = map.remove("rule");
+    let model = match map.remove("model").as_deref() {
+        None | Some("direct") => SampleModel::Direct,
+        Some("quadratic") => SampleModel::Quadratic,
+        Some(other) => bail!("--model: {other:?} is not direct or quadratic"),
+    };
+    if let Some(k) = map.keys().next() {
+        bail!("--{k}: not an option of spread");
+    }
+    if !(spread::MIN_SAMPLES..=spread::MAX_SAMPLES).contains(&samples) {
+        bail!(
+            "--samples: {samples} is outside {} to {}",
+            spread::MIN_SAMPLES,
+            spread::MAX_SAMPLES
+        );
+    }
+    let project = Project::from_json(&text)?;
+    let rules: Vec<_> = match &only {
+        Some(name) => {
+            let r: Vec<_> = project.rules.iter().filter(|r| &r.name == name).collect();
+            if r.is_empty() {
+                let names: Vec<&str> = project.rules.iter().map(|r| r.name.as_str()).collect();
+                bail!("--rule: no rule named {name:?}; rules are {names:?}");
+            }
+            r
+        }
+        None => project.rules.iter().collect(),
+    };
+    let opts = SpreadOptions {
+        samples,
+        seed,
+        centre: true,
+        model,
+    };
+    let mut out = Vec::new();
+    for rule in rules {
+        let result = ohmstack_core::plan::analyze_rule(&project, rule).and_then(|r| {
+            let s = spread::run(&project, rule, &r, &opts)?;
+            Ok((r, s))
+        });
+        out.push((rule.name.clone(), result));
+    }
+    if json {
+        let rows: Vec<Value> = out
+            .iter()
+            .map(|(name, r)| match r {
+                Ok((r, s)) => json!({
+                    "name": name, "status": "ok", "family": r.family, "structure": r.structure,
+                    "width_m": r.width_m, "spacing_m": r.spacing_m, "spread": s,
+                }),
+                Err(e) => json!({ "name": name, "status": "error", "message": e.to_string() }),
+            })
+            .collect();
+        let v = json!({ "title": project.title, "samples": samples, "seed": seed, "rules": rows });
+        println!("{}", serde_json::to_string_pretty(&v)?);
+        return Ok(());
+    }
+    println!(
+        "{} — tolerance spread, {samples} samples, seed {seed} (design estimates from the closed-form models)",
+        project.title
+    );
+    for (name, r) in &out {
+        println!();
+        match r {
+            Ok((r, s)) => print_spread(&project, name, r, s),
+            Err(e) => println!("{name}: error: {e}"),
+        }
+    }
+    Ok(())
+}
+
+fn per_unit(unit: &str, value: f64, project_unit: LengthUnit) -> String {
+    if unit == "m" {
+        format!(
+            "{} Ω/{}",
+            format_sig(value * project_unit.metres(), 3),
+            project_unit.symbol()
+        )
+    } else {
+        format!("{} Ω per unit", format_sig(value, 3))
+    }
+}
+
+fn print_spread(project: &Project, name: &str, r: &ohmstack_core::RuleResult, s: &SpreadSummary) {
+    let u = project.units;
+    let mc = &s.monte_carlo;
+    println!("{name} — {} {}", r.family, r.structure);
+    println!(
+        "  nominal        {:.2} Ω  window {:.2}–{:.2} Ω (±{} %)",
+        s.nominal_ohm,
+        s.lower_ohm,
+        s.upper_ohm,
+        format_sig(r.tolerance_pct, 3)
+    );
+    println!(
+        "  corners        {:.2}–{:.2} Ω  ({}, {} evaluated){}",
+        s.corners.min_ohm,
+        s.corners.max_ohm,
+        s.corners.method,
+        s.corners.evaluated,
+        if s.corners.all_inside {
+            ", all inside"
+        } else {
+            ""
+        }
+    );
+    println!(
+        "  Monte Carlo    {:.2} ± {:.2} Ω (σ; first-order σ {:.2} Ω)",
+        mc.mean_ohm, mc.sigma_ohm, s.linear_sigma_ohm
+    );
+    let p = &mc.percentiles;
+    println!(
+        "  percentiles    1 %: {:.2}  5 %: {:.2}  50 %: {:.2}  95 %: {:.2}  99 %: {:.2} Ω",
+        p.p1, p.p5, p.p50, p.p95, p.p99
+    );
+    println!(
+        "  yield          {:.2} %   Cpk {}",
+        mc.yield_pct,
+        mc.cpk
+            .map(|c| format!("{c:.2}"))
+            .unwrap_or_else(|| "-".into())
+    );
+    for (i, x) in s.sensitivities.iter().take(3).enumerate() {
+        let param = &s.parameters.iter().find(|q| q.name == x.parameter);
+        let limit = param
+            .map(|q| {
+                if q.unit == "m" {
+                    format_length(q.limit, u)
+                } else {
+                    format_sig(q.limit, 3)
+                }
+            })
+            .unwrap_or_default();
+        println!(
+            "  {} {}: {} ({:+.2} Ω at +{limit})",
+            if i == 0 {
+                "sensitivity   "
+            } else {
+                "              "
+            },
+            x.parameter,
+            per_unit(x.unit, x.dz_dp, u),
+            x.impact_ohm
+        );
+    }
+    if let Some(c) = &s.centred {
+        println!(
+            "  centred {:<7}{} → {} (yield {:.2} % → {:.2} %)",
+            c.dimension,
+            format_length(c.nominal_m, u),
+            format_length(c.centred_m, u),
+            c.nominal_yield_pct,
+            c.centred_yield_pct
+        );
+    }
+    for w in &s.warnings {
+        println!("    note: {}", w.message);
+    }
+}
+
+/// `ohmstack random`: the core's seeded stream, so outside tools can test its statistics.
+fn random(args: &[String]) -> Result<()> {
+    let (mut map, _json, positional) = flags(args)?;
+    let count = parse_count::<usize>(&mut map, "count")?.unwrap_or(10_000);
+    let seed = parse_count::<u64>(&mut map, "seed")?.unwrap_or(spread::DEFAULT_SEED);
+    if let Some(k) = map.keys().next() {
+        bail!("--{k}: not an option of random");
+    }
+    if count > 1_000_000 {
+        bail!("--count: at most 1000000");
+    }
+    let normal = match positional.as_slice() {
+        [d] if d == "normal" => true,
+        [d] if d == "uniform" => false,
+        _ => bail!("random takes one distribution: normal or uniform"),
+    };
+    let mut rng = spread::rng::Rng::new(seed);
+    let mut out = std::io::BufWriter::new(std::io::stdout().lock());
+    for _ in 0..count {
+        let x = if normal { rng.normal() } else { rng.uniform() };
+        writeln!(out, "{x:e}")?;
     }
     Ok(())
 }

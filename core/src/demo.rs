@@ -133,6 +133,7 @@ pub fn project() -> Project {
         analysis_freq_hz: 1e9,
         fab: Fab::default(),
         loss: Default::default(),
+        process: None,
         stackup: Stackup { layers },
         rules: vec![
             rule(

@@ -24,6 +24,7 @@ pub mod models;
 pub mod plan;
 pub mod project;
 pub mod roughness;
+pub mod spread;
 pub mod stackup;
 pub mod synth;
 pub mod touchstone;
@@ -31,6 +32,7 @@ pub mod units;
 pub mod validity;
 
 pub use error::{Error, Result};
-pub use plan::{plan, Plan, RuleOutcome, RuleResult};
+pub use plan::{plan, plan_with, Plan, PlanOptions, RuleOutcome, RuleResult};
 pub use project::{ImpedanceRule, Project, Solve, Structure};
+pub use spread::{Process, SpreadSummary};
 pub use stackup::{Layer, Stackup};

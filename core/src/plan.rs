@@ -6,6 +6,7 @@ use crate::error::Result;
 use crate::lines::{reflection, return_loss_db, SingleLine};
 use crate::models::{self, Analysis, Dims};
 use crate::project::{ImpedanceRule, Project, Solve};
+use crate::spread::{self, SampleModel, SpreadOptions, SpreadSummary};
 use crate::stackup::Layer;
 use crate::synth::{self, Bracket};
 use crate::units::{format_length, MAX_LENGTH_M};
@@ -66,6 +67,9 @@ pub struct RuleResult {
     pub loss: Option<crate::loss::LossAt>,
     pub cross_section: CrossSection,
     pub warnings: Vec<Warning>,
+    /// Tolerance spread and yield, when asked for with [`PlanOptions::spread_samples`].
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub spread: Option<SpreadSummary>,
 }
 
 /// One rule's outcome: figures, or the reason it could not be computed.
@@ -87,8 +91,47 @@ pub struct Plan {
     pub rules: Vec<RuleOutcome>,
 }
 
+/// What [`plan_with`] computes beyond the nominal figures.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct PlanOptions {
+    /// Monte Carlo samples per rule for the tolerance spread; 0 skips the spread.
+    pub spread_samples: usize,
+    /// Seed of the spread's random stream (each rule mixes in its name).
+    pub seed: u64,
+    /// What the spread's samples call: the model itself, or its quadratic response surface (fast enough to
+    /// recompute on every edit).
+    pub spread_model: SampleModel,
+}
+
+impl Default for PlanOptions {
+    /// Nominal figures only (what [`plan`] computes).
+    fn default() -> Self {
+        PlanOptions {
+            spread_samples: 0,
+            seed: spread::DEFAULT_SEED,
+            spread_model: SampleModel::Quadratic,
+        }
+    }
+}
+
+impl PlanOptions {
+    /// Nominal figures plus the tolerance spread with the default sample count and seed.
+    pub fn with_spread() -> Self {
+        PlanOptions {
+            spread_samples: spread::DEFAULT_SAMPLES,
+            seed: spread::DEFAULT_SEED,
+            spread_model: SampleModel::Quadratic,
+        }
+    }
+}
+
 /// Computes the whole project. A bad stack is an error; a bad rule is reported in its own row.
 pub fn plan(project: &Project) -> Result<Plan> {
+    plan_with(project, &PlanOptions::default())
+}
+
+/// [`plan`] with options; a spread that cannot be computed becomes a warning on its rule's row.
+pub fn plan_with(project: &Project, options: &PlanOptions) -> Result<Plan> {
     project.stackup.validate()?;
     let s = &project.stackup;
     let layers = s
@@ -122,7 +165,23 @@ pub fn plan(project: &Project) -> Result<Plan> {
         .iter()
         .enumerate()
         .map(|(i, rule)| match analyze_rule(project, rule) {
-            Ok(r) => RuleOutcome::Ok(Box::new(r)),
+            Ok(mut r) => {
+                if options.spread_samples > 0 {
+                    let opts = SpreadOptions {
+                        samples: options.spread_samples,
+                        seed: options.seed,
+                        centre: true,
+                        model: options.spread_model,
+                    };
+                    match spread::run(project, rule, &r, &opts) {
+                        Ok(s) => r.spread = Some(s),
+                        Err(e) => r
+                            .warnings
+                            .push(Warning::new(format!("tolerance spread: {e}"))),
+                    }
+                }
+                RuleOutcome::Ok(Box::new(r))
+            }
             Err(e) => RuleOutcome::Error {
                 name: rule.name.clone(),
                 message: crate::project::prefix(e, &format!("rules[{i}]")).to_string(),
@@ -198,6 +257,7 @@ pub fn analyze_rule(project: &Project, rule: &ImpedanceRule) -> Result<RuleResul
         loss,
         cross_section: cs,
         warnings,
+        spread: None,
     })
 }
 

@@ -2,6 +2,7 @@
 //! Serialised as JSON with `"schema": 1`; unknown or wrong fields are errors that name the field's path.
 
 use crate::error::{self, Error, Result};
+use crate::spread::Process;
 use crate::stackup::{Layer, Stackup};
 use crate::units::LengthUnit;
 use serde::{Deserialize, Serialize};
@@ -146,6 +147,9 @@ pub struct Project {
     /// Options of the loss model (conductivity, dielectric and dispersion models).
     #[serde(default, skip_serializing_if = "crate::loss::LossOptions::is_default")]
     pub loss: crate::loss::LossOptions,
+    /// Process variation for tolerance spread; `None` takes the common-practice defaults of [`Process::default`].
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub process: Option<Process>,
     pub stackup: Stackup,
     #[serde(default)]
     pub rules: Vec<ImpedanceRule>,
@@ -211,6 +215,9 @@ impl Project {
         }
         self.loss.validate()?;
         self.stackup.validate()?;
+        if let Some(process) = &self.process {
+            process.validate(&self.stackup)?;
+        }
         if self.rules.len() > MAX_RULES {
             return Err(Error::Invalid {
                 field: "rules".into(),
