@@ -215,3 +215,79 @@ mod tests {
         assert!(e.to_string().starts_with("cover"), "{e}");
     }
 }
+
+#[cfg(test)]
+mod properties {
+    //! Property tests: width synthesis round-trips under a cover, and Z0 falls with cover thickness and Dk.
+    use super::*;
+    use crate::case::LineCase;
+    use crate::cross_section::{CrossSection, Medium};
+    use crate::models::Dims;
+    use crate::project::Structure;
+    use proptest::prelude::*;
+
+    const H: f64 = 1e-4;
+
+    fn case(u: f64, tn: f64, er: f64, cover: Cover) -> LineCase {
+        LineCase {
+            kind: "coated-microstrip".into(),
+            cross_section: CrossSection {
+                medium: Medium::Microstrip { h: H, er, cover },
+                t: tn * H,
+                references: Vec::new(),
+                warnings: Vec::new(),
+            },
+            structure: Structure::Single,
+            dims: Dims {
+                w: u * H,
+                s: None,
+                gap: None,
+            },
+        }
+    }
+
+    fn cover_of(mask: bool, c_over_h: f64, em: f64) -> Cover {
+        let thickness_m = c_over_h * H;
+        if mask {
+            Cover::Mask {
+                thickness_m,
+                er: em,
+            }
+        } else {
+            Cover::Dielectric {
+                thickness_m,
+                er: em,
+            }
+        }
+    }
+
+    proptest! {
+        #![proptest_config(ProptestConfig::with_cases(96))]
+
+        #[test]
+        fn width_synthesis_round_trips(
+            u in 0.05f64..20.0, tn in 0.0f64..0.2, er in 1.0f64..18.0,
+            mask in any::<bool>(), c in 0.0f64..3.0, em in 1.0f64..10.0,
+        ) {
+            let given = case(u, tn, er, cover_of(mask, c, em));
+            let z = given.analyze().unwrap().analysis.controlled();
+            let solved = given.solve_width(z).unwrap();
+            let rel = (solved.dims.w - given.dims.w).abs() / given.dims.w;
+            prop_assert!(rel < 1e-6, "w {} vs {} (rel {rel:e})", solved.dims.w, given.dims.w);
+        }
+
+        #[test]
+        fn impedance_falls_with_cover_thickness_dk_and_width(
+            u in 0.05f64..20.0, tn in 0.0f64..0.2, er in 1.0f64..18.0,
+            mask in any::<bool>(), c in 0.0f64..3.0, em in 1.01f64..10.0, step in 1.001f64..1.5,
+        ) {
+            let z = |u: f64, c: f64, em: f64| {
+                case(u, tn, er, cover_of(mask, c, em)).analyze().unwrap().analysis.controlled()
+            };
+            let base = z(u, c, em);
+            prop_assert!(z(u, c * step + 1e-3, em) < base);
+            prop_assert!(z(u, c, em * step) <= base);
+            prop_assert!(z(u * step, c, em) < base);
+        }
+    }
+}

@@ -522,3 +522,86 @@ mod tests {
         }
     }
 }
+
+#[cfg(test)]
+mod properties {
+    //! Property tests: synthesis of the width for a Zdiff round-trips, and the impedances move the right way.
+    use super::*;
+    use crate::case::LineCase;
+    use crate::cross_section::{CrossSection, Medium};
+    use crate::models::Dims;
+    use crate::project::Structure;
+    use proptest::prelude::*;
+
+    const H: f64 = 1e-4;
+
+    fn cover_of(kind: u8, c_over_h: f64, em: f64) -> Cover {
+        match kind {
+            0 => Cover::Air,
+            1 => Cover::Mask {
+                thickness_m: c_over_h * H,
+                er: em,
+            },
+            _ => Cover::Dielectric {
+                thickness_m: c_over_h * H,
+                er: em,
+            },
+        }
+    }
+
+    fn case(u: f64, g: f64, tn: f64, er: f64, cover: Cover) -> LineCase {
+        LineCase {
+            kind: "edge-coupled-microstrip".into(),
+            cross_section: CrossSection {
+                medium: Medium::Microstrip { h: H, er, cover },
+                t: tn * H,
+                references: Vec::new(),
+                warnings: Vec::new(),
+            },
+            structure: Structure::EdgePair,
+            dims: Dims {
+                w: u * H,
+                s: Some(g * H),
+                gap: None,
+            },
+        }
+    }
+
+    proptest! {
+        #![proptest_config(ProptestConfig::with_cases(96))]
+
+        #[test]
+        fn width_synthesis_round_trips(
+            u in 0.1f64..10.0, g in 0.1f64..10.0, tn in 0.0f64..0.2, er in 1.0f64..18.0,
+            kind in 0u8..3, c in 0.0f64..1.5, em in 1.0f64..6.0,
+        ) {
+            let given = case(u, g, tn, er, cover_of(kind, c, em));
+            let z = given.analyze().unwrap().analysis.controlled();
+            let solved = given.solve_width(z).unwrap();
+            let rel = (solved.dims.w - given.dims.w).abs() / given.dims.w;
+            prop_assert!(rel < 1e-6, "w {} vs {} (rel {rel:e})", solved.dims.w, given.dims.w);
+        }
+
+        #[test]
+        fn zdiff_falls_with_width_and_rises_with_spacing(
+            u in 0.05f64..20.0, g in 0.05f64..20.0, tn in 0.0f64..0.2, er in 1.0f64..18.0,
+            kind in 0u8..3, c in 0.0f64..1.5, em in 1.0f64..6.0, step in 1.001f64..1.5,
+        ) {
+            let cover = cover_of(kind, c, em);
+            let zd = |u: f64, g: f64| case(u, g, tn, er, cover).analyze().unwrap().analysis.controlled();
+            let base = zd(u, g);
+            prop_assert!(zd(u * step, g) < base);
+            prop_assert!(zd(u, g * step) > base);
+        }
+
+        #[test]
+        fn modes_bracket_the_single_line(
+            u in 0.05f64..20.0, g in 0.05f64..20.0, tn in 0.0f64..0.2, er in 1.0f64..18.0,
+        ) {
+            let p = EdgeCoupledMicrostrip { w: u * H, s: g * H, h: H, t: tn * H, er };
+            let r = p.analyze().unwrap();
+            let z0 = crate::microstrip::Microstrip { w: u * H, h: H, t: tn * H, er }.analyze().unwrap().z0;
+            prop_assert!(r.z_odd < z0 && z0 < r.z_even, "{:?} vs {}", r, z0);
+        }
+    }
+}
