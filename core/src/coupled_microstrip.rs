@@ -7,7 +7,8 @@
 //! and even/odd impedance (eqs. 8–9 with the auxiliary Q1…Q10), built on the Hammerstad–Jensen 1980 single line
 //! (see [`crate::microstrip`]); symbols u = w/h, g = s/h as in the paper. Equation numbers are from memory.
 //! Validity (KJ 1984): 0.1 ≤ u ≤ 10, 0.1 ≤ g ≤ 10, 1 ≤ εr ≤ 18; claimed accuracy about 1 % for Z and εeff of both
-//! modes against the authors' spectral-domain results (from memory).
+//! modes against the authors' spectral-domain results (from memory). Outside it the fit degrades: for u ≳ 15 and
+//! g ≳ 5 Zodd falls slightly with spacing (found by our property test), so spacing synthesis there is unreliable.
 //!
 //! Thickness: KJ 1984 is for t = 0. We use mode-dependent width increments of the form given by R. H. Jansen,
 //! "High-speed computation of single and coupled microstrip parameters including dispersion, high-order modes,
@@ -582,9 +583,11 @@ mod properties {
             prop_assert!(rel < 1e-6, "w {} vs {} (rel {rel:e})", solved.dims.w, given.dims.w);
         }
 
+        // Inside KJ's published range only: beyond it (u ≳ 15 with g ≳ 5) the fitted odd-mode term makes Zodd fall
+        // slightly with spacing (found by this test); such inputs carry the out-of-range warning.
         #[test]
         fn zdiff_falls_with_width_and_rises_with_spacing(
-            u in 0.05f64..20.0, g in 0.05f64..20.0, tn in 0.0f64..0.2, er in 1.0f64..18.0,
+            u in 0.1f64..10.0, g in 0.1f64..10.0, tn in 0.0f64..0.2, er in 1.0f64..18.0,
             kind in 0u8..3, c in 0.0f64..1.5, em in 1.0f64..6.0, step in 1.001f64..1.5,
         ) {
             let cover = cover_of(kind, c, em);
