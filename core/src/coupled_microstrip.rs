@@ -476,6 +476,21 @@ mod tests {
     }
 
     #[test]
+    fn mode_matrices_are_symmetric_and_signed() {
+        // Exact for a symmetric pair: L and C matrices are symmetric with L12 > 0 (mutual flux) and C12 < 0
+        // (Maxwell mutual capacitance), and the odd/even impedances are recovered from them.
+        let r = pair(1.2, 0.4, 0.05, 4.3).analyze().unwrap();
+        let (l, c) = r.matrices();
+        assert_eq!(l[0][1], l[1][0]);
+        assert_eq!(c[0][1], c[1][0]);
+        assert!(l[0][1] > 0.0 && c[0][1] < 0.0, "{l:?} {c:?}");
+        let z_odd = ((l[0][0] - l[0][1]) / (c[0][0] - c[0][1])).sqrt();
+        let z_even = ((l[0][0] + l[0][1]) / (c[0][0] + c[0][1])).sqrt();
+        assert!((z_odd - r.z_odd).abs() < 1e-9 * r.z_odd);
+        assert!((z_even - r.z_even).abs() < 1e-9 * r.z_even);
+    }
+
+    #[test]
     fn bad_inputs_name_their_field() {
         let mut p = pair(1.0, 1.0, 0.0, 4.3);
         p.s = 0.0;
