@@ -1,5 +1,5 @@
 """A small independent 2D electrostatic solve with scikit-fem, used as an outside reference for microstrip-family
-models: zero-thickness strip(s) at height h over a ground plane, layered dielectric (substrate, optional cover),
+models: strip(s) of thickness t ≥ 0 at height h over a ground plane, layered dielectric (substrate, optional cover),
 grounded far box. Half-domain by symmetry: the plane x = 0 is a magnetic wall (Neumann, even mode / single line) or
 an electric wall (φ = 0, odd mode).
 
@@ -40,7 +40,7 @@ def _graded(key_points, lo, hi, dmin, ratio=1.3, dmax=None):
     return np.array(keep)
 
 
-def _solve(xs, ys, eps_of_y, strip_x, strip_y, odd):
+def _solve(xs, ys, eps_of_y, strip_x, strip_y, odd, t=0.0):
     mesh = MeshTri.init_tensor(xs, ys)
     basis = Basis(mesh, ElementTriP2())
     centroid_y = mesh.p[1, mesh.t].mean(axis=0)
@@ -57,7 +57,7 @@ def _solve(xs, ys, eps_of_y, strip_x, strip_y, odd):
     box = (np.abs(y) < tol) | (np.abs(y - ys[-1]) < tol) | (np.abs(x - xs[-1]) < tol)
     if odd:
         box |= np.abs(x) < tol
-    strip = (np.abs(y - strip_y) < tol) & (x >= strip_x[0] - tol) & (x <= strip_x[1] + tol)
+    strip = (y >= strip_y - tol) & (y <= strip_y + t + tol) & (x >= strip_x[0] - tol) & (x <= strip_x[1] + tol)
     phi = np.zeros(basis.N)
     phi[strip] = 1.0
     D = np.flatnonzero(box | strip)
@@ -65,10 +65,11 @@ def _solve(xs, ys, eps_of_y, strip_x, strip_y, odd):
     return float(phi @ (K @ phi))
 
 
-def line(w, h, er, s=None, odd=False, cover=0.0, cover_er=1.0, box=100.0, dmin_rel=1e-3):
+def line(w, h, er, s=None, odd=False, cover=0.0, cover_er=1.0, box=100.0, dmin_rel=1e-3, t=0.0):
     """Z and εeff of a zero-thickness strip (s=None) or of one mode of a symmetric pair with edge spacing s.
 
     `cover` is a dielectric of thickness `cover` and Dk `cover_er` directly above the strip plane (y from h to h+c).
+    `t` is the strip thickness (a rectangle of conductor from y = h to h + t; the region beside it is air or cover).
     Returns (z, eps_eff).
     """
     x0 = 0.0 if s is None else s / 2.0
@@ -76,7 +77,7 @@ def line(w, h, er, s=None, odd=False, cover=0.0, cover_er=1.0, box=100.0, dmin_r
     big = box * max(h, w, s or 0.0)
     dmin = dmin_rel * min(h, w, s or w)
     xs = _graded([x0, x1] if s is not None else [x1], 0.0, big, dmin, dmax=big / 30)
-    ykeys = [h] + ([h + cover] if cover > 0 else [])
+    ykeys = [h] + ([h + t] if t > 0 else []) + ([h + cover] if cover > 0 else [])
     ys = _graded(ykeys, 0.0, big, dmin, dmax=big / 30)
 
     def eps(er_sub, er_cov):
@@ -88,8 +89,8 @@ def line(w, h, er, s=None, odd=False, cover=0.0, cover_er=1.0, box=100.0, dmin_r
             return out
         return f
 
-    c = _solve(xs, ys, eps(er, cover_er), (x0, x1), h, odd)
-    c0 = _solve(xs, ys, eps(1.0, 1.0), (x0, x1), h, odd)
+    c = _solve(xs, ys, eps(er, cover_er), (x0, x1), h, odd, t)
+    c0 = _solve(xs, ys, eps(1.0, 1.0), (x0, x1), h, odd, t)
     # The half-domain holds one strip (or half of a single strip: double its capacitance).
     scale = 2.0 if s is None else 1.0
     c, c0 = c * scale, c0 * scale
