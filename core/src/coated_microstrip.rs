@@ -26,8 +26,10 @@
 //! Validity: that of Hammerstad–Jensen (0.01 ≤ w/h ≤ 100, 1 ≤ εr ≤ 128) for the base line; the cover correction is
 //! an interpolation between exact limits and we flag c/h > 2 (the cover is then effectively infinite) and
 //! εm > 2·εr. A conformal mask is taken to have the same thickness over the strip and over the substrate. Claimed
-//! accuracy: none published for this combination; our estimate is a few per cent in Z0 for c/h ≤ 1 and
-//! 1 ≤ εm ≤ 2·εr. Checked against: the exact limits above; the 2D field solver cross-check is to follow.
+//! accuracy: none published for this combination. Checked against: the exact limits above, and an independent
+//! scikit-fem field solve of zero-thickness strips under a planar cover (`tests/python/test_coupled_microstrip.py`):
+//! within 2.5 % in Z0 for 0.5 ≤ u ≤ 5, 0.05 ≤ c/h ≤ 2 (thin covers within 0.5 % for u = 2; narrow strips under thin
+//! covers ≈1.7 % high; thick covers ≈2 % low, as the true cover share grows more slowly than exp(−2c/h)).
 
 use crate::cross_section::Cover;
 use crate::error::{self, Result};
