@@ -25,6 +25,11 @@ pub const KINDS: &[(&str, &str)] = &[
         "microstrip under more dielectric: + --cover (height above trace) --cover-dk",
     ),
     (
+        "edge-coupled-microstrip",
+        "two traces side by side: --width --spacing --height --thickness --dk \
+         [--mask-thickness --mask-dk | --cover --cover-dk]",
+    ),
+    (
         "stripline",
         "between two planes: --width --height (below) [--height2 (above)] --thickness --dk",
     ),
@@ -53,6 +58,17 @@ pub fn parse(kind: &str, fields: &BTreeMap<String, String>) -> Result<LineCase> 
         ],
         "embedded-microstrip" => &["width", "height", "thickness", "dk", "cover", "cover-dk"],
         "stripline" => &["width", "height", "height2", "thickness", "dk"],
+        "edge-coupled-microstrip" => &[
+            "width",
+            "spacing",
+            "height",
+            "thickness",
+            "dk",
+            "mask-thickness",
+            "mask-dk",
+            "cover",
+            "cover-dk",
+        ],
         _ => {
             let names: Vec<&str> = KINDS.iter().map(|k| k.0).collect();
             return Err(Error::Invalid {
@@ -117,6 +133,28 @@ pub fn parse(kind: &str, fields: &BTreeMap<String, String>) -> Result<LineCase> 
                 er: error::permittivity("cover-dk", number("cover-dk")?)?,
             },
         },
+        "edge-coupled-microstrip" => {
+            let has = |a: &str, b: &str| fields.contains_key(a) || fields.contains_key(b);
+            let cover = match (has("mask-thickness", "mask-dk"), has("cover", "cover-dk")) {
+                (true, true) => {
+                    return Err(Error::Invalid {
+                        field: "cover".into(),
+                        reason: "give either a solder mask or a covering dielectric, not both"
+                            .into(),
+                    })
+                }
+                (true, false) => Cover::Mask {
+                    thickness_m: error::length("mask-thickness", length("mask-thickness")?)?,
+                    er: error::permittivity("mask-dk", number("mask-dk")?)?,
+                },
+                (false, true) => Cover::Dielectric {
+                    thickness_m: error::length("cover", length("cover")?)?,
+                    er: error::permittivity("cover-dk", number("cover-dk")?)?,
+                },
+                (false, false) => Cover::Air,
+            };
+            Medium::Microstrip { h, er, cover }
+        }
         _ => {
             let h2 = error::length("height2", optional_length("height2", h)?)?;
             Medium::Stripline {
@@ -127,7 +165,14 @@ pub fn parse(kind: &str, fields: &BTreeMap<String, String>) -> Result<LineCase> 
             }
         }
     };
-    let structure = Structure::Single;
+    let (structure, s) = if kind == "edge-coupled-microstrip" {
+        (
+            Structure::EdgePair,
+            Some(error::length("spacing", length("spacing")?)?),
+        )
+    } else {
+        (Structure::Single, None)
+    };
     Ok(LineCase {
         kind: kind.to_string(),
         cross_section: CrossSection {
@@ -137,11 +182,7 @@ pub fn parse(kind: &str, fields: &BTreeMap<String, String>) -> Result<LineCase> 
             warnings: Vec::new(),
         },
         structure,
-        dims: Dims {
-            w,
-            s: None,
-            gap: None,
-        },
+        dims: Dims { w, s, gap: None },
     })
 }
 

@@ -12,6 +12,8 @@
 //! family) → [`synth::solve`] for the free dimension → [`Plan`].
 
 pub mod case;
+pub mod coated_microstrip;
+pub mod coupled_microstrip;
 pub mod cross_section;
 pub mod demo;
 pub mod dielectric;

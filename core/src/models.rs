@@ -1,6 +1,8 @@
 //! Dispatch from a resolved cross-section and a rule's structure to the family module that models it.
 //! This is the one place that knows which published method serves which geometry.
 
+use crate::coated_microstrip::CoveredMicrostrip;
+use crate::coupled_microstrip::{CoveredEdgeCoupledMicrostrip, EdgeCoupledMicrostrip};
 use crate::cross_section::{Cover, CrossSection, Medium};
 use crate::error::{Error, Result};
 use crate::lines::{CoupledPair, SingleLine};
@@ -71,15 +73,37 @@ pub fn evaluate(cs: &CrossSection, structure: Structure, dims: &Dims) -> Result<
                 t: cs.t,
                 er,
             };
-            let mut analysis = line.analyze()?;
-            if cover != Cover::Air {
-                analysis.warnings.push(Warning::new(
-                    "covering dielectric not modelled yet: computed as surface microstrip",
-                ));
+            if cover == Cover::Air {
+                return Ok(Evaluated {
+                    analysis: Analysis::Single(line.analyze()?),
+                    method: "Hammerstad–Jensen 1980",
+                });
             }
             Ok(Evaluated {
-                analysis: Analysis::Single(analysis),
-                method: "Hammerstad–Jensen 1980",
+                analysis: Analysis::Single(CoveredMicrostrip { line, cover }.analyze()?),
+                method: "Hammerstad–Jensen 1980 + filling-factor cover correction",
+            })
+        }
+        (Structure::EdgePair, Medium::Microstrip { h, er, cover }) => {
+            let s = dims.s.ok_or_else(|| Error::Invalid {
+                field: "spacing".into(),
+                reason: "missing (an edge-coupled pair needs the spacing between its traces)"
+                    .into(),
+            })?;
+            let pair = EdgeCoupledMicrostrip {
+                w: dims.w,
+                s,
+                h,
+                t: cs.t,
+                er,
+            };
+            Ok(Evaluated {
+                analysis: Analysis::Pair(CoveredEdgeCoupledMicrostrip { pair, cover }.analyze()?),
+                method: if cover == Cover::Air {
+                    "Kirschning–Jansen 1984"
+                } else {
+                    "Kirschning–Jansen 1984 + filling-factor cover correction per mode"
+                },
             })
         }
         (s, _) => Err(unsupported(&format!("{} on {}", s.label(), cs.family()))),
