@@ -28,6 +28,14 @@ pub const KINDS: &[(&str, &str)] = &[
         "stripline",
         "between two planes: --width --height (below) [--height2 (above)] --thickness --dk",
     ),
+    (
+        "edge-coupled-stripline",
+        "pair side by side between two planes: + --spacing [--height2 (above)]",
+    ),
+    (
+        "broadside-stripline",
+        "pair stacked between two planes: --width --height (above) --separation [--height2 (below)] --thickness --dk",
+    ),
 ];
 
 /// A parsed case: the cross-section and structure the models see, plus the given dimensions.
@@ -53,6 +61,15 @@ pub fn parse(kind: &str, fields: &BTreeMap<String, String>) -> Result<LineCase> 
         ],
         "embedded-microstrip" => &["width", "height", "thickness", "dk", "cover", "cover-dk"],
         "stripline" => &["width", "height", "height2", "thickness", "dk"],
+        "edge-coupled-stripline" => &["width", "spacing", "height", "height2", "thickness", "dk"],
+        "broadside-stripline" => &[
+            "width",
+            "height",
+            "separation",
+            "height2",
+            "thickness",
+            "dk",
+        ],
         _ => {
             let names: Vec<&str> = KINDS.iter().map(|k| k.0).collect();
             return Err(Error::Invalid {
@@ -117,6 +134,12 @@ pub fn parse(kind: &str, fields: &BTreeMap<String, String>) -> Result<LineCase> 
                 er: error::permittivity("cover-dk", number("cover-dk")?)?,
             },
         },
+        "broadside-stripline" => Medium::Broadside {
+            h_above: h,
+            separation: error::length("separation", length("separation")?)?,
+            h_below: error::length("height2", optional_length("height2", h)?)?,
+            er,
+        },
         _ => {
             let h2 = error::length("height2", optional_length("height2", h)?)?;
             Medium::Stripline {
@@ -127,7 +150,14 @@ pub fn parse(kind: &str, fields: &BTreeMap<String, String>) -> Result<LineCase> 
             }
         }
     };
-    let structure = Structure::Single;
+    let (structure, s) = match kind {
+        "edge-coupled-stripline" => (
+            Structure::EdgePair,
+            Some(error::length("spacing", length("spacing")?)?),
+        ),
+        "broadside-stripline" => (Structure::BroadsidePair, None),
+        _ => (Structure::Single, None),
+    };
     Ok(LineCase {
         kind: kind.to_string(),
         cross_section: CrossSection {
@@ -137,11 +167,7 @@ pub fn parse(kind: &str, fields: &BTreeMap<String, String>) -> Result<LineCase> 
             warnings: Vec::new(),
         },
         structure,
-        dims: Dims {
-            w,
-            s: None,
-            gap: None,
-        },
+        dims: Dims { w, s, gap: None },
     })
 }
 

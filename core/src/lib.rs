@@ -12,8 +12,10 @@
 //! family) → [`synth::solve`] for the free dimension → [`Plan`].
 
 pub mod case;
+pub mod coupled_stripline;
 pub mod cross_section;
 pub mod demo;
+pub mod elliptic;
 pub mod error;
 pub mod lines;
 pub mod microstrip;
@@ -21,6 +23,8 @@ pub mod models;
 pub mod plan;
 pub mod project;
 pub mod stackup;
+pub mod strip_moments;
+pub mod stripline;
 pub mod synth;
 pub mod units;
 pub mod validity;
