@@ -166,7 +166,7 @@ pub fn evaluate(cs: &CrossSection, structure: Structure, dims: &Dims) -> Result<
             };
             Ok(Evaluated {
                 analysis: Analysis::Pair(pair.analyze()?),
-                method: "Cohn 1960 broadside-coupled strips",
+                method: "moment method, exact parallel-plate Green's function",
             })
         }
         (s, _) => Err(unsupported(&format!("{} on {}", s.label(), cs.family()))),
