@@ -76,6 +76,11 @@ fn kernel_block(
 
 /// Capacitance matrix C/ε (dimensionless, per unit length) of `strips` between planes `b` apart.
 pub fn capacitance(b: f64, strips: &[Strip]) -> Result<Vec<Vec<f64>>> {
+    capacitance_resolved(b, strips, 24.0)
+}
+
+/// [`capacitance`] with `resolution` quadrature nodes per unit of (strip width / nearest distance).
+fn capacitance_resolved(b: f64, strips: &[Strip], resolution: f64) -> Result<Vec<Vec<f64>>> {
     let n_s = strips.len();
     for s in strips {
         if !(s.w > 0.0 && s.y > 0.0 && s.y < b && s.x.is_finite()) {
@@ -95,7 +100,7 @@ pub fn capacitance(b: f64, strips: &[Strip]) -> Result<Vec<Vec<f64>>> {
             scale = scale.min(gap_y.hypot(gap_x) / s.w.max(t.w));
         }
     }
-    let m = ((24.0 / scale.max(1e-9)).ceil() as usize).clamp(4 * N_BASIS, MAX_NODES);
+    let m = ((resolution / scale.max(1e-9)).ceil() as usize).clamp(4 * N_BASIS, MAX_NODES);
     let nodes: Vec<f64> = (0..m)
         .map(|k| ((2 * k + 1) as f64 * PI / (2 * m) as f64).cos())
         .collect();
@@ -246,6 +251,61 @@ mod tests {
             let z = ETA0 / c[0][0];
             let exact = z0_zero_thickness(u, 1.0, 1.0);
             assert!(rel(z, exact) < 1e-9, "u={u}: {z} vs {exact}");
+        }
+    }
+
+    #[test]
+    fn doubling_the_quadrature_changes_nothing() {
+        // Self-convergence on hard cases: a wide strip close to one plane, an offset coplanar pair, a tight
+        // broadside pair with unequal heights.
+        let cases: [(f64, Vec<Strip>); 3] = [
+            (
+                1.0,
+                vec![Strip {
+                    x: 0.0,
+                    w: 2.0,
+                    y: 0.1,
+                }],
+            ),
+            (
+                1.0,
+                vec![
+                    Strip {
+                        x: -0.3,
+                        w: 0.4,
+                        y: 0.3,
+                    },
+                    Strip {
+                        x: 0.3,
+                        w: 0.4,
+                        y: 0.3,
+                    },
+                ],
+            ),
+            (
+                1.0,
+                vec![
+                    Strip {
+                        x: 0.0,
+                        w: 0.8,
+                        y: 0.3,
+                    },
+                    Strip {
+                        x: 0.0,
+                        w: 0.8,
+                        y: 0.4,
+                    },
+                ],
+            ),
+        ];
+        for (b, strips) in &cases {
+            let a = capacitance_resolved(*b, strips, 24.0).unwrap();
+            let c = capacitance_resolved(*b, strips, 48.0).unwrap();
+            for i in 0..strips.len() {
+                for j in 0..strips.len() {
+                    assert!(rel(a[i][j], c[i][j]) < 1e-9, "{strips:?}: {a:?} vs {c:?}");
+                }
+            }
         }
     }
 

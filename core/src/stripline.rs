@@ -18,9 +18,11 @@
 //! Offset (and dual) stripline: capacitance superposition — each half of the cross-section carries half the
 //! capacitance of a centred stripline whose planes are twice that half's height apart, so
 //! Z0 = 2·Z(b₁)·Z(b₂)/(Z(b₁) + Z(b₂)) with bᵢ = 2hᵢ + t (as given in handbooks, e.g. Wadell, "Transmission
-//! Line Design Handbook", 1991, §3.6; from memory). Exact for equal heights and in the wide-strip limit; for a
-//! narrow strip at a quarter of the spacing it is about 3 % high against the exact thin-wire result (see tests).
-//! We warn when the longer height exceeds 4× the shorter (our flag, no source).
+//! Line Design Handbook", 1991, §3.6; from memory). Exact for equal heights and in the wide-strip limit, but we
+//! measured it up to 5.6 % high against the exact solution for heights up to 4:1 (10–14 % at 7–13:1). So the
+//! model multiplies it by the ratio exact/superposition of the zero-thickness line, the exact value coming from
+//! the moment solution of [`crate::strip_moments`] (checked against Cohn 1954/1955 to 1e-9): t = 0 is then exact
+//! at any offset, and the superposition only carries the thickness change.
 //!
 //! Checked against: the parallel-plate limit (exact), Cohn's exact fringing capacitance of a thick semi-infinite
 //! plate (wide-strip limit with t > 0), the thin-wire image result for narrow offset strips, and in
@@ -29,15 +31,13 @@
 use crate::elliptic::{self, ln_cosh, ln_tanh};
 use crate::error::{self, Result};
 use crate::lines::SingleLine;
+use crate::strip_moments::{self, Strip};
 use crate::units::ETA0;
 use crate::validity::{Bound, Warning};
 use std::f64::consts::PI;
 
-/// Our flags on the published methods: the thickness correction and the offset superposition.
-pub const VALIDITY: [Bound; 2] = [
-    Bound::new("t/b", 0.0, 0.25),
-    Bound::new("longer/shorter plane height", 1.0, 4.0),
-];
+/// Our flag on the thickness correction (no published bound; Wheeler's fit was made for moderate t/b).
+pub const VALIDITY: [Bound; 1] = [Bound::new("t/b", 0.0, 0.25)];
 
 /// A stripline cross-section (SI units).
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -85,9 +85,7 @@ impl Stripline {
             let h = 0.5 * (self.h_below + self.h_above);
             z0_symmetric(self.w, 2.0 * h + self.t, self.t, self.er)
         } else {
-            let ratio = self.h_below.max(self.h_above) / self.h_below.min(self.h_above);
-            VALIDITY[1].check("offset stripline superposition", ratio, &mut warnings);
-            z0_offset(self.w, self.h_below, self.h_above, self.t, self.er)
+            z0_offset_corrected(self.w, self.h_below, self.h_above, self.t, self.er)?
         };
         Ok(SingleLine {
             z0,
@@ -145,6 +143,14 @@ pub fn z0_offset(w: f64, h1: f64, h2: f64, t: f64, er: f64) -> f64 {
     let z1 = z0_symmetric(w, 2.0 * h1 + t, t, er);
     let z2 = z0_symmetric(w, 2.0 * h2 + t, t, er);
     2.0 * z1 * z2 / (z1 + z2)
+}
+
+/// Offset stripline with the superposition error removed at t = 0: `z0_offset(t)` × exact(0)/`z0_offset(0)`,
+/// with exact(0) the moment solution of the zero-thickness strip with its faces' distances to the planes, Ω.
+pub fn z0_offset_corrected(w: f64, h1: f64, h2: f64, t: f64, er: f64) -> Result<f64> {
+    let c = strip_moments::capacitance(h1 + h2, &[Strip { x: 0.0, w, y: h1 }])?;
+    let exact0 = ETA0 / (c[0][0] * er.sqrt());
+    Ok(z0_offset(w, h1, h2, t, er) * exact0 / z0_offset(w, h1, h2, 0.0, er))
 }
 
 /// Combines two per-half impedances by the same capacitance superposition (1/Z averaged).
@@ -222,12 +228,22 @@ mod tests {
         // Exact for W ≪ b, h: a flat strip of width W acts as a round wire of diameter W/2 (conformal map of a
         // flat strip, exact), and a thin wire at height y between planes b apart has, by images,
         // Z0 = η0/(2π√εr)·ln[(4b/(πd))·sin(πy/b)] (from memory). The superposition method is an approximation:
-        // it must be within 4 % here, and exact at the centre.
-        let (b, w) = (1.0, 0.002);
-        for &(y, tol) in &[(0.5, 2e-3), (0.35, 0.015), (0.25, 0.04)] {
+        // it must be within 4 % here, and exact at the centre; the corrected model is exact.
+        let (b, w) = (1e-3, 2e-6);
+        for &(y, tol) in &[
+            (0.5e-3, 2e-3),
+            (0.35e-3, 0.015),
+            (0.25e-3, 0.04),
+            (0.1e-3, 0.1),
+        ] {
             let exact = ETA0 / (2.0 * PI) * (4.0 * b / (PI * w / 2.0) * (PI * y / b).sin()).ln();
             let got = z0_offset(w, y, b - y, 0.0, 1.0);
             assert!((got - exact).abs() / exact < tol, "y={y}: {got} vs {exact}");
+            let corrected = line(w, y, b - y, 0.0, 1.0).analyze().unwrap().z0;
+            assert!(
+                (corrected - exact).abs() / exact < 1e-5,
+                "y={y}: {corrected} vs {exact}"
+            );
         }
     }
 
@@ -252,8 +268,18 @@ mod tests {
                 worst = worst.max((approx - exact).abs() / exact);
             }
         }
-        eprintln!("offset superposition worst deviation {worst:.4}");
         assert!(worst < 0.06, "{worst}");
+        // The model itself is exact at t = 0 (the correction), whatever the offset.
+        for &(w, h1, h2) in &[(1e-4, 1e-4, 6e-4), (3e-4, 5e-5, 4e-4), (1e-5, 2e-4, 3e-4)] {
+            let c = crate::strip_moments::capacitance(
+                h1 + h2,
+                &[crate::strip_moments::Strip { x: 0.0, w, y: h1 }],
+            )
+            .unwrap();
+            let exact = ETA0 / c[0][0] / 2.0;
+            let got = line(w, h1, h2, 0.0, 4.0).analyze().unwrap().z0;
+            assert!((got - exact).abs() / exact < 1e-12, "{got} vs {exact}");
+        }
     }
 
     #[test]
@@ -296,7 +322,7 @@ mod tests {
         }
         let r = line(1e-4, 1e-5, 1e-4, 5e-5, 4.0).analyze().unwrap();
         assert!(r.z0.is_finite());
-        assert!(r.warnings.len() >= 2, "{:?}", r.warnings);
+        assert!(!r.warnings.is_empty(), "{:?}", r.warnings);
     }
 
     proptest! {
@@ -308,9 +334,15 @@ mod tests {
             prop_assert!((sym - off).abs() <= 1e-12 * sym);
         }
 
+    }
+
+    proptest! {
+        // Offset cases run a moment solve each; 24 cases keep the debug-build suite at a few seconds.
+        #![proptest_config(ProptestConfig::with_cases(24))]
+
         #[test]
-        fn impedance_falls_with_width_and_rises_with_height(w in 1e-5f64..2e-3, h1 in 2e-5f64..1e-3,
-                                                            h2 in 2e-5f64..1e-3, t in 0.0f64..5e-5) {
+        fn impedance_falls_with_width_and_rises_with_height(w in 1e-5f64..5e-4, h1 in 5e-5f64..5e-4,
+                                                            h2 in 5e-5f64..5e-4, t in 0.0f64..3e-5) {
             let z = |w: f64, h1: f64, h2: f64| line(w, h1, h2, t, 4.0).analyze().unwrap().z0;
             let base = z(w, h1, h2);
             prop_assert!(z(w * 1.01, h1, h2) < base);
