@@ -29,7 +29,7 @@ pub struct Strip {
 pub const N_BASIS: usize = 16;
 /// Upper limit of quadrature nodes per strip (the count adapts to how close a strip is to a plane or to
 /// another strip); it bounds the work of one solve to a few million kernel evaluations.
-pub const MAX_NODES: usize = 1600;
+pub const MAX_NODES: usize = 800;
 
 /// The smooth part of the log kernel between strips `si` and `sj` at the node abscissae `xi`, `xj` (m), into
 /// `out` (row-major, `xi.len()` × `xj.len()`).
@@ -76,7 +76,7 @@ fn kernel_block(
 
 /// Capacitance matrix C/ε (dimensionless, per unit length) of `strips` between planes `b` apart.
 pub fn capacitance(b: f64, strips: &[Strip]) -> Result<Vec<Vec<f64>>> {
-    capacitance_resolved(b, strips, 24.0)
+    capacitance_resolved(b, strips, 8.0)
 }
 
 /// [`capacitance`] with `resolution` quadrature nodes per unit of (strip width / nearest distance).
@@ -299,8 +299,8 @@ mod tests {
             ),
         ];
         for (b, strips) in &cases {
-            let a = capacitance_resolved(*b, strips, 24.0).unwrap();
-            let c = capacitance_resolved(*b, strips, 48.0).unwrap();
+            let a = capacitance_resolved(*b, strips, 8.0).unwrap();
+            let c = capacitance_resolved(*b, strips, 32.0).unwrap();
             for i in 0..strips.len() {
                 for j in 0..strips.len() {
                     assert!(rel(a[i][j], c[i][j]) < 1e-9, "{strips:?}: {a:?} vs {c:?}");
