@@ -33,7 +33,7 @@
 //! `tests/python/test_stripline.py`.
 
 use crate::elliptic::{self, ln_cosh, ln_sinh, ln_tanh};
-use crate::error::{self, Result};
+use crate::error::{self, Error, Result};
 use crate::lines::CoupledPair;
 use crate::strip_moments::{self, Strip};
 use crate::stripline::{self, superpose};
@@ -102,7 +102,8 @@ pub fn edge_offset(w: f64, s: f64, h1: f64, h2: f64, t: f64, er: f64) -> (f64, f
     (superpose(e1, e2), superpose(o1, o2))
 }
 
-/// Offset edge-coupled pair, superposition corrected mode by mode to the exact zero-thickness moment solution.
+/// Offset edge-coupled pair, superposition corrected mode by mode to the exact zero-thickness moment solution:
+/// (Z0e, Z0o, corrected). Uncorrected (plain superposition) when the moment solution would not be resolved.
 pub fn edge_offset_corrected(
     w: f64,
     s: f64,
@@ -110,7 +111,7 @@ pub fn edge_offset_corrected(
     h2: f64,
     t: f64,
     er: f64,
-) -> Result<(f64, f64)> {
+) -> Result<(f64, f64, bool)> {
     let strips = [
         Strip {
             x: -0.5 * (w + s),
@@ -123,11 +124,15 @@ pub fn edge_offset_corrected(
             y: h1,
         },
     ];
+    let (et, ot) = edge_offset(w, s, h1, h2, t, er);
+    if !strip_moments::resolvable(h1 + h2, &strips) {
+        return Ok((et, ot, false));
+    }
     let c = strip_moments::capacitance(h1 + h2, &strips)?;
     let (e0, o0) = strip_moments::pair_modes(&c);
     let (ea, oa) = edge_offset(w, s, h1, h2, 0.0, 1.0);
-    let (et, ot) = edge_offset(w, s, h1, h2, t, er);
-    Ok((et * e0 / ea, ot * o0 / oa))
+    // pair_modes is for εr = 1; the superposition at t = 0 is too, so the ratio is εr-free.
+    Ok((et * e0 / ea, ot * o0 / oa, true))
 }
 
 /// An edge-coupled stripline pair (SI units).
@@ -179,7 +184,12 @@ impl EdgeCoupledStripline {
             let h = 0.5 * (hi + lo);
             edge_symmetric(self.w, self.s, 2.0 * h + self.t, self.t, self.er)
         } else {
-            edge_offset_corrected(self.w, self.s, self.h_below, self.h_above, self.t, self.er)?
+            let (e, o, corrected) =
+                edge_offset_corrected(self.w, self.s, self.h_below, self.h_above, self.t, self.er)?;
+            if !corrected {
+                warnings.push(Warning::new(stripline::WIDE_OFFSET_NOTE));
+            }
+            (e, o)
         };
         Ok(CoupledPair {
             z_odd,
@@ -201,22 +211,55 @@ pub fn broadside_zero_thickness(
     h_below: f64,
     er: f64,
 ) -> Result<(f64, f64)> {
+    broadside_modes(w, h_above, s, h_below, er).map(|(e, o, _)| (e, o))
+}
+
+/// [`broadside_zero_thickness`] plus whether the width had to be extrapolated: strips wider than
+/// [`strip_moments::MAX_WIDTH_OVER_GAP`] × their nearest gap are solved at that width and extended with the exact
+/// parallel-plate slope of each capacitance (exact once the width also exceeds a few times every gap).
+pub fn broadside_modes(
+    w: f64,
+    h_above: f64,
+    s: f64,
+    h_below: f64,
+    er: f64,
+) -> Result<(f64, f64, bool)> {
     let b = h_above + s + h_below;
-    let strips = [
-        Strip {
-            x: 0.0,
-            w,
-            y: h_below,
-        },
-        Strip {
-            x: 0.0,
-            w,
-            y: h_below + s,
-        },
-    ];
-    let c = strip_moments::capacitance(b, &strips)?;
+    let strips_of = |w: f64| {
+        [
+            Strip {
+                x: 0.0,
+                w,
+                y: h_below,
+            },
+            Strip {
+                x: 0.0,
+                w,
+                y: h_below + s,
+            },
+        ]
+    };
+    let (c, extrapolated) = if strip_moments::resolvable(b, &strips_of(w)) {
+        (strip_moments::capacitance(b, &strips_of(w))?, false)
+    } else {
+        let gap = h_above.min(s).min(h_below);
+        let w0 = 0.999 * gap * strip_moments::MAX_WIDTH_OVER_GAP;
+        let mut c = strip_moments::capacitance(b, &strips_of(w0))?;
+        let extra = w - w0;
+        c[0][0] += extra * (1.0 / h_below + 1.0 / s);
+        c[1][1] += extra * (1.0 / h_above + 1.0 / s);
+        c[0][1] -= extra / s;
+        c[1][0] -= extra / s;
+        (c, true)
+    };
     let (ze, zo) = strip_moments::pair_modes(&c);
-    Ok((ze / er.sqrt(), zo / er.sqrt()))
+    if !(ze.is_finite() && zo.is_finite() && ze > 0.0 && zo > 0.0) {
+        return Err(Error::Invalid {
+            field: "width".into(),
+            reason: "the broadside geometry is beyond the solver's resolution".into(),
+        });
+    }
+    Ok((ze / er.sqrt(), zo / er.sqrt(), extrapolated))
 }
 
 /// A broadside-coupled stripline pair (SI units): plane, `h_above`, upper strip, `separation`, lower strip,
@@ -260,7 +303,13 @@ impl BroadsideStripline {
         } else {
             self.w
         };
-        let (z_even, z_odd) = broadside_zero_thickness(w, self.h_above, s, self.h_below, self.er)?;
+        let (z_even, z_odd, extrapolated) =
+            broadside_modes(w, self.h_above, s, self.h_below, self.er)?;
+        if extrapolated {
+            warnings.push(Warning::new(
+                "broadside strips more than 100× wider than their nearest gap: extended from that width with the parallel-plate slope",
+            ));
+        }
         Ok(CoupledPair {
             z_odd,
             z_even,
@@ -405,6 +454,21 @@ mod tests {
             );
         }
         assert!(last_split < 0.03, "{last_split}");
+    }
+
+    #[test]
+    fn very_wide_broadside_strips_extrapolate_continuously() {
+        // At the switch to extrapolation the two paths must agree (the parallel-plate slope is exact there).
+        let gap = 1e-5;
+        let w0 = 0.999 * gap * strip_moments::MAX_WIDTH_OVER_GAP;
+        let (e1, o1, x1) = broadside_modes(w0 * 0.999, gap, 3.0 * gap, 2.0 * gap, 1.0).unwrap();
+        let (e2, o2, x2) = broadside_modes(w0 * 1.002, gap, 3.0 * gap, 2.0 * gap, 1.0).unwrap();
+        assert!(!x1 && x2);
+        assert!(
+            rel(e1, e2) < 5e-3 && rel(o1, o2) < 5e-3,
+            "{e1} {e2} {o1} {o2}"
+        );
+        assert!(e2 < e1 && o2 < o1);
     }
 
     #[test]

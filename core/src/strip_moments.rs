@@ -74,9 +74,33 @@ fn kernel_block(
     }
 }
 
+/// The smallest distance from a strip to a plane or to another strip, over that strip's width.
+fn closeness(b: f64, strips: &[Strip]) -> f64 {
+    let mut scale = f64::INFINITY;
+    for (i, s) in strips.iter().enumerate() {
+        scale = scale.min(s.y.min(b - s.y) / s.w);
+        for t in &strips[i + 1..] {
+            let gap_y = (s.y - t.y).abs();
+            let gap_x = ((s.x - t.x).abs() - 0.5 * (s.w + t.w)).max(0.0);
+            scale = scale.min(gap_y.hypot(gap_x) / s.w.max(t.w));
+        }
+    }
+    scale
+}
+
+/// Widths up to this many times the nearest distance (to a plane or a neighbour) are resolved to 1e-9 by
+/// [`capacitance`]; beyond it the node cap is reached and the result degrades.
+pub const MAX_WIDTH_OVER_GAP: f64 = MAX_NODES as f64 / DEFAULT_RESOLUTION;
+const DEFAULT_RESOLUTION: f64 = 8.0;
+
+/// Whether [`capacitance`] resolves `strips` fully (see [`MAX_WIDTH_OVER_GAP`]).
+pub fn resolvable(b: f64, strips: &[Strip]) -> bool {
+    closeness(b, strips) * MAX_WIDTH_OVER_GAP >= 1.0
+}
+
 /// Capacitance matrix C/ε (dimensionless, per unit length) of `strips` between planes `b` apart.
 pub fn capacitance(b: f64, strips: &[Strip]) -> Result<Vec<Vec<f64>>> {
-    capacitance_resolved(b, strips, 8.0)
+    capacitance_resolved(b, strips, DEFAULT_RESOLUTION)
 }
 
 /// [`capacitance`] with `resolution` quadrature nodes per unit of (strip width / nearest distance).
@@ -91,15 +115,7 @@ fn capacitance_resolved(b: f64, strips: &[Strip], resolution: f64) -> Result<Vec
         }
     }
     // Resolution: the smooth kernels vary on the scale of the nearest plane or neighbouring strip.
-    let mut scale = f64::INFINITY;
-    for (i, s) in strips.iter().enumerate() {
-        scale = scale.min(s.y.min(b - s.y) / s.w);
-        for t in &strips[i + 1..] {
-            let gap_y = (s.y - t.y).abs();
-            let gap_x = ((s.x - t.x).abs() - 0.5 * (s.w + t.w)).max(0.0);
-            scale = scale.min(gap_y.hypot(gap_x) / s.w.max(t.w));
-        }
-    }
+    let scale = closeness(b, strips);
     let m = ((resolution / scale.max(1e-9)).ceil() as usize).clamp(4 * N_BASIS, MAX_NODES);
     let nodes: Vec<f64> = (0..m)
         .map(|k| ((2 * k + 1) as f64 * PI / (2 * m) as f64).cos())

@@ -205,3 +205,21 @@ def test_bad_stripline_inputs_name_their_field():
     assert out[0]["error"].startswith("spacing"), out[0]
     assert out[1]["error"].startswith("separation"), out[1]
     assert out[2]["error"].startswith("height2"), out[2]
+
+
+def test_extreme_geometries_stay_finite_and_positive():
+    # No reference value: legal but absurd sizes must give a finite positive impedance (with notes), never a crash.
+    vals = ["1e-12", "1e-9", "1e-6", "1e-3", "0.5"]
+    cases = []
+    for w, h, h2 in itertools.product(vals, vals, vals):
+        cases.append({"structure": "stripline", "width": w, "height": h, "height2": h2, "thickness": 0, "dk": 4})
+        cases.append({"structure": "edge-coupled-stripline", "width": w, "spacing": "1e-4", "height": h,
+                      "height2": h2, "thickness": "1e-9", "dk": 4})
+    for w, h, s in itertools.product(["1e-9", "1e-4", "0.5"], ["1e-9", "0.4"], ["1e-12", "1e-4", "0.4"]):
+        cases.append({"structure": "broadside-stripline", "width": w, "height": h, "separation": s, "thickness": 0,
+                      "dk": 4})
+    for got in batch(cases):
+        assert "error" not in got, got
+        for key in ("z0_ohm", "z_odd_ohm", "z_even_ohm"):
+            if key in got:
+                assert math.isfinite(got[key]) and got[key] > 0, got
