@@ -24,9 +24,14 @@
 //! the moment solution of [`crate::strip_moments`] (checked against Cohn 1954/1955 to 1e-9): t = 0 is then exact
 //! at any offset, and the superposition only carries the thickness change.
 //!
+//! Strips more than 100× wider than their nearer height skip the correction (the moment solution would not be
+//! resolved; the superposition error there falls like 1/W and is a few tenths of a percent) and say so.
+//!
 //! Checked against: the parallel-plate limit (exact), Cohn's exact fringing capacitance of a thick semi-infinite
 //! plate (wide-strip limit with t > 0), the thin-wire image result for narrow offset strips, and in
-//! `tests/python/test_stripline.py` mpmath's elliptic integrals over ≥ 100 geometries and a handbook example.
+//! `tests/python/test_stripline.py` mpmath's elliptic integrals over ≥ 100 geometries, Wheeler's and Cohn's thick
+//! closed forms (within 0.5 % and 1.5 %) and a handbook example; in `test_stripline_fem.py` an independent
+//! finite-element solve (thick centred strip +0.06 %, thick offset strip −0.36 %).
 
 use crate::elliptic::{self, ln_cosh, ln_tanh};
 use crate::error::{self, Result};
