@@ -33,6 +33,14 @@ pub const KINDS: &[(&str, &str)] = &[
         "stripline",
         "between two planes: --width --height (below) [--height2 (above)] --thickness --dk",
     ),
+    (
+        "edge-coupled-stripline",
+        "pair side by side between two planes: + --spacing [--height2 (above)]",
+    ),
+    (
+        "broadside-stripline",
+        "pair stacked between two planes: --width --height (above) --separation [--height2 (below)] --thickness --dk",
+    ),
 ];
 
 /// A parsed case: the cross-section and structure the models see, plus the given dimensions.
@@ -68,6 +76,15 @@ pub fn parse(kind: &str, fields: &BTreeMap<String, String>) -> Result<LineCase> 
             "mask-dk",
             "cover",
             "cover-dk",
+        ],
+        "edge-coupled-stripline" => &["width", "spacing", "height", "height2", "thickness", "dk"],
+        "broadside-stripline" => &[
+            "width",
+            "height",
+            "separation",
+            "height2",
+            "thickness",
+            "dk",
         ],
         _ => {
             let names: Vec<&str> = KINDS.iter().map(|k| k.0).collect();
@@ -155,6 +172,12 @@ pub fn parse(kind: &str, fields: &BTreeMap<String, String>) -> Result<LineCase> 
             };
             Medium::Microstrip { h, er, cover }
         }
+        "broadside-stripline" => Medium::Broadside {
+            h_above: h,
+            separation: error::length("separation", length("separation")?)?,
+            h_below: error::length("height2", optional_length("height2", h)?)?,
+            er,
+        },
         _ => {
             let h2 = error::length("height2", optional_length("height2", h)?)?;
             Medium::Stripline {
@@ -165,13 +188,13 @@ pub fn parse(kind: &str, fields: &BTreeMap<String, String>) -> Result<LineCase> 
             }
         }
     };
-    let (structure, s) = if kind == "edge-coupled-microstrip" {
-        (
+    let (structure, s) = match kind {
+        "edge-coupled-stripline" | "edge-coupled-microstrip" => (
             Structure::EdgePair,
             Some(error::length("spacing", length("spacing")?)?),
-        )
-    } else {
-        (Structure::Single, None)
+        ),
+        "broadside-stripline" => (Structure::BroadsidePair, None),
+        _ => (Structure::Single, None),
     };
     Ok(LineCase {
         kind: kind.to_string(),

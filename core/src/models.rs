@@ -3,11 +3,13 @@
 
 use crate::coated_microstrip::CoveredMicrostrip;
 use crate::coupled_microstrip::{CoveredEdgeCoupledMicrostrip, EdgeCoupledMicrostrip};
+use crate::coupled_stripline::{BroadsideStripline, EdgeCoupledStripline};
 use crate::cross_section::{Cover, CrossSection, Medium};
 use crate::error::{Error, Result};
 use crate::lines::{CoupledPair, SingleLine};
 use crate::microstrip::Microstrip;
 use crate::project::Structure;
+use crate::stripline::Stripline;
 use crate::validity::Warning;
 use serde::Serialize;
 
@@ -104,6 +106,91 @@ pub fn evaluate(cs: &CrossSection, structure: Structure, dims: &Dims) -> Result<
                 } else {
                     "Kirschning–Jansen 1984 + filling-factor cover correction per mode"
                 },
+            })
+        }
+        (
+            Structure::Single,
+            Medium::Stripline {
+                h_below,
+                h_above,
+                er,
+                dual,
+            },
+        ) => {
+            let line = Stripline {
+                w: dims.w,
+                h_below,
+                h_above,
+                t: cs.t,
+                er,
+            };
+            let mut analysis = line.analyze()?;
+            if dual {
+                analysis.warnings.push(Warning::new(
+                    "dual stripline: the other signal layer between the planes is ignored (computed as offset stripline)",
+                ));
+            }
+            let method = if line.is_symmetric() {
+                "Cohn 1954 + Wheeler 1978 thickness"
+            } else {
+                "Cohn 1954 + Wheeler 1978, offset by capacitance superposition"
+            };
+            Ok(Evaluated {
+                analysis: Analysis::Single(analysis),
+                method,
+            })
+        }
+        (
+            Structure::EdgePair,
+            Medium::Stripline {
+                h_below,
+                h_above,
+                er,
+                dual,
+            },
+        ) => {
+            let pair = EdgeCoupledStripline {
+                w: dims.w,
+                s: dims.s.ok_or_else(|| Error::Invalid {
+                    field: "spacing".into(),
+                    reason: "missing (an edge-coupled pair needs its spacing)".into(),
+                })?,
+                h_below,
+                h_above,
+                t: cs.t,
+                er,
+            };
+            let mut analysis = pair.analyze()?;
+            if dual {
+                analysis.warnings.push(Warning::new(
+                    "dual stripline: the other signal layer between the planes is ignored",
+                ));
+            }
+            Ok(Evaluated {
+                analysis: Analysis::Pair(analysis),
+                method: "Cohn 1955 coupled strips + thickness superposition",
+            })
+        }
+        (
+            Structure::BroadsidePair,
+            Medium::Broadside {
+                h_above,
+                separation,
+                h_below,
+                er,
+            },
+        ) => {
+            let pair = BroadsideStripline {
+                w: dims.w,
+                h_above,
+                separation,
+                h_below,
+                t: cs.t,
+                er,
+            };
+            Ok(Evaluated {
+                analysis: Analysis::Pair(pair.analyze()?),
+                method: "moment method, exact parallel-plate Green's function",
             })
         }
         (s, _) => Err(unsupported(&format!("{} on {}", s.label(), cs.family()))),
