@@ -22,6 +22,12 @@ usage:
                                         find the width that gives the target impedance
   ohmstack batch                        JSON lines of cases on stdin, JSON lines of results on stdout
   ohmstack kinds                        list the structures calc/solve/batch know
+  ohmstack share encode FILE|-          print the share link (v1.…) of a project
+  ohmstack share decode LINK|-          print the project JSON a share link holds (a whole URL is fine)
+  ohmstack notes FILE|- [--format md|csv]
+                                        fab notes: stack table, impedance table, general notes
+  ohmstack draw FILE|- [--rule NAME] [-o out.svg]
+                                        SVG cross-section of the stack (and of one rule's traces)
 
 lengths take units: um, mm, mil, in (and oz for copper thickness); plain numbers are metres.";
 
@@ -57,6 +63,9 @@ fn run(args: &[String]) -> Result<()> {
             }
             Ok(())
         }
+        "share" => share(rest),
+        "notes" => notes(rest),
+        "draw" => draw(rest),
         "-h" | "--help" | "help" => {
             println!("{HELP}");
             Ok(())
@@ -319,4 +328,93 @@ fn batch_line(line: &str) -> Result<Value> {
     let solve = map.contains_key("target");
     let (case, e) = compute(&kind, map, solve)?;
     Ok(evaluated_json(&case, &e))
+}
+
+fn share(args: &[String]) -> Result<()> {
+    match args {
+        [sub, path] if sub == "encode" => {
+            let project = Project::from_json(&read_input(path)?)?;
+            println!("{}", ohmstack_core::share::encode(&project));
+            Ok(())
+        }
+        [sub, link] if sub == "decode" => {
+            let link = if link == "-" {
+                read_input("-")?
+            } else {
+                link.clone()
+            };
+            let project = ohmstack_core::share::decode(&link)?;
+            println!("{}", project.to_json());
+            Ok(())
+        }
+        _ => bail!("usage: ohmstack share encode FILE|- or ohmstack share decode LINK|-"),
+    }
+}
+
+fn notes(args: &[String]) -> Result<()> {
+    let (mut map, json, positional) = flags(args)?;
+    if json {
+        bail!("--json: not an option of notes (use --format md|csv)");
+    }
+    let format = map.remove("format").unwrap_or_else(|| "md".into());
+    if let Some(k) = map.keys().next() {
+        bail!("--{k}: not an option of notes");
+    }
+    let [path] = positional.as_slice() else {
+        bail!("notes takes one FILE (or - for stdin)")
+    };
+    let project = Project::from_json(&read_input(path)?)?;
+    let plan = ohmstack_core::plan(&project)?;
+    let notes = ohmstack_core::report::fab_notes(&project, &plan);
+    match format.as_str() {
+        "md" | "markdown" => print!("{}", notes.to_markdown()),
+        "csv" => print!("{}", notes.to_csv()),
+        other => bail!("--format: {other:?} is not md or csv"),
+    }
+    Ok(())
+}
+
+fn draw(args: &[String]) -> Result<()> {
+    // `-o` is the one short option; turn it into the long form the flag parser knows.
+    let args: Vec<String> = args
+        .iter()
+        .map(|a| {
+            if a == "-o" {
+                "--output".to_string()
+            } else {
+                a.clone()
+            }
+        })
+        .collect();
+    let (mut map, json, positional) = flags(&args)?;
+    if json {
+        bail!("--json: not an option of draw");
+    }
+    let rule = map.remove("rule");
+    let output = map.remove("output");
+    if let Some(k) = map.keys().next() {
+        bail!("--{k}: not an option of draw");
+    }
+    let [path] = positional.as_slice() else {
+        bail!("draw takes one FILE (or - for stdin)")
+    };
+    let project = Project::from_json(&read_input(path)?)?;
+    let rule_idx = match &rule {
+        Some(name) => Some(
+            project
+                .rules
+                .iter()
+                .position(|r| &r.name == name)
+                .ok_or_else(|| anyhow!("--rule: no rule named {name:?}"))?,
+        ),
+        None => None,
+    };
+    let svg = ohmstack_core::draw::cross_section_svg(&project, rule_idx)?;
+    match output {
+        Some(out) if out != "-" => {
+            std::fs::write(&out, svg).with_context(|| format!("writing {out}"))?
+        }
+        _ => print!("{svg}"),
+    }
+    Ok(())
 }

@@ -14,12 +14,16 @@
 pub mod case;
 pub mod cross_section;
 pub mod demo;
+pub mod draw;
 pub mod error;
 pub mod lines;
 pub mod microstrip;
 pub mod models;
 pub mod plan;
+pub mod plot;
 pub mod project;
+pub mod report;
+pub mod share;
 pub mod stackup;
 pub mod synth;
 pub mod units;
