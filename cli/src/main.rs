@@ -28,6 +28,8 @@ usage:
                                         fab notes: stack table, impedance table, general notes
   ohmstack draw FILE|- [--rule NAME] [-o out.svg]
                                         SVG cross-section of the stack (and of one rule's traces)
+  ohmstack plot FILE|- --rule NAME [-o out.svg] [--points N]
+                                        SVG plot of impedance against width (±30 % around the solution)
 
 lengths take units: um, mm, mil, in (and oz for copper thickness); plain numbers are metres.";
 
@@ -66,6 +68,7 @@ fn run(args: &[String]) -> Result<()> {
         "share" => share(rest),
         "notes" => notes(rest),
         "draw" => draw(rest),
+        "plot" => plot(rest),
         "-h" | "--help" | "help" => {
             println!("{HELP}");
             Ok(())
@@ -410,6 +413,10 @@ fn draw(args: &[String]) -> Result<()> {
         None => None,
     };
     let svg = ohmstack_core::draw::cross_section_svg(&project, rule_idx)?;
+    write_svg(output, &svg)
+}
+
+fn write_svg(output: Option<String>, svg: &str) -> Result<()> {
     match output {
         Some(out) if out != "-" => {
             std::fs::write(&out, svg).with_context(|| format!("writing {out}"))?
@@ -417,4 +424,59 @@ fn draw(args: &[String]) -> Result<()> {
         _ => print!("{svg}"),
     }
     Ok(())
+}
+
+fn plot(args: &[String]) -> Result<()> {
+    let args: Vec<String> = args
+        .iter()
+        .map(|a| {
+            if a == "-o" {
+                "--output".to_string()
+            } else {
+                a.clone()
+            }
+        })
+        .collect();
+    let (mut map, json, positional) = flags(&args)?;
+    let name = map
+        .remove("rule")
+        .ok_or_else(|| anyhow!("--rule: missing (the rule to plot)"))?;
+    let output = map.remove("output");
+    let points = match map.remove("points") {
+        Some(p) => p
+            .parse::<usize>()
+            .ok()
+            .filter(|n| (2..=1000).contains(n))
+            .ok_or_else(|| anyhow!("--points: {p:?} is not a whole number from 2 to 1000"))?,
+        None => 41,
+    };
+    if let Some(k) = map.keys().next() {
+        bail!("--{k}: not an option of plot");
+    }
+    let [path] = positional.as_slice() else {
+        bail!("plot takes one FILE (or - for stdin)")
+    };
+    let project = Project::from_json(&read_input(path)?)?;
+    let idx = project
+        .rules
+        .iter()
+        .position(|r| r.name == name)
+        .ok_or_else(|| anyhow!("--rule: no rule named {name:?}"))?;
+    let pts = ohmstack_core::plot::z_vs_width(&project, idx, points)?;
+    if json {
+        println!("{}", serde_json::to_string(&pts)?);
+        return Ok(());
+    }
+    let unit = project.units;
+    let svg = ohmstack_core::plot::line_plot(&ohmstack_core::plot::LinePlot {
+        title: format!("{}: impedance against trace width", name),
+        x_label: format!("trace width ({})", unit.symbol()),
+        y_label: "Z (Ω)".into(),
+        series: vec![ohmstack_core::plot::Series {
+            label: name.clone(),
+            points: pts.iter().map(|&(w, z)| (unit.from_m(w), z)).collect(),
+        }],
+        log_x: false,
+    });
+    write_svg(output, &svg)
 }

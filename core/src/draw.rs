@@ -17,7 +17,7 @@ use crate::stackup::{CopperRole, Layer};
 use crate::units::format_length;
 use std::fmt::Write as _;
 
-const WIDTH: f64 = 900.0;
+const WIDTH: f64 = 1000.0;
 const STACK_X0: f64 = 130.0;
 const STACK_X1: f64 = 560.0;
 const LABEL_X: f64 = 575.0;
@@ -89,7 +89,7 @@ pub fn cross_section_svg(project: &Project, rule_idx: Option<usize>) -> Result<S
     );
     let _ = write!(
         s,
-        r##"<text class="subtitle" x="{}" y="40" fill="#555555">{} total, {} layers; heights not to scale (minimum height per layer)</text>"##,
+        r##"<text class="subtitle" x="{}" y="40" fill="#555555">{} total, {} copper layers; heights not to scale (minimum height per layer)</text>"##,
         num(STACK_X0),
         xml_escape(&format_length(total, unit)),
         stack.copper_count()
@@ -161,7 +161,7 @@ pub fn cross_section_svg(project: &Project, rule_idx: Option<usize>) -> Result<S
             format!(
                 "{} pressed ({} as bought)",
                 format_length(pressed[i], unit),
-                format_length(layer.thickness_m(), unit)
+                crate::units::format_sig(unit.from_m(layer.thickness_m()), 4)
             )
         } else {
             format_length(pressed[i], unit)
@@ -173,7 +173,12 @@ pub fn cross_section_svg(project: &Project, rule_idx: Option<usize>) -> Result<S
                     .dielectric()
                     .map(|d| d.material.as_str())
                     .unwrap_or("");
-                format!("{} {}", other.kind_name(), d)
+                // Material names usually say what they are; name the kind only when they do not.
+                if d.to_lowercase().contains(other.kind_name()) {
+                    d.to_string()
+                } else {
+                    format!("{} {}", other.kind_name(), d)
+                }
             }
         };
         let label = format!(
@@ -300,7 +305,7 @@ pub fn cross_section_svg(project: &Project, rule_idx: Option<usize>) -> Result<S
             for x in [xa, xb] {
                 let _ = write!(
                     s,
-                    r##"<line class="extension" x1="{}" y1="{}" x2="{}" y2="{}" stroke="#888888" stroke-width="0.6" stroke-dasharray="3 2"/>"##,
+                    r##"<line class="extension" x1="{}" y1="{}" x2="{}" y2="{}" stroke="#888888" stroke-width="0.5" stroke-dasharray="2 3"/>"##,
                     num(*x),
                     num(ext_top),
                     num(*x),

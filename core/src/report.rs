@@ -148,7 +148,7 @@ pub fn fab_notes(project: &Project, plan: &Plan) -> FabNotes {
          dielectric thickness to meet the impedance targets."
             .to_string(),
         format!(
-            "Finished board thickness {} ± {} % (copper to copper over the solder mask; pressed prepreg).",
+            "Finished board thickness {} ± {} % (all layers of the stack table including solder mask, prepreg as pressed).",
             format_length(plan.total_thickness_m, unit),
             format_sig(tol, 3)
         ),
@@ -185,15 +185,16 @@ pub fn fab_notes(project: &Project, plan: &Plan) -> FabNotes {
     }
 }
 
-/// Escapes text for a Markdown table cell: a backslash before every ASCII punctuation character CommonMark or
-/// HTML could give a meaning to (CommonMark 0.31 §2.4 allows a backslash escape before any ASCII punctuation),
-/// and line breaks as spaces (a cell is one line).
+/// Escapes text for a Markdown table cell: a backslash before each ASCII punctuation character that CommonMark,
+/// GitHub tables or inline HTML could give a meaning to anywhere in a line (CommonMark 0.31 §2.4 allows a
+/// backslash escape before any ASCII punctuation): emphasis, code, links, raw HTML, entities, strike-through,
+/// math and the cell separator `|`. Parentheses and `!` need none once `[` and `]` are escaped. Line breaks
+/// become spaces (a cell is one line).
 pub fn markdown_escape(text: &str) -> String {
     let mut out = String::with_capacity(text.len() + 8);
     for c in text.chars() {
         match c {
-            '\\' | '`' | '*' | '_' | '{' | '}' | '[' | ']' | '<' | '>' | '(' | ')' | '#' | '+'
-            | '!' | '|' | '&' | '~' | '"' | '\'' | '=' | '$' => {
+            '\\' | '`' | '*' | '_' | '[' | ']' | '<' | '>' | '|' | '&' | '~' | '$' => {
                 out.push('\\');
                 out.push(c);
             }
@@ -510,7 +511,7 @@ mod tests {
         let md = fab_notes(&p, &plan).to_markdown();
         assert!(!md.contains("<script>"), "{md}");
         assert!(md.contains("\\<script\\>"), "{md}");
-        assert!(md.contains("a\\|b,\\\"c\\\""), "{md}");
+        assert!(md.contains("a\\|b,\"c\""), "{md}");
         // Every table row has the same number of unescaped pipes as its header.
         for table in md.split("\n\n").filter(|t| t.starts_with('|')) {
             let counts: Vec<usize> = table
