@@ -558,4 +558,18 @@ mod tests {
         let e = cross_section_svg(&p, Some(99)).unwrap_err().to_string();
         assert!(e.contains("rule"), "{e}");
     }
+
+    #[test]
+    fn broadside_pair_draws_a_trace_on_each_layer() {
+        let mut p = crate::demo::project();
+        let mut r = p.rules[3].clone();
+        r.name = "broadside".into();
+        r.structure = Structure::BroadsidePair;
+        r.partner_layer = Some("L4 Inner".into());
+        p.rules.push(r);
+        let svg = cross_section_svg(&p, Some(p.rules.len() - 1)).unwrap();
+        assert_well_formed(&svg);
+        assert_eq!(svg.matches("class=\"copper trace\"").count(), 2);
+        assert_eq!(svg.matches("trace-layer").count(), 2);
+    }
 }

@@ -10,6 +10,9 @@
 //!
 //! Data flows one way: [`Project`] → [`cross_section::resolve`] → [`models::evaluate`] (one module per structure
 //! family) → [`synth::solve`] for the free dimension → [`Plan`].
+//!
+//! Around the plan, also pure: [`share`] packs a project into a URL-fragment link and reads it back (untrusted
+//! input), [`report`] writes fab notes (Markdown, CSV), [`draw`] the SVG cross-section and [`plot`] small SVG plots.
 
 pub mod case;
 pub mod cross_section;

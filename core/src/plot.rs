@@ -519,8 +519,10 @@ pub fn heat_map(field: &Field2d) -> Result<String> {
     // Keep the aspect ratio of the physical grid inside the plot area.
     let (aw, ah) = (W - ML - MR - right, H - MT - MB);
     let scale = (aw / (xb - xa)).min(ah / (yb - ya));
+    // Centre the drawn field vertically in the plot area.
+    let y_base = MT + (ah + (yb - ya) * scale) / 2.0;
     let px = |x: f64| ML + (x - xa) * scale;
-    let py = |y: f64| MT + ah - (y - ya) * scale;
+    let py = |y: f64| y_base - (y - ya) * scale;
     for j in 0..ny - 1 {
         for i in 0..nx - 1 {
             let corners = [at(i, j), at(i + 1, j), at(i, j + 1), at(i + 1, j + 1)];
@@ -568,14 +570,6 @@ pub fn heat_map(field: &Field2d) -> Result<String> {
             );
         }
     }
-    let frame = Frame {
-        x0: xa,
-        x1: xb,
-        y0: ya,
-        y1: yb,
-        log_x: false,
-    };
-    let _ = frame.log_x;
     let _ = write!(
         s,
         r##"<rect class="frame" x="{}" y="{}" width="{}" height="{}" fill="none" stroke="#444444"/>"##,

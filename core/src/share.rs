@@ -154,8 +154,9 @@ pub fn decode(link: &str) -> Result<Project, ShareError> {
     if number.is_empty() || !number.bytes().all(|b| b.is_ascii_digit()) {
         return Err(ShareError::NotALink);
     }
-    match number.parse::<u32>() {
-        Ok(1) => decode_v1(payload),
+    // Exact text, so `v01.` is not taken for `v1.`.
+    match number {
+        "1" => decode_v1(payload),
         _ => Err(ShareError::UnsupportedVersion {
             found: number.chars().take(12).collect(),
             supported: LINK_VERSION,
