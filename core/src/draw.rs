@@ -271,6 +271,39 @@ pub fn cross_section_svg(project: &Project, rule_idx: Option<usize>) -> Result<S
                     num(xa + ia),
                     num(yt)
                 );
+                // Solder mask coats the copper on its side conformally: draw the coat over the faces it covers.
+                let mask_side_top = matches!(
+                    li.checked_sub(1).map(|j| &stack.layers[j]),
+                    Some(Layer::SolderMask(_))
+                );
+                let mask_side_bottom =
+                    matches!(stack.layers.get(li + 1), Some(Layer::SolderMask(_)));
+                let covered_face = if mask_side_top { y0 } else { y1 };
+                if (mask_side_top || mask_side_bottom) && !ground {
+                    let (xa_face, xb_face) = if (yt - covered_face).abs() < 1e-9 {
+                        (xa + ia, xb - ib)
+                    } else {
+                        (xa, xb)
+                    };
+                    let other = if mask_side_top { y1 } else { y0 };
+                    let (xa_far, xb_far) = if (yt - covered_face).abs() < 1e-9 {
+                        (xa, xb)
+                    } else {
+                        (xa + ia, xb - ib)
+                    };
+                    let _ = write!(
+                        s,
+                        r##"<polyline class="mask-coat" points="{},{} {},{} {},{} {},{}" fill="none" stroke="{MASK}" stroke-width="3"/>"##,
+                        num(xa_far),
+                        num(other),
+                        num(xa_face),
+                        num(covered_face),
+                        num(xb_face),
+                        num(covered_face),
+                        num(xb_far),
+                        num(other)
+                    );
+                }
             }
         }
 
@@ -496,6 +529,8 @@ mod tests {
         let p = crate::demo::project();
         let svg = cross_section_svg(&p, Some(0)).unwrap();
         assert!(svg.contains("reference"), "{svg}");
+        // The top layer is under solder mask: the coat is drawn over the trace.
+        assert!(svg.contains("class=\"mask-coat\""), "{svg}");
         assert!(svg.contains(">h "), "{svg}");
         assert!(svg.contains("Z 50.00 Ω"), "{svg}");
     }
