@@ -35,6 +35,14 @@ usage:
                                         the spread's seeded random stream, one number a line (for checks)
   ohmstack batch                        JSON lines of cases on stdin, JSON lines of results on stdout
   ohmstack kinds                        list the structures calc/solve/batch know
+  ohmstack share encode FILE|-          print the share link (v1.…) of a project
+  ohmstack share decode LINK|-          print the project JSON a share link holds (a whole URL is fine)
+  ohmstack notes FILE|- [--format md|csv]
+                                        fab notes: stack table, impedance table, general notes
+  ohmstack draw FILE|- [--rule NAME] [-o out.svg]
+                                        SVG cross-section of the stack (and of one rule's traces)
+  ohmstack plot FILE|- --rule NAME [-o out.svg] [--points N]
+                                        SVG plot of impedance against width (±30 % around the solution)
   ohmstack loss FILE|- --rule NAME [--freq 5GHz | --from 10MHz --to 40GHz --points 50] [--json]
                                         loss, complex Z0 and delay of one rule's line at one frequency or
                                         over a log-spaced sweep (default 10 MHz to 40 GHz, 50 points)
@@ -82,6 +90,10 @@ fn run(args: &[String]) -> Result<()> {
             }
             Ok(())
         }
+        "share" => share(rest),
+        "notes" => notes(rest),
+        "draw" => draw(rest),
+        "plot" => plot(rest),
         "-h" | "--help" | "help" => {
             println!("{HELP}");
             Ok(())
@@ -804,4 +816,152 @@ fn random(args: &[String]) -> Result<()> {
         writeln!(out, "{x:e}")?;
     }
     Ok(())
+}
+
+fn share(args: &[String]) -> Result<()> {
+    match args {
+        [sub, path] if sub == "encode" => {
+            let project = Project::from_json(&read_input(path)?)?;
+            println!("{}", ohmstack_core::share::encode(&project));
+            Ok(())
+        }
+        [sub, link] if sub == "decode" => {
+            let link = if link == "-" {
+                read_input("-")?
+            } else {
+                link.clone()
+            };
+            let project = ohmstack_core::share::decode(&link)?;
+            println!("{}", project.to_json());
+            Ok(())
+        }
+        _ => bail!("usage: ohmstack share encode FILE|- or ohmstack share decode LINK|-"),
+    }
+}
+
+fn notes(args: &[String]) -> Result<()> {
+    let (mut map, json, positional) = flags(args)?;
+    if json {
+        bail!("--json: not an option of notes (use --format md|csv)");
+    }
+    let format = map.remove("format").unwrap_or_else(|| "md".into());
+    if let Some(k) = map.keys().next() {
+        bail!("--{k}: not an option of notes");
+    }
+    let [path] = positional.as_slice() else {
+        bail!("notes takes one FILE (or - for stdin)")
+    };
+    let project = Project::from_json(&read_input(path)?)?;
+    let plan = ohmstack_core::plan(&project)?;
+    let notes = ohmstack_core::report::fab_notes(&project, &plan);
+    match format.as_str() {
+        "md" | "markdown" => print!("{}", notes.to_markdown()),
+        "csv" => print!("{}", notes.to_csv()),
+        other => bail!("--format: {other:?} is not md or csv"),
+    }
+    Ok(())
+}
+
+fn draw(args: &[String]) -> Result<()> {
+    // `-o` is the one short option; turn it into the long form the flag parser knows.
+    let args: Vec<String> = args
+        .iter()
+        .map(|a| {
+            if a == "-o" {
+                "--output".to_string()
+            } else {
+                a.clone()
+            }
+        })
+        .collect();
+    let (mut map, json, positional) = flags(&args)?;
+    if json {
+        bail!("--json: not an option of draw");
+    }
+    let rule = map.remove("rule");
+    let output = map.remove("output");
+    if let Some(k) = map.keys().next() {
+        bail!("--{k}: not an option of draw");
+    }
+    let [path] = positional.as_slice() else {
+        bail!("draw takes one FILE (or - for stdin)")
+    };
+    let project = Project::from_json(&read_input(path)?)?;
+    let rule_idx = match &rule {
+        Some(name) => Some(
+            project
+                .rules
+                .iter()
+                .position(|r| &r.name == name)
+                .ok_or_else(|| anyhow!("--rule: no rule named {name:?}"))?,
+        ),
+        None => None,
+    };
+    let svg = ohmstack_core::draw::cross_section_svg(&project, rule_idx)?;
+    write_svg(output, &svg)
+}
+
+fn write_svg(output: Option<String>, svg: &str) -> Result<()> {
+    match output {
+        Some(out) if out != "-" => {
+            std::fs::write(&out, svg).with_context(|| format!("writing {out}"))?
+        }
+        _ => print!("{svg}"),
+    }
+    Ok(())
+}
+
+fn plot(args: &[String]) -> Result<()> {
+    let args: Vec<String> = args
+        .iter()
+        .map(|a| {
+            if a == "-o" {
+                "--output".to_string()
+            } else {
+                a.clone()
+            }
+        })
+        .collect();
+    let (mut map, json, positional) = flags(&args)?;
+    let name = map
+        .remove("rule")
+        .ok_or_else(|| anyhow!("--rule: missing (the rule to plot)"))?;
+    let output = map.remove("output");
+    let points = match map.remove("points") {
+        Some(p) => p
+            .parse::<usize>()
+            .ok()
+            .filter(|n| (2..=1000).contains(n))
+            .ok_or_else(|| anyhow!("--points: {p:?} is not a whole number from 2 to 1000"))?,
+        None => 41,
+    };
+    if let Some(k) = map.keys().next() {
+        bail!("--{k}: not an option of plot");
+    }
+    let [path] = positional.as_slice() else {
+        bail!("plot takes one FILE (or - for stdin)")
+    };
+    let project = Project::from_json(&read_input(path)?)?;
+    let idx = project
+        .rules
+        .iter()
+        .position(|r| r.name == name)
+        .ok_or_else(|| anyhow!("--rule: no rule named {name:?}"))?;
+    let pts = ohmstack_core::plot::z_vs_width(&project, idx, points)?;
+    if json {
+        println!("{}", serde_json::to_string(&pts)?);
+        return Ok(());
+    }
+    let unit = project.units;
+    let svg = ohmstack_core::plot::line_plot(&ohmstack_core::plot::LinePlot {
+        title: format!("{}: impedance against trace width", name),
+        x_label: format!("trace width ({})", unit.symbol()),
+        y_label: "Z (Ω)".into(),
+        series: vec![ohmstack_core::plot::Series {
+            label: name.clone(),
+            points: pts.iter().map(|&(w, z)| (unit.from_m(w), z)).collect(),
+        }],
+        log_x: false,
+    });
+    write_svg(output, &svg)
 }

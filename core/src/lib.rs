@@ -10,6 +10,9 @@
 //!
 //! Data flows one way: [`Project`] → [`cross_section::resolve`] → [`models::evaluate`] (one module per structure
 //! family) → [`synth::solve`] for the free dimension → [`Plan`].
+//!
+//! Around the plan, also pure: [`share`] packs a project into a URL-fragment link and reads it back (untrusted
+//! input), [`report`] writes fab notes (Markdown, CSV), [`draw`] the SVG cross-section and [`plot`] small SVG plots.
 
 pub mod case;
 pub mod coated_microstrip;
@@ -19,6 +22,7 @@ pub mod cross_section;
 pub mod demo;
 pub mod dielectric;
 pub mod dispersion;
+pub mod draw;
 pub mod elliptic;
 pub mod error;
 pub mod lines;
@@ -26,8 +30,11 @@ pub mod loss;
 pub mod microstrip;
 pub mod models;
 pub mod plan;
+pub mod plot;
 pub mod project;
+pub mod report;
 pub mod roughness;
+pub mod share;
 pub mod spread;
 pub mod stackup;
 pub mod strip_moments;

@@ -115,6 +115,9 @@ pub struct Fab {
     /// `None` treats traces as rectangles.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub etch_factor: Option<f64>,
+    /// Finished board thickness tolerance, ± %; `None` means the common ±10 % (common practice, no source).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub thickness_tolerance_pct: Option<f64>,
 }
 
 impl Default for Fab {
@@ -124,6 +127,7 @@ impl Default for Fab {
             min_trace_m: 100e-6,
             min_space_m: 100e-6,
             etch_factor: None,
+            thickness_tolerance_pct: None,
         }
     }
 }
@@ -214,6 +218,9 @@ impl Project {
             error::in_range("fab.etch_factor", ef, 0.5, 100.0, "")?;
         }
         self.loss.validate()?;
+        if let Some(tol) = self.fab.thickness_tolerance_pct {
+            error::in_range("fab.thickness_tolerance", tol, 0.0, 50.0, "%")?;
+        }
         self.stackup.validate()?;
         if let Some(process) = &self.process {
             process.validate(&self.stackup)?;
