@@ -28,6 +28,22 @@ pub const KINDS: &[(&str, &str)] = &[
         "stripline",
         "between two planes: --width --height (below) [--height2 (above)] --thickness --dk",
     ),
+    (
+        "coplanar",
+        "coplanar waveguide, no plane: --width --gap --height (substrate) --thickness --dk",
+    ),
+    (
+        "grounded-coplanar",
+        "coplanar waveguide over a plane: --width --gap --height --thickness --dk",
+    ),
+    (
+        "coplanar-pair",
+        "coplanar pair with grounds, no plane: --width --spacing --gap --height --thickness --dk",
+    ),
+    (
+        "grounded-coplanar-pair",
+        "coplanar pair with grounds over a plane: --width --spacing --gap --height --thickness --dk",
+    ),
 ];
 
 /// A parsed case: the cross-section and structure the models see, plus the given dimensions.
@@ -53,6 +69,10 @@ pub fn parse(kind: &str, fields: &BTreeMap<String, String>) -> Result<LineCase> 
         ],
         "embedded-microstrip" => &["width", "height", "thickness", "dk", "cover", "cover-dk"],
         "stripline" => &["width", "height", "height2", "thickness", "dk"],
+        "coplanar" | "grounded-coplanar" => &["width", "gap", "height", "thickness", "dk"],
+        "coplanar-pair" | "grounded-coplanar-pair" => {
+            &["width", "spacing", "gap", "height", "thickness", "dk"]
+        }
         _ => {
             let names: Vec<&str> = KINDS.iter().map(|k| k.0).collect();
             return Err(Error::Invalid {
@@ -117,6 +137,12 @@ pub fn parse(kind: &str, fields: &BTreeMap<String, String>) -> Result<LineCase> 
                 er: error::permittivity("cover-dk", number("cover-dk")?)?,
             },
         },
+        "coplanar" | "coplanar-pair" => Medium::NoPlane { h, er },
+        "grounded-coplanar" | "grounded-coplanar-pair" => Medium::Microstrip {
+            h,
+            er,
+            cover: Cover::Air,
+        },
         _ => {
             let h2 = error::length("height2", optional_length("height2", h)?)?;
             Medium::Stripline {
@@ -127,7 +153,19 @@ pub fn parse(kind: &str, fields: &BTreeMap<String, String>) -> Result<LineCase> 
             }
         }
     };
-    let structure = Structure::Single;
+    let (structure, s, gap) = match kind {
+        "coplanar" | "grounded-coplanar" => (
+            Structure::Coplanar,
+            None,
+            Some(error::length("gap", length("gap")?)?),
+        ),
+        "coplanar-pair" | "grounded-coplanar-pair" => (
+            Structure::CoplanarPair,
+            Some(error::length("spacing", length("spacing")?)?),
+            Some(error::length("gap", length("gap")?)?),
+        ),
+        _ => (Structure::Single, None, None),
+    };
     Ok(LineCase {
         kind: kind.to_string(),
         cross_section: CrossSection {
@@ -137,11 +175,7 @@ pub fn parse(kind: &str, fields: &BTreeMap<String, String>) -> Result<LineCase> 
             warnings: Vec::new(),
         },
         structure,
-        dims: Dims {
-            w,
-            s: None,
-            gap: None,
-        },
+        dims: Dims { w, s, gap },
     })
 }
 

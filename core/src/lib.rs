@@ -12,6 +12,8 @@
 //! family) → [`synth::solve`] for the free dimension → [`Plan`].
 
 pub mod case;
+pub mod coplanar;
+pub mod coupled_coplanar;
 pub mod cross_section;
 pub mod demo;
 pub mod error;
