@@ -467,4 +467,68 @@ mod tests {
             .unwrap_err();
         assert!(e.to_string().starts_with("mask thickness"), "{e}");
     }
+
+    mod round_trip {
+        //! Synthesis round-trips: analyse a random geometry, solve the width back from its impedance.
+        use crate::case::LineCase;
+        use crate::cross_section::{Cover, CrossSection, Medium};
+        use crate::models::Dims;
+        use crate::project::Structure;
+        use proptest::prelude::*;
+
+        fn case(
+            structure: Structure,
+            grounded: bool,
+            h: f64,
+            er: f64,
+            t: f64,
+            dims: Dims,
+        ) -> LineCase {
+            let medium = if grounded {
+                Medium::Microstrip {
+                    h,
+                    er,
+                    cover: Cover::Air,
+                }
+            } else {
+                Medium::NoPlane { h, er }
+            };
+            LineCase {
+                kind: "test".into(),
+                cross_section: CrossSection {
+                    medium,
+                    t,
+                    references: Vec::new(),
+                    warnings: Vec::new(),
+                },
+                structure,
+                dims,
+            }
+        }
+
+        proptest! {
+            #![proptest_config(ProptestConfig::with_cases(48))]
+            #[test]
+            fn width_round_trips(
+                w_um in 20.0f64..1000.0,
+                g_um in 20.0f64..1000.0,
+                s_um in 20.0f64..1000.0,
+                h_um in 50.0f64..2000.0,
+                er in 2.2f64..10.0,
+                t_um in 0.0f64..5.0,
+                grounded in any::<bool>(),
+                paired in any::<bool>(),
+            ) {
+                let structure = if paired { Structure::CoplanarPair } else { Structure::Coplanar };
+                let dims = Dims { w: w_um * 1e-6, s: paired.then_some(s_um * 1e-6), gap: Some(g_um * 1e-6) };
+                let c = case(structure, grounded, h_um * 1e-6, er, t_um * 1e-6, dims);
+                let z = c.analyze().unwrap().analysis.controlled();
+                let solved = c.solve_width(z).unwrap();
+                let rel = (solved.dims.w - dims.w).abs() / dims.w;
+                prop_assert!(rel < 1e-6, "w {} -> {} (rel {rel:e})", dims.w, solved.dims.w);
+                let z2 = solved.analyze().unwrap().analysis.controlled();
+                prop_assert!((z2 - z).abs() / z < 1e-9);
+            }
+        }
+    }
 }
