@@ -14,12 +14,17 @@
 //! as Ghione & Naldi 1984 do for the single CPW), u = tanh(πx/2h) for the layer over a plane (as Ghione & Naldi 1983).
 //! Per line: without a plane C = ε0[2Q_air + (εr−1)Q_sinh], Ca = 2ε0Q_air; with a plane
 //! C = ε0[Q_air + εr·Q_tanh (+ (εc−1)Q_sinh,cover)], Ca = ε0[Q_air + Q_tanh]; Zo,e = η0/(Ca/ε0 · √εeff).
-//! Without a plane, the odd mode's electric wall reaches only through the substrate, not through the air below it;
-//! mapping it as if it reached all the way (the usual sinh substitution, as in the coplanar-strip formulas of
-//! Gupta et al. 1996 ch. 7) overstates the substrate term when h is small against S. We use that substitution,
-//! cap the substrate term at the air half-space one (the physical bound), and warn when h < S. The other three
-//! cases (even mode, and both modes with a plane, where the tanh map sends the wall onto the whole imaginary axis)
-//! are exact within the partial-capacitance split.
+//! Without a plane, the odd mode's electric wall reaches only through the substrate, not through the air below it.
+//! Mapping it as if it reached all the way (the plain sinh substitution, as in the coplanar-strip formulas of
+//! Gupta et al. 1996 ch. 7) is the same as a ground plane under the substrate and overstates the substrate term
+//! badly once h is not large against the pair (factor 1.7 at h = S/2). After the two maps the wall is one more
+//! conductor segment, and the half-plane problem has six interval ends instead of four; we solve it with the
+//! Schwarz–Christoffel form and three one-dimensional integrals (see `q_odd_layer`), which is exact within the
+//! partial-capacitance split. Checked: it lies between the no-wall and wall-through 4-point results, tends to the
+//! half-space value for h → ∞, to the 1-D slab value h/(S/2) + h/G for h → 0 (within the edge-spreading
+//! correction of order h/S), and matches an mpmath quadrature of
+//! the w-plane integrals. The even mode, and both modes with a plane (where the tanh map sends the wall onto the
+//! whole imaginary axis), are closed forms exact within the partial-capacitance split.
 //! These moduli are derived here; we checked them against exact limits rather than a printed table: S → 0 gives
 //! the even mode of one CPW of width 2W (exact), G → ∞ gives the odd mode of coplanar strips (K(k′)/K(k) with
 //! k = S/(S+2W), exact), and a far plane gives the no-plane line. The partial-capacitance split has the accuracy
@@ -82,6 +87,103 @@ fn q_mode(map: Map, mode: Mode, x1: f64, x2: f64, x3: f64) -> f64 {
     k_ratio_ln(ln_m2, ln_mp2)
 }
 
+/// 10-point Gauss–Legendre nodes and weights on [−1, 1] (half of the symmetric set; A&S table 25.4).
+const GL10: [(f64, f64); 5] = [
+    (0.148_874_338_981_631_2, 0.295_524_224_714_752_9),
+    (0.433_395_394_129_247_2, 0.269_266_719_309_996_3),
+    (0.679_409_568_299_024_4, 0.219_086_362_515_982_0),
+    (0.865_063_366_688_984_5, 0.149_451_349_150_580_6),
+    (0.973_906_528_517_171_7, 0.066_671_344_308_688_1),
+];
+
+/// Above this mapped abscissa πx3/2h the layer is so thin against the pair that the odd mode's wall term is
+/// dropped (cosh² would leave the f64 range in the weights below).
+const MAX_MAPPED: f64 = 150.0;
+
+/// ∫ f(ξ) dξ over (α, β) for an f with inverse-square-root end singularities, as (ln of the scale, ∫ scaled f,
+/// ∫ scaled f·cosh²(πξ/2h)): ξ = α + (β−α)·sin²(θ/2) turns the end singularities into smooth θ-integrands, and
+/// panels graded geometrically towards both ends of θ ∈ (0, π) resolve the neighbouring edges.
+fn edge_integrals(h: f64, edges: [f64; 3], alpha: f64, beta: f64) -> (f64, f64, f64) {
+    const LEVELS: i32 = 24;
+    let s = std::f64::consts::PI / (2.0 * h);
+    let len = beta - alpha;
+    // ln of the integrand at θ: −½ Σ ln|sinh(s(ξ−xi))·sinh(s(ξ+xi))| + ½ ln(d_lo·d_hi), with the distances to
+    // the two ends taken exactly (d_lo, d_hi) so nothing cancels near them.
+    let ln_f = |theta: f64| -> (f64, f64) {
+        let (sn, cs) = (0.5 * theta).sin_cos();
+        let (d_lo, d_hi) = (len * sn * sn, len * cs * cs);
+        let xi = alpha + d_lo;
+        let mut l = 0.5 * (d_lo * d_hi).ln();
+        for &x in &edges {
+            let d = if x == alpha {
+                d_lo
+            } else if x == beta {
+                d_hi
+            } else {
+                (xi - x).abs()
+            };
+            l -= 0.5 * (crate::coplanar::ln_sinh(s * d) + crate::coplanar::ln_sinh(s * (xi + x)));
+        }
+        let c = (s * xi).cosh();
+        (l, c * c)
+    };
+    // Panel ends in θ/π: 0, 2^-24, …, 1/4, 1/2, 3/4, …, 1 − 2^-24, 1.
+    let mut ends: Vec<f64> = vec![0.0];
+    ends.extend((2..=LEVELS).rev().map(|k| 0.5f64.powi(k)));
+    ends.push(0.5);
+    ends.extend((2..=LEVELS).map(|k| 1.0 - 0.5f64.powi(k)));
+    ends.push(1.0);
+    let mut nodes: Vec<(f64, f64)> = Vec::with_capacity(10 * ends.len());
+    for pair in ends.windows(2) {
+        let (a, b) = (
+            pair[0] * std::f64::consts::PI,
+            pair[1] * std::f64::consts::PI,
+        );
+        let (mid, half) = (0.5 * (a + b), 0.5 * (b - a));
+        for &(x, wt) in &GL10 {
+            for theta in [mid - half * x, mid + half * x] {
+                let (l, c2) = ln_f(theta);
+                nodes.push((l + (half * wt).ln(), c2));
+            }
+        }
+    }
+    let l_max = nodes.iter().map(|n| n.0).fold(f64::NEG_INFINITY, f64::max);
+    let (mut n, mut m) = (0.0, 0.0);
+    for &(l, c2) in &nodes {
+        let f = (l - l_max).exp();
+        n += f;
+        m += f * c2;
+    }
+    (l_max, n, m)
+}
+
+/// Odd-mode substrate term of the pair without a plane, K-ratio equivalent (capacitance of the mapped half-plane
+/// per ε0), with the symmetry wall reaching only through the substrate.
+///
+/// After u = sinh(πx/2h) and w = u², the wall is the segment [−1, 0], the layer's lower face (−∞, −1), the strip
+/// [a, b] and the ground [c, ∞) with a, b, c = u(x1..x3)². The Schwarz–Christoffel form
+/// Ω′(w) = A(w − p)/√(−(w+1)w(w−a)(w−b)(w−c)) (from memory: the standard mixed-boundary form, e.g.
+/// Henrici, "Applied and Computational Complex Analysis" vol. 1, §5.12) puts the wall and the ground at one
+/// potential when p = (M₀ₐ − M_bc)/(N₀ₐ − N_bc), with N = ∫dw/√|P| and M = ∫w dw/√|P| over the two gaps.
+/// Eliminating p, C/ε0 = N_ab·[(m_ab − m₀ₐ)/N_bc + (m_bc − m_ab)/N₀ₐ]/(m_bc − m₀ₐ), m = M/N (any constant may be
+/// added to w; we weight by w + 1 = cosh²). In the physical abscissa ξ, dw/√((w+1)w) = (π/h)dξ, so each
+/// integral runs over a gap or the strip with only edge singularities. Returns `None` when the layer is too thin
+/// for the weights (πx3/2h > 150).
+fn q_odd_layer(h: f64, x1: f64, x2: f64, x3: f64) -> Option<f64> {
+    if std::f64::consts::PI * x3 / (2.0 * h) > MAX_MAPPED {
+        return None;
+    }
+    let edges = [x1, x2, x3];
+    let (l_g, n_g, m_g) = edge_integrals(h, edges, 0.0, x1); // inner gap (0, a): between wall and strip
+    let (l_s, n_s, m_s) = edge_integrals(h, edges, x1, x2); // the strip (a, b)
+    let (l_o, n_o, m_o) = edge_integrals(h, edges, x2, x3); // outer gap (b, c)
+    let (mg, ms, mo) = (m_g / n_g, m_s / n_s, m_o / n_o);
+    let ns_over_no = (l_s - l_o).exp() * n_s / n_o;
+    let ns_over_ng = (l_s - l_g).exp() * n_s / n_g;
+    let q = ((ms - mg) * ns_over_no + (mo - ms) * ns_over_ng) / (mo - mg);
+    q.is_finite().then_some(q)
+}
+
 impl CoplanarPair {
     /// Checks the inputs for physical sense; names the field on failure.
     pub fn validate(&self) -> Result<()> {
@@ -119,7 +221,7 @@ impl CoplanarPair {
             ));
             delta = cap;
         }
-        let mut thin = false;
+        let mut fallback = false;
         let mut mode = |mode: Mode| -> (f64, f64) {
             let q_air = q_mode(Map::HalfSpace, mode, x1, x2, x3);
             let q_air_e = if delta > 0.0 {
@@ -135,13 +237,16 @@ impl CoplanarPair {
             };
             let (c_air, c, c_air_e) = match self.backing {
                 Backing::None => {
-                    let mut q_sub = q_mode(Map::Layer { h: self.h }, mode, x1, x2, x3);
-                    if q_sub > q_air {
-                        // A layer over a magnetic wall holds less charge than a half-space of the same
-                        // material; only the approximate odd-mode map (see the module doc) can break this.
-                        q_sub = q_air;
-                        thin = true;
-                    }
+                    let q_sub = match mode {
+                        Mode::Even => q_mode(Map::Layer { h: self.h }, mode, x1, x2, x3),
+                        Mode::Odd => match q_odd_layer(self.h, x1, x2, x3) {
+                            Some(q) => q,
+                            None => {
+                                fallback = true;
+                                q_mode(Map::Layer { h: self.h }, Mode::Even, x1, x2, x3)
+                            }
+                        },
+                    };
                     (
                         2.0 * q_air,
                         2.0 * q_air + (self.er - 1.0) * q_sub,
@@ -169,9 +274,9 @@ impl CoplanarPair {
         };
         let (z_odd, eps_eff_odd) = mode(Mode::Odd);
         let (z_even, eps_eff_even) = mode(Mode::Even);
-        if thin || (self.backing == Backing::None && self.h < self.s) {
+        if fallback {
             warnings.push(Warning::new(
-                "coplanar pair without plane on a substrate thinner than the spacing: the odd-mode substrate term is approximate",
+                "coplanar pair without plane on a substrate far thinner than the pair: the odd-mode substrate term ignores the symmetry wall",
             ));
         }
         Ok(CoupledPair {
@@ -361,5 +466,28 @@ mod tests {
             let e = c.analyze().unwrap_err();
             assert!(e.to_string().starts_with(field), "{e}");
         }
+    }
+
+    #[test]
+    fn odd_layer_term_lies_between_its_bounds_and_has_the_slab_limit() {
+        let (x1, x2, x3) = (1e-4, 3e-4, 5e-4);
+        for h in [1e-5, 1e-4, 3e-4, 1e-3, 1e-2] {
+            let exact = q_odd_layer(h, x1, x2, x3).unwrap();
+            // Removing the wall lowers the capacitance, extending it through the air raises it, and a layer over
+            // a magnetic wall holds less than the air half-space (exact orderings).
+            let no_wall = q_mode(Map::Layer { h }, Mode::Even, x1, x2, x3);
+            let through = q_mode(Map::Layer { h }, Mode::Odd, x1, x2, x3);
+            let air = q_mode(Map::HalfSpace, Mode::Odd, x1, x2, x3);
+            assert!(no_wall < exact && exact < through && exact < air, "h={h}");
+        }
+        // Thin layer: the field is a 1-D slab, C/ε0 → h/x1 + h/(x3 − x2); the strip and ground touch the layer only
+        // on its top face, so spreading at each edge lowers that by a relative amount of order h/x (a few % here).
+        let h = 6e-6;
+        let slab = h / x1 + h / (x3 - x2);
+        let exact = q_odd_layer(h, x1, x2, x3).unwrap();
+        assert!(exact < slab && exact > 0.9 * slab, "{exact} vs {slab}");
+        // Thick layer: the half-space value (exact limit).
+        let air = q_mode(Map::HalfSpace, Mode::Odd, x1, x2, x3);
+        assert!((q_odd_layer(10.0, x1, x2, x3).unwrap() - air).abs() / air < 1e-9);
     }
 }
