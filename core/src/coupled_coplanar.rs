@@ -91,7 +91,7 @@ fn q_mode(map: Map, mode: Mode, x1: f64, x2: f64, x3: f64) -> f64 {
 const GL10: [(f64, f64); 5] = [
     (0.148_874_338_981_631_2, 0.295_524_224_714_752_9),
     (0.433_395_394_129_247_2, 0.269_266_719_309_996_3),
-    (0.679_409_568_299_024_4, 0.219_086_362_515_982_0),
+    (0.679_409_568_299_024_4, 0.219_086_362_515_982),
     (0.865_063_366_688_984_5, 0.149_451_349_150_580_6),
     (0.973_906_528_517_171_7, 0.066_671_344_308_688_1),
 ];
@@ -489,5 +489,14 @@ mod tests {
         // Thick layer: the half-space value (exact limit).
         let air = q_mode(Map::HalfSpace, Mode::Odd, x1, x2, x3);
         assert!((q_odd_layer(10.0, x1, x2, x3).unwrap() - air).abs() / air < 1e-9);
+    }
+
+    #[test]
+    fn gauss_legendre_table_is_exact_to_degree_19() {
+        // A 10-point Gauss–Legendre rule integrates x^18 over [−1, 1] exactly: 2/19.
+        let sum: f64 = GL10.iter().map(|&(x, w)| 2.0 * w * x.powi(18)).sum();
+        assert!((sum - 2.0 / 19.0).abs() < 1e-15);
+        let total: f64 = GL10.iter().map(|&(_, w)| 2.0 * w).sum();
+        assert!((total - 2.0).abs() < 1e-15);
     }
 }
