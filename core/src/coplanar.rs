@@ -37,6 +37,9 @@
 //!
 //! Checked against: scikit-rf `media.CPW` (same formulas; it uses Hilberg's approximation of q(k), 2 ppm) and an
 //! independent mpmath evaluation of the t = 0 formulas (`tests/python/test_coplanar.py`); exact limits below.
+//! Model accuracy against a scikit-fem field solve (`tests/python/fem_coplanar.py`, solver self-check 5e-5 on the
+//! air line), W = 300 µm, G = 150 µm, h = 200 µm, εr = 4.3, t = 0: without a plane Z0 +1.0 %, εeff −2.0 %
+//! (80.17 vs 79.35 Ω); conductor-backed Z0 +0.5 %, εeff +0.3 % (54.16 vs 53.91 Ω).
 
 use crate::cross_section::Cover;
 use crate::error::{self, Result};
