@@ -471,6 +471,48 @@ mod tests {
         assert!(e.to_string().starts_with("mask thickness"), "{e}");
     }
 
+    #[test]
+    fn dispatch_handles_media_and_missing_dimensions() {
+        use crate::cross_section::{CrossSection, Medium};
+        use crate::models::{evaluate, Dims};
+        use crate::project::Structure;
+        let cs = |medium| CrossSection {
+            medium,
+            t: 0.0,
+            references: Vec::new(),
+            warnings: Vec::new(),
+        };
+        let dims = Dims {
+            w: 2e-4,
+            s: Some(2e-4),
+            gap: Some(1e-4),
+        };
+        let inner = cs(Medium::Stripline {
+            h_below: 1e-4,
+            h_above: 1e-4,
+            er: 4.0,
+            dual: false,
+        });
+        for st in [Structure::Coplanar, Structure::CoplanarPair] {
+            let e = evaluate(&inner, st, &dims).unwrap_err();
+            assert!(
+                e.to_string()
+                    .starts_with("structure: coplanar on an inner layer"),
+                "{e}"
+            );
+        }
+        let plain = cs(Medium::NoPlane { h: 1e-3, er: 4.0 });
+        let e = evaluate(&plain, Structure::Coplanar, &Dims { gap: None, ..dims }).unwrap_err();
+        assert!(e.to_string().starts_with("gap"), "{e}");
+        let e = evaluate(&plain, Structure::CoplanarPair, &Dims { s: None, ..dims }).unwrap_err();
+        assert!(e.to_string().starts_with("spacing"), "{e}");
+        let single = evaluate(&plain, Structure::Coplanar, &dims).unwrap();
+        let direct = cpw(2e-4, 1e-4, 1e-3, 0.0, 4.0, Backing::None)
+            .analyze()
+            .unwrap();
+        assert_eq!(single.analysis.controlled(), direct.z0);
+    }
+
     mod round_trip {
         //! Synthesis round-trips: analyse a random geometry, solve the width back from its impedance.
         use crate::case::LineCase;
