@@ -31,7 +31,9 @@
 //! of the single-line forms (about 1 %, from memory) for t = 0; Zdiff = 2·Zodd, Zcommon = Zeven/2.
 //!
 //! Against a scikit-fem field solve (`tests/python/fem_coplanar.py`), no plane, W = S = 200 µm, G = 150 µm,
-//! h = 300 µm, εr = 4.3, t = 0: Zodd +0.27 % (67.50 vs 67.32 Ω), εeff,odd −0.5 %, Zeven +1.0 %, εeff,even −1.9 %.
+//! h = 300 µm, εr = 4.3, t = 0: Zodd +0.27 % (67.50 vs 67.32 Ω), εeff,odd −0.5 %, Zeven +1.0 %, εeff,even −1.9 %;
+//! over a plane, h = 150 µm: Zodd +0.28 % (54.76 vs 54.61 Ω), εeff,odd +0.2 %, Zeven +2.2 % (67.26 vs 65.79 Ω),
+//! εeff,even +1.6 %.
 //!
 //! Finite thickness: no published closed form for the coupled case is known to us. We carry over Gupta et al.
 //! 1996 (7.98)–(7.100) (see [`crate::coplanar`]): each strip edge moves Δ/2 into its gap in the air term, and each

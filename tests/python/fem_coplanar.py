@@ -91,3 +91,4 @@ if __name__ == "__main__":  # the geometries quoted in coplanar.rs / coupled_cop
     print(cpw(3e-4, 1.5e-4, 2e-4, 4.3, False), time.time()-t)
     print(cpw(3e-4, 1.5e-4, 2e-4, 4.3, True), time.time()-t)
     print(pair(2e-4, 2e-4, 1.5e-4, 3e-4, 4.3, False), time.time()-t)
+    print(pair(2e-4, 2e-4, 1.5e-4, 1.5e-4, 4.3, True), time.time()-t)
