@@ -41,6 +41,22 @@ pub const KINDS: &[(&str, &str)] = &[
         "broadside-stripline",
         "pair stacked between two planes: --width --height (above) --separation [--height2 (below)] --thickness --dk",
     ),
+    (
+        "coplanar",
+        "coplanar waveguide, no plane: --width --gap --height (substrate) --thickness --dk",
+    ),
+    (
+        "grounded-coplanar",
+        "coplanar waveguide over a plane: --width --gap --height --thickness --dk",
+    ),
+    (
+        "coplanar-pair",
+        "coplanar pair with grounds, no plane: --width --spacing --gap --height --thickness --dk",
+    ),
+    (
+        "grounded-coplanar-pair",
+        "coplanar pair with grounds over a plane: --width --spacing --gap --height --thickness --dk",
+    ),
 ];
 
 /// A parsed case: the cross-section and structure the models see, plus the given dimensions.
@@ -86,6 +102,10 @@ pub fn parse(kind: &str, fields: &BTreeMap<String, String>) -> Result<LineCase> 
             "thickness",
             "dk",
         ],
+        "coplanar" | "grounded-coplanar" => &["width", "gap", "height", "thickness", "dk"],
+        "coplanar-pair" | "grounded-coplanar-pair" => {
+            &["width", "spacing", "gap", "height", "thickness", "dk"]
+        }
         _ => {
             let names: Vec<&str> = KINDS.iter().map(|k| k.0).collect();
             return Err(Error::Invalid {
@@ -178,6 +198,12 @@ pub fn parse(kind: &str, fields: &BTreeMap<String, String>) -> Result<LineCase> 
             h_below: error::length("height2", optional_length("height2", h)?)?,
             er,
         },
+        "coplanar" | "coplanar-pair" => Medium::NoPlane { h, er },
+        "grounded-coplanar" | "grounded-coplanar-pair" => Medium::Microstrip {
+            h,
+            er,
+            cover: Cover::Air,
+        },
         _ => {
             let h2 = error::length("height2", optional_length("height2", h)?)?;
             Medium::Stripline {
@@ -188,13 +214,24 @@ pub fn parse(kind: &str, fields: &BTreeMap<String, String>) -> Result<LineCase> 
             }
         }
     };
-    let (structure, s) = match kind {
+    let (structure, s, gap) = match kind {
         "edge-coupled-stripline" | "edge-coupled-microstrip" => (
             Structure::EdgePair,
             Some(error::length("spacing", length("spacing")?)?),
+            None,
         ),
-        "broadside-stripline" => (Structure::BroadsidePair, None),
-        _ => (Structure::Single, None),
+        "broadside-stripline" => (Structure::BroadsidePair, None, None),
+        "coplanar" | "grounded-coplanar" => (
+            Structure::Coplanar,
+            None,
+            Some(error::length("gap", length("gap")?)?),
+        ),
+        "coplanar-pair" | "grounded-coplanar-pair" => (
+            Structure::CoplanarPair,
+            Some(error::length("spacing", length("spacing")?)?),
+            Some(error::length("gap", length("gap")?)?),
+        ),
+        _ => (Structure::Single, None, None),
     };
     Ok(LineCase {
         kind: kind.to_string(),
@@ -205,7 +242,7 @@ pub fn parse(kind: &str, fields: &BTreeMap<String, String>) -> Result<LineCase> 
             warnings: Vec::new(),
         },
         structure,
-        dims: Dims { w, s, gap: None },
+        dims: Dims { w, s, gap },
     })
 }
 

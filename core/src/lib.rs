@@ -16,6 +16,8 @@
 
 pub mod case;
 pub mod coated_microstrip;
+pub mod coplanar;
+pub mod coupled_coplanar;
 pub mod coupled_microstrip;
 pub mod coupled_stripline;
 pub mod cross_section;

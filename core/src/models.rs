@@ -193,6 +193,89 @@ pub fn evaluate(cs: &CrossSection, structure: Structure, dims: &Dims) -> Result<
                 method: "moment method, exact parallel-plate Green's function",
             })
         }
+        (Structure::Coplanar, Medium::NoPlane { .. } | Medium::Microstrip { .. }) => {
+            coplanar_single(cs, dims)
+        }
+        (Structure::CoplanarPair, Medium::NoPlane { .. } | Medium::Microstrip { .. }) => {
+            coplanar_pair(cs, dims)
+        }
+        (
+            Structure::Coplanar | Structure::CoplanarPair,
+            Medium::Stripline { .. } | Medium::Broadside { .. },
+        ) => Err(Error::Invalid {
+            field: "structure".into(),
+            reason:
+                "coplanar on an inner layer is not modelled in closed form; use the field solver"
+                    .into(),
+        }),
         (s, _) => Err(unsupported(&format!("{} on {}", s.label(), cs.family()))),
     }
+}
+
+/// The coplanar backing and substrate of a no-plane or one-plane cross-section.
+fn coplanar_medium(cs: &CrossSection) -> (f64, f64, crate::coplanar::Backing) {
+    use crate::coplanar::Backing;
+    match cs.medium {
+        Medium::Microstrip { h, er, cover } => (h, er, Backing::Plane(cover)),
+        Medium::NoPlane { h, er } => (h, er, Backing::None),
+        // The caller only passes the two media above; a stripline never reaches here.
+        Medium::Stripline { h_below, er, .. } => (h_below, er, Backing::None),
+        Medium::Broadside { h_below, er, .. } => (h_below, er, Backing::None),
+    }
+}
+
+fn coplanar_gap(dims: &Dims) -> Result<f64> {
+    dims.gap.ok_or_else(|| Error::Invalid {
+        field: "gap".into(),
+        reason: "missing: coplanar structures need the gap to the coplanar ground".into(),
+    })
+}
+
+fn coplanar_method(backing: crate::coplanar::Backing, pair: bool) -> &'static str {
+    use crate::coplanar::Backing;
+    match (backing, pair) {
+        (Backing::None, false) => "Ghione–Naldi 1984 partial capacitance",
+        (Backing::Plane(_), false) => "Ghione–Naldi 1983 conductor-backed CPW",
+        (Backing::None, true) => "conformal mapping, odd/even modes (partial capacitance)",
+        (Backing::Plane(_), true) => {
+            "conformal mapping, odd/even modes, conductor-backed (partial capacitance)"
+        }
+    }
+}
+
+fn coplanar_single(cs: &CrossSection, dims: &Dims) -> Result<Evaluated> {
+    let (h, er, backing) = coplanar_medium(cs);
+    let line = crate::coplanar::Coplanar {
+        w: dims.w,
+        g: coplanar_gap(dims)?,
+        h,
+        t: cs.t,
+        er,
+        backing,
+    };
+    Ok(Evaluated {
+        analysis: Analysis::Single(line.analyze()?),
+        method: coplanar_method(backing, false),
+    })
+}
+
+fn coplanar_pair(cs: &CrossSection, dims: &Dims) -> Result<Evaluated> {
+    let (h, er, backing) = coplanar_medium(cs);
+    let s = dims.s.ok_or_else(|| Error::Invalid {
+        field: "spacing".into(),
+        reason: "missing: a coplanar pair needs the spacing between its traces".into(),
+    })?;
+    let pair = crate::coupled_coplanar::CoplanarPair {
+        w: dims.w,
+        s,
+        g: coplanar_gap(dims)?,
+        h,
+        t: cs.t,
+        er,
+        backing,
+    };
+    Ok(Evaluated {
+        analysis: Analysis::Pair(pair.analyze()?),
+        method: coplanar_method(backing, true),
+    })
 }
