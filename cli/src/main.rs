@@ -55,6 +55,15 @@ usage:
 lengths take units: um, mm, mil, in (and oz for copper thickness); plain numbers are metres.";
 
 fn main() {
+    // A closed pipe (`ohmstack analyze f | head`) ends printing: leave quietly, as a SIGPIPE death would,
+    // instead of showing a panic. Any other panic is a bug and says so in one line.
+    std::panic::set_hook(Box::new(|info| {
+        let message = info.payload_as_str().unwrap_or("");
+        if message.contains("Broken pipe") {
+            std::process::exit(141);
+        }
+        eprintln!("error: internal error, please report: {message}");
+    }));
     let args: Vec<String> = std::env::args().skip(1).collect();
     match run(&args) {
         Ok(()) => {}
@@ -175,14 +184,23 @@ fn analyze(args: &[String]) -> Result<()> {
     );
     println!();
     println!(
-        "{:<28} {:<10} {:<28} {:>12} {:>12} {:>9} {:>8} {:>7} {:>9}",
-        "rule", "layer", "structure", "width", "spacing", "Z (Ω)", "target", "Dk eff", "ps/mm"
+        "{:<26} {:<10} {:<52} {:>10} {:>12} {:>9} {:>8} {:>7} {:>9} {:>10}",
+        "rule",
+        "layer",
+        "structure",
+        "width",
+        "spacing",
+        "Z (Ω)",
+        "target",
+        "Dk eff",
+        "ps/mm",
+        format!("dB/in@{}", format_frequency(project.analysis_freq_hz))
     );
     for outcome in &plan.rules {
         match outcome {
             RuleOutcome::Ok(r) => {
                 println!(
-                    "{:<28} {:<10} {:<28} {:>12} {:>12} {:>9} {:>8} {:>7} {:>9}{}",
+                    "{:<26} {:<10} {:<52} {:>10} {:>12} {:>9} {:>8} {:>7} {:>9} {:>10}{}",
                     r.name,
                     r.layer,
                     format!(
@@ -202,6 +220,11 @@ fn analyze(args: &[String]) -> Result<()> {
                     format!("{:.1}", r.target_ohm),
                     format!("{:.3}", r.eps_eff),
                     format!("{:.3}", r.delay_s_per_m * 1e9),
+                    r.loss
+                        .as_ref()
+                        .and_then(|l| l.signal())
+                        .map(|m| format!("{:.3}", m.total.db_per_in))
+                        .unwrap_or_else(|| "-".into()),
                     if r.within_tolerance {
                         ""
                     } else {
@@ -218,10 +241,22 @@ fn analyze(args: &[String]) -> Result<()> {
     Ok(())
 }
 
+/// `2.4 GHz`-style text for table headers.
+fn format_frequency(hz: f64) -> String {
+    let (v, unit) = if hz >= 1e9 {
+        (hz / 1e9, "GHz")
+    } else if hz >= 1e6 {
+        (hz / 1e6, "MHz")
+    } else {
+        (hz / 1e3, "kHz")
+    };
+    format!("{}{unit}", format_sig(v, 3))
+}
+
 fn evaluated_json(case: &LineCase, e: &Evaluated) -> Value {
     let mut v = json!({
         "structure": case.kind,
-        "family": case.cross_section.family(),
+        "family": case.cross_section.family_for(case.structure),
         "method": e.method,
         "width_m": case.dims.w,
         "warnings": e.analysis.warnings().iter().map(|w| w.message.clone()).collect::<Vec<_>>(),
@@ -287,7 +322,11 @@ fn calc(args: &[String], solve: bool) -> Result<()> {
         return Ok(());
     }
     let unit = LengthUnit::Um;
-    println!("{} ({})", case.cross_section.family(), e.method);
+    println!(
+        "{} ({})",
+        case.cross_section.family_for(case.structure),
+        e.method
+    );
     println!("  width       {}", format_length(case.dims.w, unit));
     match &e.analysis {
         Analysis::Single(s) => {
@@ -450,7 +489,7 @@ fn loss_cmd(args: &[String]) -> Result<()> {
         let v = json!({
             "rule": name,
             "structure": model.structure.label(),
-            "family": model.cross_section.family(),
+            "family": model.cross_section.family_for(model.structure),
             "width_m": model.dims.w,
             "spacing_m": model.dims.s,
             "gap_m": model.dims.gap,
@@ -463,7 +502,7 @@ fn loss_cmd(args: &[String]) -> Result<()> {
     }
     println!(
         "{name}: {} {} (loss in dB per inch; delay in ps per inch)",
-        model.cross_section.family(),
+        model.cross_section.family_for(model.structure),
         model.structure.label()
     );
     println!(

@@ -94,6 +94,36 @@ impl CrossSection {
         }
     }
 
+    /// The family name as the rule's structure sees it: coplanar rules over a plane are grounded coplanar, not
+    /// microstrip; everything else is [`CrossSection::family`].
+    pub fn family_for(&self, structure: Structure) -> &'static str {
+        let coplanar = matches!(structure, Structure::Coplanar | Structure::CoplanarPair);
+        match (coplanar, self.medium) {
+            (
+                true,
+                Medium::Microstrip {
+                    cover: Cover::Air, ..
+                },
+            ) => "grounded coplanar",
+            (
+                true,
+                Medium::Microstrip {
+                    cover: Cover::Mask { .. },
+                    ..
+                },
+            ) => "grounded coplanar under solder mask",
+            (
+                true,
+                Medium::Microstrip {
+                    cover: Cover::Dielectric { .. },
+                    ..
+                },
+            ) => "embedded grounded coplanar",
+            (true, Medium::Stripline { .. }) => "coplanar between planes",
+            _ => self.family(),
+        }
+    }
+
     /// The height that sets the scale of the structure (for search bounds and validity): the plane distance for
     /// microstrip, the plane-to-plane spacing for stripline.
     pub fn scale_height(&self) -> f64 {

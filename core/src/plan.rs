@@ -233,7 +233,7 @@ pub fn analyze_rule(project: &Project, rule: &ImpedanceRule) -> Result<RuleResul
     Ok(RuleResult {
         name: rule.name.clone(),
         layer: rule.layer.clone(),
-        family: cs.family(),
+        family: cs.family_for(rule.structure),
         structure: rule.structure.label(),
         method: evaluated.method,
         references: cs.references.clone(),
