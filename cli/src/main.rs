@@ -58,7 +58,12 @@ fn main() {
     // A closed pipe (`ohmstack analyze f | head`) ends printing: leave quietly, as a SIGPIPE death would,
     // instead of showing a panic. Any other panic is a bug and says so in one line.
     std::panic::set_hook(Box::new(|info| {
-        let message = info.payload_as_str().unwrap_or("");
+        let payload = info.payload();
+        let message = payload
+            .downcast_ref::<String>()
+            .map(String::as_str)
+            .or_else(|| payload.downcast_ref::<&str>().copied())
+            .unwrap_or("");
         if message.contains("Broken pipe") {
             std::process::exit(141);
         }
