@@ -15,6 +15,7 @@ pub mod case;
 pub mod cross_section;
 pub mod demo;
 pub mod error;
+pub mod field;
 pub mod lines;
 pub mod microstrip;
 pub mod models;
