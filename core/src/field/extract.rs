@@ -83,7 +83,8 @@ pub fn analysis(c: &[Vec<f64>], c0: &[Vec<f64>]) -> Option<Analysis> {
 pub fn richardson(f: [f64; 3], ratio: f64) -> Option<(f64, f64)> {
     let d1 = f[1] - f[0];
     let d2 = f[2] - f[1];
-    if d2 == 0.0 {
+    if d2 == 0.0 && d1 == 0.0 {
+        // Already exact on every grid (a field the discretisation represents exactly).
         return Some((f64::INFINITY, f[2]));
     }
     if d1 * d2 <= 0.0 || d2.abs() >= d1.abs() {

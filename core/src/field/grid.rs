@@ -13,11 +13,29 @@ use crate::error::{Error, Result};
 /// Geometric growth of the spacing away from a key coordinate, per unit η.
 pub const KAPPA: f64 = 0.3;
 /// Finest spacing at a conductor corner, in units of the smallest feature, per unit η.
-pub const DELTA_CORNER: f64 = 0.04;
+pub const DELTA_CORNER: f64 = 0.01;
 /// Finest spacing at a dielectric interface or plane, in units of the smallest feature, per unit η.
 pub const DELTA_INTERFACE: f64 = 0.3;
 /// Most grid lines along one axis (a cap that keeps every solve bounded).
 pub const MAX_LINES: usize = 4000;
+
+/// Grading parameters (see the module doc); the defaults are the constants above.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct GridParams {
+    pub kappa: f64,
+    pub delta_corner: f64,
+    pub delta_interface: f64,
+}
+
+impl Default for GridParams {
+    fn default() -> Self {
+        GridParams {
+            kappa: KAPPA,
+            delta_corner: DELTA_CORNER,
+            delta_interface: DELTA_INTERFACE,
+        }
+    }
+}
 
 /// One axis key: position and finest spacing there (before the factor η).
 #[derive(Debug, Clone, Copy)]
@@ -46,12 +64,17 @@ impl Grid {
 
     /// Builds the grid of `geometry` at refinement η (smaller is finer).
     pub fn build(geometry: &Geometry, eta: f64) -> Result<Grid> {
+        Self::build_with(geometry, eta, &GridParams::default())
+    }
+
+    /// Builds the grid with explicit grading parameters.
+    pub fn build_with(geometry: &Geometry, eta: f64, params: &GridParams) -> Result<Grid> {
         let fine = geometry.fine;
         // The corner spacing shrinks like η² (not η): with a field singularity r^α (α = 1/2 at a thin edge, 2/3 at
         // a right-angle corner) the innermost cell's error scales as its size^(2α), so a spacing ∝ η there would
         // cap the order of convergence at 2α; ∝ η² restores second order at the price of a few more graded lines.
-        let corner = DELTA_CORNER * fine * eta;
-        let interface = DELTA_INTERFACE * fine;
+        let corner = params.delta_corner * fine * eta;
+        let interface = params.delta_interface * fine;
         let mut xs = vec![
             Key {
                 at: 0.0,
@@ -107,14 +130,35 @@ impl Grid {
             }
         }
         // Plane walls get the interface spacing through the dielectric regions that end on them.
-        let x = axis(&mut xs, 0.0, geometry.x_max, eta, geometry.fine)?;
-        let y = axis(&mut ys, geometry.y_min, geometry.y_max, eta, geometry.fine)?;
+        let x = axis(
+            &mut xs,
+            0.0,
+            geometry.x_max,
+            eta,
+            geometry.fine,
+            params.kappa,
+        )?;
+        let y = axis(
+            &mut ys,
+            geometry.y_min,
+            geometry.y_max,
+            eta,
+            geometry.fine,
+            params.kappa,
+        )?;
         Ok(Grid { x, y })
     }
 }
 
 /// Lines along one axis in [lo, hi] through every key inside it.
-fn axis(keys: &mut Vec<Key>, lo: f64, hi: f64, eta: f64, fine: f64) -> Result<Vec<f64>> {
+fn axis(
+    keys: &mut Vec<Key>,
+    lo: f64,
+    hi: f64,
+    eta: f64,
+    fine: f64,
+    kappa: f64,
+) -> Result<Vec<f64>> {
     let tol = 1e-9 * fine;
     keys.retain(|k| k.at >= lo - tol && k.at <= hi + tol);
     for k in keys.iter_mut() {
@@ -132,18 +176,13 @@ fn axis(keys: &mut Vec<Key>, lo: f64, hi: f64, eta: f64, fine: f64) -> Result<Ve
     let size = |x: f64| -> f64 {
         merged
             .iter()
-            .map(|k| k.delta + KAPPA * (x - k.at).abs())
+            .map(|k| k.delta + kappa * (x - k.at).abs())
             .fold(f64::INFINITY, f64::min)
             * eta
     };
     let mut lines = vec![merged[0].at];
     for pair in merged.windows(2) {
-        let (a, b) = (pair[0].at, pair[1].at);
-        let mid = 0.5 * (a + b);
-        let forward = march(a, mid, &size)?;
-        let backward = march(b, mid, &size)?;
-        lines.extend(forward.iter().skip(1));
-        lines.extend(backward.iter().rev().skip(1));
+        interval(pair[0].at, pair[1].at, &size, &mut lines)?;
         if lines.len() > MAX_LINES {
             return Err(Error::Invalid {
                 field: "grid".into(),
@@ -154,41 +193,43 @@ fn axis(keys: &mut Vec<Key>, lo: f64, hi: f64, eta: f64, fine: f64) -> Result<Ve
     Ok(lines)
 }
 
-/// Points from `from` to `to` (either direction) stepped by the size function, then stretched so the last point
-/// lands on `to`. Includes both ends.
-fn march(from: f64, to: f64, size: &dyn Fn(f64) -> f64) -> Result<Vec<f64>> {
-    let dist = (to - from).abs();
-    let dir = if to >= from { 1.0 } else { -1.0 };
-    let mut steps = vec![0.0];
-    let mut d = 0.0;
-    while d < dist {
-        let h = size(from + dir * d).max(1e-6 * dist);
-        if d + 0.5 * h >= dist {
-            break;
-        }
-        d += h;
-        steps.push(d);
-        if steps.len() > MAX_LINES {
+/// Lines strictly inside (a, b), then b: the cell count is the integral of 1/h over the interval, rounded, and the
+/// lines sit at equal steps of that integral. Unlike marching cell by cell, this makes the grid a smooth function of
+/// η (only the rounding jumps), which keeps Richardson extrapolation over levels clean.
+fn interval(a: f64, b: f64, size: &dyn Fn(f64) -> f64, lines: &mut Vec<f64>) -> Result<()> {
+    const SUB: f64 = 0.05;
+    const MAX_SAMPLES: usize = 400_000;
+    let len = b - a;
+    let mut xs = vec![a];
+    let mut cum = vec![0.0];
+    let mut x = a;
+    while x < b {
+        let h = (SUB * size(x)).max(1e-7 * len);
+        let xn = (x + h).min(b);
+        let c = cum[cum.len() - 1] + 0.5 * (xn - x) * (1.0 / size(x) + 1.0 / size(xn));
+        xs.push(xn);
+        cum.push(c);
+        x = xn;
+        if xs.len() > MAX_SAMPLES {
             return Err(Error::Invalid {
                 field: "grid".into(),
-                reason: format!("more than {MAX_LINES} grid lines in one interval"),
+                reason: "an interval needs too many grid lines".into(),
             });
         }
     }
-    // `steps` ends before `dist`; the final point is `dist` itself, the rest stretched to keep the grading smooth.
-    let last = *steps.last().unwrap_or(&0.0);
-    let h_last = size(from + dir * last).max(1e-6 * dist);
-    let scale = if last > 0.0 {
-        // Share the remaining distance across all steps.
-        (dist) / (last + h_last).max(1e-300)
-    } else {
-        1.0
-    };
-    let mut out: Vec<f64> = steps.iter().map(|s| from + dir * s * scale).collect();
-    out.push(to);
-    // Guard against a degenerate pair of coincident points.
-    out.dedup_by(|a, b| (*a - *b).abs() <= 1e-12 * dist.max(1e-300));
-    Ok(out)
+    let total = cum[cum.len() - 1];
+    let n = total.round().max(1.0) as usize;
+    let mut k = 0;
+    for i in 1..n {
+        let target = total * i as f64 / n as f64;
+        while k + 1 < cum.len() && cum[k + 1] < target {
+            k += 1;
+        }
+        let f = (target - cum[k]) / (cum[k + 1] - cum[k]).max(1e-300);
+        lines.push(xs[k] + f * (xs[k + 1] - xs[k]));
+    }
+    lines.push(b);
+    Ok(())
 }
 
 #[cfg(test)]

@@ -122,6 +122,8 @@ pub struct System {
     ay: Vec<f64>,
     b: Vec<f64>,
     prec: Vec<f64>,
+    lx: Vec<f64>,
+    ly: Vec<f64>,
     /// Potential on the fixed nodes (zero elsewhere).
     pub fixed: Vec<f64>,
 }
@@ -173,6 +175,9 @@ impl System {
             }
         }
         let prec = mic0(nx, &free, &diag, &ax, &ay);
+        // Fixed nodes have zero pivot and zero couplings, so the substitutions leave them at zero.
+        let lx = ax.iter().zip(&prec).map(|(a, p)| a * p).collect();
+        let ly = ay.iter().zip(&prec).map(|(a, p)| a * p).collect();
         System {
             nx,
             free,
@@ -181,59 +186,55 @@ impl System {
             ay,
             b,
             prec,
+            lx,
+            ly,
             fixed,
         }
     }
 
     fn apply(&self, u: &[f64], out: &mut [f64]) {
+        // Edge by edge in straight passes (no branches in the loops); couplings touching fixed nodes are zero and
+        // u is zero on fixed nodes, so their rows come out zero without a test.
         let nx = self.nx;
         let len = u.len();
         for n in 0..len {
-            let mut s = self.diag[n] * u[n];
-            if n + 1 < len {
-                s -= self.ax[n] * u[n + 1];
-            }
-            if n >= 1 {
-                s -= self.ax[n - 1] * u[n - 1];
-            }
-            if n + nx < len {
-                s -= self.ay[n] * u[n + nx];
-            }
-            if n >= nx {
-                s -= self.ay[n - nx] * u[n - nx];
-            }
-            out[n] = if self.free[n] { s } else { 0.0 };
+            out[n] = self.diag[n] * u[n];
+        }
+        for n in 0..len - 1 {
+            let a = self.ax[n];
+            out[n] -= a * u[n + 1];
+            out[n + 1] -= a * u[n];
+        }
+        for n in 0..len - nx {
+            let a = self.ay[n];
+            out[n] -= a * u[n + nx];
+            out[n + nx] -= a * u[n];
         }
     }
 
     fn precondition(&self, r: &[f64], z: &mut [f64]) {
+        // Forward then backward substitution with the MIC(0) factor L = (D − strictly-lower part)·D^{-1/2}
+        // stored as pivots p and the scaled couplings lx = ax·p, ly = ay·p.
         let nx = self.nx;
         let len = r.len();
-        let p = &self.prec;
+        let (p, lx, ly) = (&self.prec, &self.lx, &self.ly);
         for n in 0..len {
-            if p[n] == 0.0 {
-                z[n] = 0.0;
-                continue;
-            }
             let mut t = r[n];
             if n >= 1 {
-                t += self.ax[n - 1] * p[n - 1] * z[n - 1];
+                t += lx[n - 1] * z[n - 1];
             }
             if n >= nx {
-                t += self.ay[n - nx] * p[n - nx] * z[n - nx];
+                t += ly[n - nx] * z[n - nx];
             }
             z[n] = t * p[n];
         }
         for n in (0..len).rev() {
-            if p[n] == 0.0 {
-                continue;
-            }
             let mut t = z[n];
             if n + 1 < len {
-                t += self.ax[n] * p[n] * z[n + 1];
+                t += lx[n] * z[n + 1];
             }
             if n + nx < len {
-                t += self.ay[n] * p[n] * z[n + nx];
+                t += ly[n] * z[n + nx];
             }
             z[n] = t * p[n];
         }
@@ -346,9 +347,11 @@ impl Pcg {
                 return;
             }
             let alpha = self.rz / pq;
+            let mut rr = 0.0;
             for n in 0..self.u.len() {
                 self.u[n] += alpha * self.p[n];
                 self.r[n] -= alpha * self.q[n];
+                rr += self.r[n] * self.r[n];
             }
             sys.precondition(&self.r, &mut self.z);
             let rz_new = dot(&self.r, &self.z);
@@ -358,7 +361,7 @@ impl Pcg {
                 self.p[n] = self.z[n] + beta * self.p[n];
             }
             self.iterations += 1;
-            self.residual = dot(&self.r, &self.r).sqrt() / self.b_norm;
+            self.residual = rr.sqrt() / self.b_norm;
         }
         if self.residual <= tol {
             self.done = true;

@@ -251,10 +251,17 @@ fn the_far_box_does_not_change_microstrip_impedance() {
     let mut far = g.clone();
     far.x_max *= 2.0;
     far.y_max *= 2.0;
-    let opts = fixed_levels(3);
-    let a = solve(g, opts).unwrap().controlled_ohm;
-    let b = solve(far, opts).unwrap().controlled_ohm;
-    assert!(((a - b) / a).abs() < 2e-4, "{a} vs {b}");
+    let opts = FieldOptions {
+        coarse_eta: 0.7,
+        ..fixed_levels(3)
+    };
+    let a = solve(g, opts).unwrap();
+    let b = solve(far, opts).unwrap();
+    let (za, zb) = (a.controlled_ohm, b.controlled_ohm);
+    assert!(((za - zb) / za).abs() < 2e-4, "{za} vs {zb}");
+    // On the finest grid alone (same lines near the trace) the box's effect is at the 1e-6 level.
+    let (fa, fb) = (a.finest_ohm, b.finest_ohm);
+    assert!(((fa - fb) / fa).abs() < 2e-5, "{fa} vs {fb}");
 }
 
 #[test]
