@@ -74,7 +74,7 @@ impl Default for FieldOptions {
             coarse_eta: 2.0,
             ratio: std::f64::consts::SQRT_2,
             max_nodes: 300_000,
-            cg_tolerance: 1e-7,
+            cg_tolerance: 1e-6,
             max_cg_iterations: 5000,
             grid: grid::GridParams::default(),
         }
@@ -183,6 +183,8 @@ struct LevelWork {
     active: Option<(System, Pcg)>,
     solutions: Vec<Vec<f64>>,
     iterations: usize,
+    /// Every cell has the same εr (stripline): the vacuum solves are skipped.
+    uniform: bool,
 }
 
 /// A field solve that runs in bounded slices: `FieldSolve::new(..)`, then `step(budget)` until `done`, then
@@ -258,7 +260,9 @@ impl FieldSolve {
             return Ok(None);
         }
         let eps = solve::cell_permittivity(&self.geometry, &grid);
+        let uniform = eps.iter().all(|&e| e == eps[0]);
         Ok(Some(LevelWork {
+            uniform,
             eta,
             grid,
             eps,
@@ -308,6 +312,15 @@ impl FieldSolve {
         };
         if level.job_idx < level.jobs.len() {
             let job = level.jobs[level.job_idx];
+            if level.active.is_none() && job.vacuum && level.uniform {
+                // One dielectric everywhere: εr only scales the operator, so the vacuum potential equals the
+                // dielectric one (its energy is taken with vacuum couplings later).
+                let twin = level.job_idx - geometry.n_signals;
+                let copy = level.solutions[twin].clone();
+                level.solutions.push(copy);
+                level.job_idx += 1;
+                return Ok(());
+            }
             if level.active.is_none() {
                 let labels = solve::node_labels(geometry, &level.grid, job.wall);
                 let wanted = 2 + job.signal as u8;

@@ -171,6 +171,7 @@ fn stripline_converges_to_cohn_at_second_order() {
         assert!(pair[1] < 0.75 * pair[0], "errors {errors:?}");
     }
     let p = r.observed_order.expect("asymptotic");
+    eprintln!("errors vs Cohn per level {errors:?}, observed order {p}");
     assert!((1.6..=2.6).contains(&p), "order {p}");
     let observed_from_exact = (errors[3] / errors[4]).ln() / std::f64::consts::SQRT_2.ln();
     assert!(
