@@ -501,3 +501,64 @@ fn bad_options_and_geometry_are_errors() {
     .unwrap_err();
     assert!(e.to_string().starts_with("references"), "{e}");
 }
+
+#[test]
+fn edge_coupled_stripline_converges_toward_cohn() {
+    // Cohn 1955, exact for t = 0: the odd-mode error must fall level by level, at an observed order near 2.
+    let b = 300e-6;
+    let (w, s, er) = (0.3 * b, 0.2 * b, 4.0);
+    let dims = Dims {
+        w,
+        s: Some(s),
+        gap: None,
+    };
+    let r = solve_cross_section(
+        &stripline(b / 2.0, er, 0.0),
+        Structure::EdgePair,
+        &dims,
+        None,
+        fixed_levels(5),
+    )
+    .unwrap();
+    let (_, zo) = cohn_coupled(w, s, b, er);
+    // Zdiff = 2·Zodd on every level.
+    let errors: Vec<f64> = r
+        .levels
+        .iter()
+        .map(|l| (l.controlled_ohm / 2.0 - zo).abs() / zo)
+        .collect();
+    for pair in errors.windows(2) {
+        assert!(pair[1] < 0.8 * pair[0], "errors {errors:?}");
+    }
+    let p = r.observed_order.expect("asymptotic");
+    eprintln!("pair errors vs Cohn {errors:?}, observed order {p}");
+    assert!((1.5..=2.8).contains(&p), "order {p}");
+    let Analysis::Pair(pair) = &r.analysis else {
+        unreachable!("pair")
+    };
+    assert!(
+        (pair.z_odd - zo).abs() / zo < 0.001,
+        "{} vs {zo}",
+        pair.z_odd
+    );
+}
+
+#[test]
+fn iteration_cap_gives_a_warning_not_a_hang() {
+    let opts = FieldOptions {
+        max_cg_iterations: 2,
+        ..FieldOptions::default()
+    };
+    let r = solve_cross_section(
+        &microstrip(100e-6, 4.0, 35e-6, Cover::Air),
+        Structure::Single,
+        &single(200e-6),
+        None,
+        opts,
+    )
+    .unwrap();
+    assert!(r
+        .warnings
+        .iter()
+        .any(|w| w.message.contains("conjugate gradients stopped")));
+}
