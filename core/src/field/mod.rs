@@ -18,6 +18,28 @@
 //!
 //! Slow work never blocks a browser page: [`FieldSolve::step`] does a bounded amount of work and returns, so a
 //! caller can run it in slices between frames; [`solve`] runs it to the end.
+//!
+//! ```
+//! use ohmstack_core::cross_section::{Cover, CrossSection, Medium};
+//! use ohmstack_core::field::{build, FieldOptions, FieldSolve};
+//! use ohmstack_core::models::Dims;
+//! use ohmstack_core::Structure;
+//!
+//! let cs = CrossSection {
+//!     medium: Medium::Microstrip { h: 170e-6, er: 4.2, cover: Cover::Air },
+//!     t: 35e-6,
+//!     references: vec![],
+//!     warnings: vec![],
+//! };
+//! let dims = Dims { w: 300e-6, s: None, gap: None };
+//! let geometry = build(&cs, Structure::Single, &dims, None).unwrap();
+//! let mut job = FieldSolve::new(geometry, FieldOptions::default()).unwrap();
+//! // One slice per animation frame in the browser; here simply a loop.
+//! while !job.step(200_000).done {}
+//! let result = job.result().unwrap().unwrap();
+//! assert!((result.controlled_ohm - 50.7).abs() < 0.5);
+//! assert!(result.error_estimate_pct < 0.3);
+//! ```
 
 // Index loops over grid nodes read closer to the stencil formulas than iterator chains.
 #![allow(clippy::needless_range_loop)]
