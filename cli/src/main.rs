@@ -3,6 +3,7 @@
 
 use anyhow::{anyhow, bail, Context, Result};
 use ohmstack_core::case::{self, LineCase};
+use ohmstack_core::field::{Comparison, FieldOptions, FieldResult};
 use ohmstack_core::loss;
 use ohmstack_core::models::Dims;
 use ohmstack_core::models::{Analysis, Evaluated};
@@ -12,10 +13,11 @@ use ohmstack_core::touchstone;
 use ohmstack_core::units::{
     format_length, format_sig, parse_frequency, parse_length, parse_number, LengthUnit,
 };
-use ohmstack_core::{Project, RuleOutcome};
+use ohmstack_core::{Project, RuleOutcome, Structure};
 use serde_json::{json, Value};
 use std::collections::BTreeMap;
 use std::io::{BufRead, Read, Write};
+use std::time::Instant;
 
 const HELP: &str = "ohmstack — PCB controlled-impedance stackup planner (design estimates; confirm with the fabricator's test coupons)
 
@@ -35,6 +37,11 @@ usage:
                                         the spread's seeded random stream, one number a line (for checks)
   ohmstack batch                        JSON lines of cases on stdin, JSON lines of results on stdout
   ohmstack kinds                        list the structures calc/solve/batch know
+  ohmstack field FILE|- [--rule NAME] [--tolerance PCT] [--json]
+                                        closed form vs 2D field solve for each rule of a project
+  ohmstack field-calc KIND --field value ... [--spacing S] [--gap G] [--etch-factor E] [--tolerance PCT] [--json]
+                                        2D field solve of one structure (KIND as for calc; --spacing makes an
+                                        edge-coupled pair, --gap a coplanar line, both a coplanar pair)
   ohmstack share encode FILE|-          print the share link (v1.…) of a project
   ohmstack share decode LINK|-          print the project JSON a share link holds (a whole URL is fine)
   ohmstack notes FILE|- [--format md|csv]
@@ -94,6 +101,8 @@ fn run(args: &[String]) -> Result<()> {
         "calc" => calc(rest, false),
         "solve" => calc(rest, true),
         "batch" => batch(),
+        "field" => field_project(rest),
+        "field-calc" => field_calc(rest),
         "loss" => loss_cmd(rest),
         "touchstone" => touchstone_cmd(rest),
         "spread" => spread(rest),
@@ -1008,4 +1017,239 @@ fn plot(args: &[String]) -> Result<()> {
         log_x: false,
     });
     write_svg(output, &svg)
+}
+
+/// Field-solver options from `--tolerance PCT` (percent).
+fn field_options(map: &mut BTreeMap<String, String>) -> Result<FieldOptions> {
+    let mut options = FieldOptions::default();
+    if let Some(text) = map.remove("tolerance") {
+        let pct = ohmstack_core::units::parse_number("tolerance", &text, &["%"])?;
+        options.tolerance =
+            ohmstack_core::error::in_range("tolerance", pct, 0.001, 10.0, "%")? / 100.0;
+    }
+    Ok(options)
+}
+
+fn field_json(r: &FieldResult) -> Value {
+    let mut v = json!({
+        "controlled_ohm": r.controlled_ohm,
+        "finest_ohm": r.finest_ohm,
+        "error_estimate_pct": r.error_estimate_pct,
+        "observed_order": r.observed_order,
+        "converged": r.converged,
+        "c_matrix": r.c_matrix,
+        "c0_matrix": r.c0_matrix,
+        "l_matrix": r.l_matrix,
+        "levels": r.levels.iter().map(|l| json!({
+            "eta": l.eta, "nx": l.nx, "ny": l.ny, "iterations": l.iterations, "controlled_ohm": l.controlled_ohm,
+        })).collect::<Vec<_>>(),
+        "warnings": r.warnings.iter().map(|w| w.message.clone()).collect::<Vec<_>>(),
+    });
+    match &r.analysis {
+        Analysis::Single(s) => {
+            v["z0_ohm"] = json!(s.z0);
+            v["eps_eff"] = json!(s.eps_eff);
+        }
+        Analysis::Pair(p) => {
+            v["z_odd_ohm"] = json!(p.z_odd);
+            v["z_even_ohm"] = json!(p.z_even);
+            v["z_diff_ohm"] = json!(p.z_diff());
+            v["z_common_ohm"] = json!(p.z_common());
+            v["eps_eff_odd"] = json!(p.eps_eff_odd);
+            v["eps_eff_even"] = json!(p.eps_eff_even);
+        }
+    }
+    v
+}
+
+fn comparison_line(c: &Comparison) -> String {
+    match (c.method, c.closed_form_ohm, c.difference_pct) {
+        (Some(m), Some(z), Some(d)) => format!(
+            "closed form {} Ω ({m}), difference {d:+.2} % (band ±{} %)",
+            format_sig(z, 5),
+            c.band_pct.unwrap_or(0.0)
+        ),
+        _ => "no closed form for this structure".into(),
+    }
+}
+
+fn print_field(r: &FieldResult) {
+    match &r.analysis {
+        Analysis::Single(s) => {
+            println!("  Z0          {} Ω", format_sig(s.z0, 5));
+            println!("  Dk eff      {}", format_sig(s.eps_eff, 5));
+        }
+        Analysis::Pair(p) => {
+            println!("  Zdiff       {} Ω", format_sig(p.z_diff(), 5));
+            println!("  Zcommon     {} Ω", format_sig(p.z_common(), 5));
+            println!(
+                "  Zodd/Zeven  {} / {} Ω",
+                format_sig(p.z_odd, 5),
+                format_sig(p.z_even, 5)
+            );
+            println!(
+                "  Dk eff o/e  {} / {}",
+                format_sig(p.eps_eff_odd, 5),
+                format_sig(p.eps_eff_even, 5)
+            );
+        }
+    }
+    let last = r.levels.last();
+    println!(
+        "  error est.  {:.3} % ({} levels, finest grid {}×{}, order {})",
+        r.error_estimate_pct,
+        r.levels.len(),
+        last.map(|l| l.nx).unwrap_or(0),
+        last.map(|l| l.ny).unwrap_or(0),
+        r.observed_order
+            .map(|p| format!("{p:.2}"))
+            .unwrap_or_else(|| "n/a".into())
+    );
+}
+
+fn field_calc(args: &[String]) -> Result<()> {
+    let (mut map, json, positional) = flags(args)?;
+    let [kind] = positional.as_slice() else {
+        bail!("give one structure KIND (see `ohmstack kinds`)")
+    };
+    let options = field_options(&mut map)?;
+    let spacing = map
+        .remove("spacing")
+        .map(|t| ohmstack_core::units::parse_length("spacing", &t))
+        .transpose()?;
+    let gap = map
+        .remove("gap")
+        .map(|t| ohmstack_core::units::parse_length("gap", &t))
+        .transpose()?;
+    let etch = map
+        .remove("etch-factor")
+        .map(|t| ohmstack_core::units::parse_number("etch-factor", &t, &[]))
+        .transpose()?;
+    if map.contains_key("target") {
+        bail!("--target: field-calc analyses the given width; use `solve` for synthesis");
+    }
+    let mut case = case::parse(kind, &map)?;
+    case.structure = match (spacing, gap) {
+        (None, None) => Structure::Single,
+        (Some(_), None) => Structure::EdgePair,
+        (None, Some(_)) => Structure::Coplanar,
+        (Some(_), Some(_)) => Structure::CoplanarPair,
+    };
+    case.dims.s = spacing;
+    case.dims.gap = gap;
+    let closed = case.analyze().ok();
+    let started = Instant::now();
+    let r = ohmstack_core::field::solve_cross_section(
+        &case.cross_section,
+        case.structure,
+        &case.dims,
+        etch,
+        options,
+    )?;
+    let elapsed_ms = started.elapsed().as_secs_f64() * 1e3;
+    let cmp = ohmstack_core::field::compare(
+        closed.as_ref().map(|e| (e.method, e.analysis.controlled())),
+        r.controlled_ohm,
+        r.error_estimate_pct,
+    );
+    if json {
+        let mut v = field_json(&r);
+        v["structure"] = json!(case.kind);
+        v["pattern"] = json!(case.structure.label());
+        v["family"] = json!(case.cross_section.family());
+        v["comparison"] = serde_json::to_value(&cmp)?;
+        v["time_ms"] = json!(elapsed_ms);
+        println!("{}", serde_json::to_string_pretty(&v)?);
+        return Ok(());
+    }
+    println!(
+        "{} {} (2D field solve, {:.0} ms)",
+        case.cross_section.family(),
+        case.structure.label(),
+        elapsed_ms
+    );
+    print_field(&r);
+    println!("  {}", comparison_line(&cmp));
+    for w in r.warnings.iter().chain(cmp.warnings.iter()) {
+        println!("  note: {}", w.message);
+    }
+    Ok(())
+}
+
+fn field_project(args: &[String]) -> Result<()> {
+    let (mut map, json, positional) = flags(args)?;
+    let options = field_options(&mut map)?;
+    let only = map.remove("rule");
+    if let Some(k) = map.keys().next() {
+        bail!("--{k}: not an option of field");
+    }
+    let [path] = positional.as_slice() else {
+        bail!("field takes one FILE (or - for stdin)")
+    };
+    let project = Project::from_json(&read_input(path)?)?;
+    let rules: Vec<_> = project
+        .rules
+        .iter()
+        .filter(|r| only.as_deref().is_none_or(|n| r.name == n))
+        .collect();
+    if rules.is_empty() {
+        bail!(
+            "--rule: no rule named {:?}",
+            only.as_deref().unwrap_or_default()
+        );
+    }
+    let mut out = Vec::new();
+    for rule in rules {
+        let started = Instant::now();
+        let check = ohmstack_core::field::rules::check_rule(&project, rule, options);
+        let ms = started.elapsed().as_secs_f64() * 1e3;
+        out.push((rule.name.clone(), check, ms));
+    }
+    if json {
+        let v: Vec<Value> = out
+            .iter()
+            .map(|(name, check, ms)| match check {
+                Ok(c) => json!({
+                    "name": name,
+                    "layer": c.layer,
+                    "family": c.family,
+                    "structure": c.structure,
+                    "width_m": c.width_m,
+                    "spacing_m": c.spacing_m,
+                    "gap_m": c.gap_m,
+                    "etch_factor": c.etch_factor,
+                    "comparison": c.comparison,
+                    "field": field_json(&c.field),
+                    "time_ms": ms,
+                }),
+                Err(e) => json!({ "name": name, "error": e.to_string() }),
+            })
+            .collect();
+        println!("{}", serde_json::to_string_pretty(&v)?);
+        return Ok(());
+    }
+    let unit = project.units;
+    for (name, check, ms) in &out {
+        match check {
+            Ok(c) => {
+                println!(
+                    "{name} — {} {} on {}, width {}{} ({ms:.0} ms)",
+                    c.family,
+                    c.structure,
+                    c.layer,
+                    format_length(c.width_m, unit),
+                    c.spacing_m
+                        .map(|s| format!(", spacing {}", format_length(s, unit)))
+                        .unwrap_or_default()
+                );
+                print_field(&c.field);
+                println!("  {}", comparison_line(&c.comparison));
+                for w in c.field.warnings.iter().chain(c.comparison.warnings.iter()) {
+                    println!("  note: {}", w.message);
+                }
+            }
+            Err(e) => println!("{name} — error: {e}"),
+        }
+    }
+    Ok(())
 }

@@ -27,6 +27,7 @@ pub mod dispersion;
 pub mod draw;
 pub mod elliptic;
 pub mod error;
+pub mod field;
 pub mod lines;
 pub mod loss;
 pub mod microstrip;

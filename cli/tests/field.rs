@@ -1,0 +1,167 @@
+//! `ohmstack field` and `ohmstack field-calc` end to end: the field solve of a standalone structure against Cohn's
+//! exact stripline, a project's rules compared with their closed forms, and bad input named in one-line errors.
+
+use std::f64::consts::PI;
+use std::io::Write;
+use std::process::{Command, Stdio};
+
+fn ohmstack(args: &[&str], stdin: &str) -> (i32, String, String) {
+    let mut child = Command::new(env!("CARGO_BIN_EXE_ohmstack"))
+        .args(args)
+        .stdin(Stdio::piped())
+        .stdout(Stdio::piped())
+        .stderr(Stdio::piped())
+        .spawn()
+        .expect("spawn ohmstack");
+    child
+        .stdin
+        .take()
+        .unwrap()
+        .write_all(stdin.as_bytes())
+        .unwrap();
+    let out = child.wait_with_output().unwrap();
+    (
+        out.status.code().unwrap_or(-1),
+        String::from_utf8_lossy(&out.stdout).into(),
+        String::from_utf8_lossy(&out.stderr).into(),
+    )
+}
+
+/// K(k) from the complementary modulus by the arithmetic–geometric mean: K = π / (2·AGM(1, k′)).
+fn ellip_k(kp: f64) -> f64 {
+    let (mut a, mut b) = (1.0f64, kp);
+    for _ in 0..60 {
+        let (an, bn) = (0.5 * (a + b), (a * b).sqrt());
+        a = an;
+        b = bn;
+    }
+    PI / (2.0 * a)
+}
+
+#[test]
+fn field_calc_stripline_matches_cohn() {
+    // Cohn 1954, exact for t = 0: Z0 = η0/(4√εr)·K(k)/K(k′), k = sech(πW/2b), η0 = µ0·c.
+    let (code, out, err) = ohmstack(
+        &[
+            "field-calc",
+            "stripline",
+            "--width",
+            "0.2mm",
+            "--height",
+            "0.1mm",
+            "--thickness",
+            "0",
+            "--dk",
+            "3.5",
+            "--json",
+        ],
+        "",
+    );
+    assert_eq!(code, 0, "{err}");
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    let z = v["z0_ohm"].as_f64().unwrap();
+    let x = PI * 0.2 / (2.0 * 0.2);
+    let eta0 = 1.256_637_062_12e-6 * 299_792_458.0;
+    let exact = eta0 / (4.0 * 3.5f64.sqrt()) * ellip_k(x.tanh()) / ellip_k(1.0 / x.cosh());
+    assert!((z - exact).abs() / exact < 0.003, "{z} vs {exact}");
+    assert!(v["error_estimate_pct"].as_f64().unwrap() < 0.3);
+    assert!(v["levels"].as_array().unwrap().len() >= 3);
+}
+
+#[test]
+fn field_calc_pair_reports_modes_and_closed_form() {
+    let (code, out, err) = ohmstack(
+        &[
+            "field-calc",
+            "microstrip",
+            "--width",
+            "0.2mm",
+            "--height",
+            "0.1mm",
+            "--thickness",
+            "35um",
+            "--dk",
+            "4",
+            "--spacing",
+            "0.15mm",
+        ],
+        "",
+    );
+    assert_eq!(code, 0, "{err}");
+    assert!(out.contains("Zdiff") && out.contains("error est."), "{out}");
+    let (code, out, err) = ohmstack(
+        &[
+            "field-calc",
+            "microstrip",
+            "--width",
+            "0.3mm",
+            "--height",
+            "0.17mm",
+            "--thickness",
+            "35um",
+            "--dk",
+            "4.2",
+            "--json",
+        ],
+        "",
+    );
+    assert_eq!(code, 0, "{err}");
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    let c = &v["comparison"];
+    // Hammerstad–Jensen 1980 against the field solve: inside its 1.5 % band for this ordinary geometry.
+    assert!(c["difference_pct"].as_f64().unwrap().abs() < 1.5, "{c}");
+    assert_eq!(c["band_pct"].as_f64(), Some(1.5));
+}
+
+#[test]
+fn field_on_the_demo_project() {
+    let (_, demo, _) = ohmstack(&["demo"], "");
+    let (code, out, err) = ohmstack(&["field", "-", "--json"], &demo);
+    assert_eq!(code, 0, "{err}");
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    let rules = v.as_array().unwrap();
+    assert!(rules.len() >= 2);
+    let first = &rules[0];
+    assert!(
+        first["field"]["controlled_ohm"].as_f64().unwrap() > 0.0,
+        "{first}"
+    );
+    assert!(first["comparison"]["closed_form_ohm"].as_f64().is_some());
+    let name = first["name"].as_str().unwrap().to_string();
+    let (code, out, err) = ohmstack(&["field", "-", "--rule", &name], &demo);
+    assert_eq!(code, 0, "{err}");
+    assert!(out.contains(&name) && out.contains("difference"), "{out}");
+    let (code, _, err) = ohmstack(&["field", "-", "--rule", "no such rule"], &demo);
+    assert_eq!(code, 2);
+    assert!(err.contains("--rule"), "{err}");
+}
+
+#[test]
+fn field_calc_bad_input_names_the_field() {
+    for (args, field) in [
+        (vec!["--width", "-1mm"], "width"),
+        (
+            vec!["--width", "0.1mm", "--etch-factor", "0.1"],
+            "etch_factor",
+        ),
+        (vec!["--width", "0.1mm", "--tolerance", "nan"], "tolerance"),
+        (vec!["--width", "0.1mm", "--spacing", "abc"], "spacing"),
+        (vec!["--width", "1nm"], "width"),
+    ] {
+        let mut all = vec![
+            "field-calc",
+            "stripline",
+            "--height",
+            "0.1mm",
+            "--thickness",
+            "17um",
+            "--dk",
+            "4",
+        ];
+        all.extend(args.iter());
+        let (code, out, err) = ohmstack(&all, "");
+        assert_eq!(code, 2, "{args:?}: {out}");
+        assert!(err.contains(field), "{args:?}: {err}");
+        assert!(!err.contains("panicked"), "{err}");
+    }
+}
