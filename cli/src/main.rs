@@ -1113,14 +1113,6 @@ fn field_calc(args: &[String]) -> Result<()> {
         bail!("give one structure KIND (see `ohmstack kinds`)")
     };
     let options = field_options(&mut map)?;
-    let spacing = map
-        .remove("spacing")
-        .map(|t| ohmstack_core::units::parse_length("spacing", &t))
-        .transpose()?;
-    let gap = map
-        .remove("gap")
-        .map(|t| ohmstack_core::units::parse_length("gap", &t))
-        .transpose()?;
     let etch = map
         .remove("etch-factor")
         .map(|t| ohmstack_core::units::parse_number("etch-factor", &t, &[]))
@@ -1128,15 +1120,34 @@ fn field_calc(args: &[String]) -> Result<()> {
     if map.contains_key("target") {
         bail!("--target: field-calc analyses the given width; use `solve` for synthesis");
     }
-    let mut case = case::parse(kind, &map)?;
-    case.structure = match (spacing, gap) {
-        (None, None) => Structure::Single,
-        (Some(_), None) => Structure::EdgePair,
-        (None, Some(_)) => Structure::Coplanar,
-        (Some(_), Some(_)) => Structure::CoplanarPair,
+    // Kinds that name their own pattern (pairs, coplanar) take --spacing/--gap as `calc` does; for the plain
+    // single-line kinds, --spacing and --gap turn the line into a pair or a coplanar line.
+    let own_pattern = case::parse(kind, &map)
+        .ok()
+        .filter(|c| c.structure != Structure::Single);
+    let case = match own_pattern {
+        Some(case) => case,
+        None => {
+            let spacing = map
+                .remove("spacing")
+                .map(|t| ohmstack_core::units::parse_length("spacing", &t))
+                .transpose()?;
+            let gap = map
+                .remove("gap")
+                .map(|t| ohmstack_core::units::parse_length("gap", &t))
+                .transpose()?;
+            let mut case = case::parse(kind, &map)?;
+            case.structure = match (spacing, gap) {
+                (None, None) => Structure::Single,
+                (Some(_), None) => Structure::EdgePair,
+                (None, Some(_)) => Structure::Coplanar,
+                (Some(_), Some(_)) => Structure::CoplanarPair,
+            };
+            case.dims.s = spacing;
+            case.dims.gap = gap;
+            case
+        }
     };
-    case.dims.s = spacing;
-    case.dims.gap = gap;
     let closed = case.analyze().ok();
     let started = Instant::now();
     let r = ohmstack_core::field::solve_cross_section(

@@ -210,6 +210,13 @@ impl CoplanarPair {
         VALIDITY[0].check(model, self.t / self.g, &mut warnings);
         VALIDITY[1].check(model, self.t / self.s, &mut warnings);
         VALIDITY[2].check(model, self.t / self.w, &mut warnings);
+        if matches!(self.backing, Backing::Plane(_)) {
+            crate::coplanar::BACKED_GAP_OVER_H.check(
+                "grounded coplanar pair",
+                self.g / self.h,
+                &mut warnings,
+            );
+        }
         if self.t > 0.0 {
             warnings.push(Warning::new(
                 "coplanar pair: thickness correction carried over from the single CPW (Gupta et al. 1996), not published for pairs",
