@@ -16,6 +16,7 @@ pub mod cross_section;
 pub mod demo;
 pub mod error;
 pub mod lines;
+pub mod material;
 pub mod microstrip;
 pub mod models;
 pub mod plan;
