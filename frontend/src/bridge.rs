@@ -139,7 +139,11 @@ pub fn structures_for(stackup: &Stackup, layer: &str) -> Vec<Structure> {
 
 /// Loss at the analysis frequency, when the core provides it: (frequency Hz, dB/in, dB/cm) of the signal mode.
 pub fn loss_at(result: &RuleResult) -> Option<(f64, f64, f64)> {
-    let v = serde_json::to_value(result).ok()?;
+    loss_in(&serde_json::to_value(result).ok()?)
+}
+
+/// [`loss_at`] on the serialised result (read by field name so the app builds with or without the loss module).
+fn loss_in(v: &serde_json::Value) -> Option<(f64, f64, f64)> {
     let loss = v.get("loss")?;
     let mode = loss.get("line").or_else(|| loss.get("odd"))?;
     let total = mode.get("total")?;
@@ -152,7 +156,11 @@ pub fn loss_at(result: &RuleResult) -> Option<(f64, f64, f64)> {
 
 /// The tolerance spread, when the core provides it: (min Ω, max Ω, yield % if sampled).
 pub fn spread_of(result: &RuleResult) -> Option<(f64, f64, Option<f64>)> {
-    let v = serde_json::to_value(result).ok()?;
+    spread_in(&serde_json::to_value(result).ok()?)
+}
+
+/// [`spread_of`] on the serialised result.
+fn spread_in(v: &serde_json::Value) -> Option<(f64, f64, Option<f64>)> {
     let spread = v.get("spread")?;
     if let Some(mc) = spread.get("monte_carlo") {
         if let (Some(lo), Some(hi)) = (
@@ -199,6 +207,26 @@ mod tests {
         assert!(e.contains("\"abc\"") && e.starts_with("width"), "{e}");
         let e = parse_length("width", "12", LengthUnit::Um);
         assert!(e.is_ok());
+    }
+
+    #[test]
+    fn loss_and_spread_are_read_when_present() {
+        // The shapes the loss and spread modules serialise (LossAt.line/odd.total, SpreadSummary.monte_carlo).
+        let v = serde_json::json!({
+            "loss": {"freq_hz": 2e9, "odd": {"total": {"db_per_m": 10.0, "db_per_cm": 0.1, "db_per_in": 0.254}}},
+            "spread": {"corners": {"min_ohm": 45.0, "max_ohm": 55.0},
+                       "monte_carlo": {"min_ohm": 46.0, "max_ohm": 54.0, "yield_pct": 97.5}}
+        });
+        assert_eq!(loss_in(&v), Some((2e9, 0.254, 0.1)));
+        assert_eq!(spread_in(&v), Some((46.0, 54.0, Some(97.5))));
+        let corners_only =
+            serde_json::json!({"spread": {"corners": {"min_ohm": 45.0, "max_ohm": 55.0}}});
+        assert_eq!(spread_in(&corners_only), Some((45.0, 55.0, None)));
+        // Today's core has neither field: nothing is shown.
+        let p = ohmstack_core::demo::project();
+        let plan = analyse(&p).unwrap();
+        let r = plan.rules[0].ok().unwrap();
+        assert_eq!((loss_at(r), spread_of(r)), (None, None));
     }
 
     #[test]

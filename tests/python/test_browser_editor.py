@@ -267,4 +267,24 @@ def test_main_view_screenshot(driver):
     browser.screenshot(driver, "editor-main-1366x768")
     driver.set_window_size(1366, 2400)
     browser.screenshot(driver, "editor-main-full")
+    # Every input and select has a label pointing at it (screen readers announce it).
+    unlabelled = driver.execute_script(
+        "return [...document.querySelectorAll('input, select')]"
+        ".filter(e => !document.querySelector(`label[for='${e.id}']`)).map(e => e.outerHTML)")
+    assert unlabelled == []
+    # Print view: buttons go, inputs read as plain text.
+    driver.execute_cdp_cmd("Emulation.setEmulatedMedia", {"media": "print"})
+    assert not driver.find_element(By.ID, "add-rule").is_displayed()
+    browser.screenshot(driver, "editor-print")
+    assert browser.console_errors(driver) == []
+
+
+def test_storage_failure_is_reported_not_fatal(driver):
+    # Storage that refuses writes (full quota, or blocked by policy): the app keeps computing and says so.
+    driver.execute_script(
+        "Storage.prototype.setItem = function () { throw new DOMException('full', 'QuotaExceededError'); };")
+    type_into(driver, "rule-0-target-input", "53")
+    message = browser.wait_for(lambda: el(driver, "storage-error").text, what="storage error shown")
+    assert "autosave failed" in message, message
+    browser.wait_for(lambda: abs(value(driver, "rule-0-impedance") - 53.0) < 0.05, what="still solving")
     assert browser.console_errors(driver) == []

@@ -191,7 +191,7 @@ pub fn Layers(props: &LayersProps) -> Html {
                     { button("up", "↑", format!("Move {name} up (Alt+↑)"), Action::MoveLayer(i, true), i == 0) }
                     { button("down", "↓", format!("Move {name} down (Alt+↓)"), Action::MoveLayer(i, false), i + 1 >= n) }
                     { button("insert", "+", format!("Insert a layer below {name}"), Action::InsertLayer(i), false) }
-                    { button("dup", "⧉", format!("Duplicate {name}"), Action::DuplicateLayer(i), false) }
+                    { button("dup", "❐", format!("Duplicate {name}"), Action::DuplicateLayer(i), false) }
                     { button("remove", "×", format!("Remove {name}"), Action::RemoveLayer(i), n <= 1) }
                 </td>
             </tr>

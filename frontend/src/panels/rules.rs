@@ -82,8 +82,8 @@ fn results(i: usize, r: &RuleResult, project: &Project) -> Html {
                 { figure(i, "eps-eff", "Dk eff", format!("{:.3}", r.eps_eff), Some(r.eps_eff)) }
                 { figure(i, "delay", "Delay (ps/mm)", format!("{delay_ps_per_mm:.3}"), Some(delay_ps_per_mm)) }
                 { figure(i, "delay-in", "Delay (ps/in)", format!("{delay_ps_per_in:.1}"), Some(delay_ps_per_in)) }
-                { figure(i, "gamma", "Γ vs target", format!("{:+.4}", r.gamma), Some(r.gamma)) }
-                { figure(i, "return-loss", "Return loss (dB)", if r.return_loss_db.is_finite() { format!("{:.1}", r.return_loss_db) } else { "∞".into() }, Some(r.return_loss_db).filter(|v| v.is_finite())) }
+                { figure(i, "gamma", "Γ vs target", if r.gamma.abs() < 1e-3 { format!("{:+.1e}", r.gamma) } else { format!("{:+.4}", r.gamma) }, Some(r.gamma)) }
+                { figure(i, "return-loss", "Return loss (dB)", if r.return_loss_db > 100.0 { "> 100".into() } else { format!("{:.1}", r.return_loss_db) }, Some(r.return_loss_db).filter(|v| v.is_finite())) }
                 if let Some((f, db_in, db_cm)) = bridge::loss_at(r) {
                     { figure(i, "loss", &format!("Loss at {} GHz", format_sig(f / 1e9, 4)), format!("{db_in:.3} dB/in ({db_cm:.3} dB/cm)"), Some(db_in)) }
                 }
