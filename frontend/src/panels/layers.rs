@@ -138,10 +138,11 @@ pub fn Layers(props: &LayersProps) -> Html {
                     .map(|p| p.id)
                     .unwrap_or("")
                     .into();
+                let unset = selected.is_empty().then_some("unset");
                 let preset = {
                     let d = d.clone();
                     html! { <Select id={format!("layer-{i}-preset")} label={format!("{name} material preset")} hidden_label=true
-                        {options} {selected}
+                        class={classes!(unset)} {options} {selected}
                         onchange={Callback::from(move |v: String| if let Some(p) = PRESETS.iter().find(|p| p.id == v) { d.emit(Action::ApplyPreset(i, p.id)) })} /> }
                 };
                 let material = html! {

@@ -14,6 +14,9 @@ pub struct SelectProps {
     pub hidden_label: bool,
     #[prop_or_default]
     pub disabled: bool,
+    /// Extra classes on the wrapper (e.g. "unset" for a menu still on its placeholder, hidden in print).
+    #[prop_or_default]
+    pub class: Classes,
 }
 
 #[component]
@@ -26,7 +29,7 @@ pub fn Select(props: &SelectProps) -> Html {
         })
     };
     html! {
-        <div class="field">
+        <div class={classes!("field", props.class.clone())}>
             <label for={props.id.clone()} class={classes!(props.hidden_label.then_some("sr-only"))}>{ props.label.clone() }</label>
             <select id={props.id.clone()} data-testid={props.id.clone()} {onchange} disabled={props.disabled}>
                 { for props.options.iter().map(|(value, label)| html! {
