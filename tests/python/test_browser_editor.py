@@ -338,3 +338,19 @@ def test_random_structural_edits_never_break_the_app(driver, seed):
         # The CLI reads files strictly; the app keeps work whose rules point at removed layers and flags the rows.
         assert "rules[" in proc.stderr, proc.stderr
     assert browser.console_errors(driver) == []
+
+
+def test_partial_typing_is_not_clobbered(driver):
+    Select(driver.find_element(By.ID, "units")).select_by_value("mm")
+    wait_saved(driver, lambda p: p["units"] == "mm", "unit mm")
+    box = driver.find_element(By.ID, f"layer-{PREPREG}-thickness")
+    type_into(driver, f"layer-{PREPREG}-thickness", "0.", leave=False)
+    assert box.get_attribute("value") == "0."
+    assert box.get_attribute("aria-invalid") == "true"  # zero thickness, for now
+    box.send_keys("13")
+    browser.wait_for(lambda: box.get_attribute("value") == "0.13", what="text kept while typing")
+    p = wait_saved(driver, lambda p: abs(p["stackup"][PREPREG]["thickness_m"] - 0.13e-3) < 1e-15, "0.13 mm saved")
+    assert box.get_attribute("aria-invalid") == "false"
+    rule = core_plan(p)["rules"][0]
+    browser.wait_for(lambda: abs(value(driver, "rule-0-width") - rule["width_m"]) < 1e-15, what="re-solved width")
+    assert browser.console_errors(driver) == []
