@@ -22,6 +22,7 @@ usage:
                                         find the width that gives the target impedance
   ohmstack batch                        JSON lines of cases on stdin, JSON lines of results on stdout
   ohmstack kinds                        list the structures calc/solve/batch know
+  ohmstack materials [--json]           generic dielectric classes with typical Dk/Df (the app's presets)
 
 lengths take units: um, mm, mil, in (and oz for copper thickness); plain numbers are metres.";
 
@@ -55,6 +56,10 @@ fn run(args: &[String]) -> Result<()> {
             for (name, what) in case::KINDS {
                 println!("{name:<24} {what}");
             }
+            Ok(())
+        }
+        "materials" => {
+            materials(rest);
             Ok(())
         }
         "-h" | "--help" | "help" => {
@@ -319,4 +324,31 @@ fn batch_line(line: &str) -> Result<Value> {
     let solve = map.contains_key("target");
     let (case, e) = compute(&kind, map, solve)?;
     Ok(evaluated_json(&case, &e))
+}
+
+/// Prints the generic material presets shared with the web app.
+fn materials(args: &[String]) {
+    use ohmstack_core::material::{PresetUse, PRESETS, PRESET_CAVEAT};
+    if args.iter().any(|a| a == "--json") {
+        let list: Vec<Value> = PRESETS
+            .iter()
+            .map(|p| {
+                json!({"id": p.id, "name": p.name, "dk": p.dk, "df": p.df, "spec_freq_hz": p.spec_freq_hz,
+                       "use": match p.used_for { PresetUse::Laminate => "laminate", PresetUse::Mask => "solder_mask" }})
+            })
+            .collect();
+        println!("{}", json!({"caveat": PRESET_CAVEAT, "presets": list}));
+        return;
+    }
+    println!("{PRESET_CAVEAT}");
+    for p in PRESETS {
+        println!(
+            "{:<14} {:<36} Dk {:<5} Df {:<7} at {} GHz",
+            p.id,
+            p.name,
+            p.dk,
+            p.df,
+            format_sig(p.spec_freq_hz / 1e9, 4)
+        );
+    }
 }

@@ -354,3 +354,23 @@ def test_partial_typing_is_not_clobbered(driver):
     rule = core_plan(p)["rules"][0]
     browser.wait_for(lambda: abs(value(driver, "rule-0-width") - rule["width_m"]) < 1e-15, what="re-solved width")
     assert browser.console_errors(driver) == []
+
+
+def test_preset_menus_are_the_cores_table(driver):
+    proc = run("materials", "--json")
+    assert proc.returncode == 0, proc.stderr
+    table = json.loads(proc.stdout)
+    assert "datasheet" in table["caveat"] and table["caveat"] in driver.find_element(By.CSS_SELECTOR, ".hint").text
+    laminate = [p["id"] for p in table["presets"] if p["use"] == "laminate"]
+    mask = [p["id"] for p in table["presets"] if p["use"] == "solder_mask"]
+    ids = lambda i: [o.get_attribute("value") for o in Select(driver.find_element(By.ID, f"layer-{i}-preset")).options][1:]
+    assert ids(PREPREG) == laminate and ids(0) == mask
+    for preset in table["presets"]:
+        i = 0 if preset["use"] == "solder_mask" else PREPREG
+        Select(driver.find_element(By.ID, f"layer-{i}-preset")).select_by_value(preset["id"])
+        p = wait_saved(driver, lambda p: p["stackup"][i]["material"] == preset["name"], preset["id"])
+        layer = p["stackup"][i]
+        assert (layer["dk"], layer["df"], layer["spec_freq_hz"]) == (preset["dk"], preset["df"], preset["spec_freq_hz"])
+        # Every preset value stays editable.
+        assert driver.find_element(By.ID, f"layer-{i}-dk").get_attribute("value") == f"{preset['dk']:g}"
+    assert browser.console_errors(driver) == []
