@@ -37,6 +37,7 @@ usage:
                                         the spread's seeded random stream, one number a line (for checks)
   ohmstack batch                        JSON lines of cases on stdin, JSON lines of results on stdout
   ohmstack kinds                        list the structures calc/solve/batch know
+  ohmstack materials [--json]           generic dielectric classes with typical Dk/Df (the app's presets)
   ohmstack field FILE|- [--rule NAME] [--tolerance PCT] [--json]
                                         closed form vs 2D field solve for each rule of a project
   ohmstack field-calc KIND --field value ... [--spacing S] [--gap G] [--etch-factor E] [--tolerance PCT] [--json]
@@ -117,6 +118,10 @@ fn run(args: &[String]) -> Result<()> {
         "notes" => notes(rest),
         "draw" => draw(rest),
         "plot" => plot(rest),
+        "materials" => {
+            materials(rest);
+            Ok(())
+        }
         "-h" | "--help" | "help" => {
             println!("{HELP}");
             Ok(())
@@ -1263,4 +1268,31 @@ fn field_project(args: &[String]) -> Result<()> {
         }
     }
     Ok(())
+}
+
+/// Prints the generic material presets shared with the web app.
+fn materials(args: &[String]) {
+    use ohmstack_core::material::{PresetUse, PRESETS, PRESET_CAVEAT};
+    if args.iter().any(|a| a == "--json") {
+        let list: Vec<Value> = PRESETS
+            .iter()
+            .map(|p| {
+                json!({"id": p.id, "name": p.name, "dk": p.dk, "df": p.df, "spec_freq_hz": p.spec_freq_hz,
+                       "use": match p.used_for { PresetUse::Laminate => "laminate", PresetUse::Mask => "solder_mask" }})
+            })
+            .collect();
+        println!("{}", json!({"caveat": PRESET_CAVEAT, "presets": list}));
+        return;
+    }
+    println!("{PRESET_CAVEAT}");
+    for p in PRESETS {
+        println!(
+            "{:<14} {:<36} Dk {:<5} Df {:<7} at {} GHz",
+            p.id,
+            p.name,
+            p.dk,
+            p.df,
+            format_sig(p.spec_freq_hz / 1e9, 4)
+        );
+    }
 }

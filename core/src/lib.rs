@@ -30,6 +30,7 @@ pub mod error;
 pub mod field;
 pub mod lines;
 pub mod loss;
+pub mod material;
 pub mod microstrip;
 pub mod models;
 pub mod plan;

@@ -1,84 +1,156 @@
-//! The app shell: owns the one state container and lays out the panels.
+//! The app shell: owns the one state container, derives the plan, autosaves, listens for undo/redo keys and lays
+//! out the panels.
 
 use crate::bridge;
-use crate::state::{Action, State};
-use ohmstack_core::units::{format_length, format_sig};
-use ohmstack_core::RuleOutcome;
+use crate::panels::{Layers, Rules, Toolbar};
+use crate::persist;
+use crate::state::{self, Action, Notice};
+use ohmstack_core::Plan;
+use std::rc::Rc;
+use wasm_bindgen::JsCast;
 use yew::prelude::*;
 
 #[component]
 pub fn App() -> Html {
-    let state = use_reducer(State::default);
-    let project = state.project.clone();
-    let plan = use_memo(project.clone(), bridge::analyse);
-    let unit = project.units;
-    let load_demo = {
+    let state = use_reducer(|| {
+        let (mut s, message) = persist::load();
+        s.notice = message.map(|text| Notice { error: true, text });
+        s
+    });
+    let project = Rc::new(state.project.clone());
+    let drafts = Rc::new(state.drafts.clone());
+    let plan = use_memo(state.project.clone(), bridge::analyse);
+    // The last plan that computed, shown greyed while the current one cannot be.
+    let last_good = use_mut_ref(|| None::<Rc<Plan>>);
+    let (shown, plan_error) = match &*plan {
+        Ok(p) => {
+            let p = Rc::new(p.clone());
+            *last_good.borrow_mut() = Some(p.clone());
+            (Some(p), None)
+        }
+        Err(e) => (last_good.borrow().clone(), Some(e.clone())),
+    };
+    let stale = plan_error.is_some() || state.has_errors();
+    let storage = use_state_eq(|| None::<AttrValue>);
+    {
         let state = state.clone();
-        Callback::from(move |_| {
-            state.dispatch(Action::Load(Box::new(ohmstack_core::demo::project())))
+        let storage = storage.clone();
+        use_effect_with(
+            (state.project.clone(), state.undo.len(), state.redo.len()),
+            move |_| {
+                storage.set(persist::save(&state).err().map(AttrValue::from));
+            },
+        );
+    }
+    {
+        let dispatcher = state.dispatcher();
+        use_effect_with((), move |_| {
+            let listener = web_sys::window().and_then(|w| w.document()).map(|doc| {
+                // Not passive: the handler must stop the browser's own undo in text fields.
+                let options = gloo::events::EventListenerOptions::enable_prevent_default();
+                gloo::events::EventListener::new_with_options(&doc, "keydown", options, move |e| {
+                    let Some(e) = e.dyn_ref::<web_sys::KeyboardEvent>() else {
+                        return;
+                    };
+                    if !(e.ctrl_key() || e.meta_key()) || e.alt_key() {
+                        return;
+                    }
+                    let key = e.key().to_ascii_lowercase();
+                    let action = match (key.as_str(), e.shift_key()) {
+                        ("z", false) => Action::Undo,
+                        ("z", true) | ("y", false) => Action::Redo,
+                        _ => return,
+                    };
+                    e.prevent_default();
+                    dispatcher.dispatch(action);
+                })
+            });
+            move || drop(listener)
+        });
+    }
+    let dispatch = {
+        let d = state.dispatcher();
+        Callback::from(move |a: Action| d.dispatch(a))
+    };
+    let on_demo = {
+        let d = dispatch.clone();
+        Callback::from(move |_: ()| {
+            d.emit(Action::Load(
+                Box::new(ohmstack_core::demo::project()),
+                "opened the demo (Undo brings back your previous work)".into(),
+            ))
         })
     };
-    let body = match &*plan {
-        Err(message) => html! { <p class="error" role="alert">{ message.clone() }</p> },
-        Ok(plan) => html! {
-            <>
-            <section class="panel" aria-labelledby="stack-title">
-                <h2 id="stack-title">{ "Layer stack" }</h2>
-                <p class="totals">
-                    { format!("Board {} · {} copper layers", format_length(plan.total_thickness_m, unit), plan.copper_count) }
-                </p>
-                <table class="stack">
-                    <thead><tr><th>{"Layer"}</th><th>{"Type"}</th><th>{"Material"}</th><th>{"Thickness"}</th><th>{"Dk"}</th><th>{"Df"}</th></tr></thead>
-                    <tbody>
-                    { for plan.layers.iter().map(|l| html! {
-                        <tr class={classes!("layer", l.kind.replace(' ', "-"))}>
-                            <td>{ l.name.clone() }</td>
-                            <td>{ l.role.map(|r| format!("{} ({r})", l.kind)).unwrap_or_else(|| l.kind.to_string()) }</td>
-                            <td>{ l.material.clone() }</td>
-                            <td>{ format_length(l.pressed_thickness_m, unit) }</td>
-                            <td>{ l.dk.map(|d| format_sig(d, 3)).unwrap_or_default() }</td>
-                            <td>{ l.df.map(|d| format_sig(d, 3)).unwrap_or_default() }</td>
-                        </tr>
-                    }) }
-                    </tbody>
-                </table>
-            </section>
-            <section class="panel" aria-labelledby="rules-title">
-                <h2 id="rules-title">{ "Impedance rules" }</h2>
-                <table class="rules">
-                    <thead><tr><th>{"Net class"}</th><th>{"Layer"}</th><th>{"Structure"}</th><th>{"Width"}</th><th>{"Z (Ω)"}</th><th>{"Target"}</th><th>{"Dk eff"}</th><th>{"Delay (ps/mm)"}</th></tr></thead>
-                    <tbody>
-                    { for plan.rules.iter().enumerate().map(|(i, outcome)| match outcome {
-                        RuleOutcome::Ok(r) => html! {
-                            <tr class="rule">
-                                <td>{ r.name.clone() }</td>
-                                <td>{ r.layer.clone() }</td>
-                                <td>{ format!("{}, {}", r.family, r.structure) }</td>
-                                <td data-testid={format!("rule-{i}-width")} data-value={r.width_m.to_string()}>{ format_length(r.width_m, unit) }</td>
-                                <td data-testid={format!("rule-{i}-impedance")} data-value={r.impedance_ohm.to_string()}>{ format!("{:.2}", r.impedance_ohm) }</td>
-                                <td>{ format!("{} ± {}%", r.target_ohm, r.tolerance_pct) }</td>
-                                <td>{ format!("{:.3}", r.eps_eff) }</td>
-                                <td>{ format!("{:.3}", r.delay_s_per_m * 1e9) }</td>
-                            </tr>
-                        },
-                        RuleOutcome::Error { name, message } => html! {
-                            <tr class="rule failed"><td>{ name.clone() }</td><td colspan="7" class="error" data-testid={format!("rule-{i}-error")}>{ message.clone() }</td></tr>
-                        },
-                    }) }
-                    </tbody>
-                </table>
-            </section>
-            </>
-        },
+    let on_blank = {
+        let d = dispatch.clone();
+        Callback::from(move |_: ()| {
+            d.emit(Action::Load(
+                Box::new(state::blank_project()),
+                "new blank project (Undo brings back your previous work)".into(),
+            ))
+        })
+    };
+    let download_url = use_mut_ref(|| None::<gloo::file::ObjectUrl>);
+    let on_save = {
+        let d = dispatch.clone();
+        let project = project.clone();
+        let download_url = download_url.clone();
+        Callback::from(move |_: ()| {
+            let name = persist::file_name(&project);
+            match persist::download(&name, &project.to_json()) {
+                // Keep the URL alive until the next save so the browser can finish reading it.
+                Ok(url) => *download_url.borrow_mut() = Some(url),
+                Err(e) => d.emit(Action::Notify(Some(Notice {
+                    error: true,
+                    text: format!("could not save: {e}"),
+                }))),
+            }
+        })
+    };
+    let reader = use_mut_ref(|| None::<gloo::file::callbacks::FileReader>);
+    let on_open = {
+        let d = dispatch.clone();
+        let reader = reader.clone();
+        Callback::from(move |file: web_sys::File| {
+            let file = gloo::file::File::from(file);
+            let name = file.name();
+            if file.size() > ohmstack_core::project::MAX_JSON_BYTES as u64 {
+                d.emit(Action::Notify(Some(Notice {
+                    error: true,
+                    text: format!(
+                        "could not open {name}: larger than {} bytes; your work is unchanged",
+                        ohmstack_core::project::MAX_JSON_BYTES
+                    ),
+                })));
+                return;
+            }
+            let d = d.clone();
+            let task = gloo::file::callbacks::read_as_text(&file, move |result| {
+                let action = match result
+                    .map_err(|e| e.to_string())
+                    .and_then(|text| persist::open_file(&text))
+                {
+                    Ok(project) => Action::Load(Box::new(project), format!("opened {name}")),
+                    Err(e) => Action::Notify(Some(Notice {
+                        error: true,
+                        text: format!("could not open {name}: {e}; your work is unchanged"),
+                    })),
+                };
+                d.emit(action);
+            });
+            *reader.borrow_mut() = Some(task);
+        })
     };
     html! {
-        <main id="app" data-ready="true">
-            <header class="top">
-                <h1>{ "Ohmstack" }</h1>
-                <span class="project-title">{ project.title.clone() }</span>
-                <button class="no-print" onclick={load_demo}>{ "Load demo" }</button>
-            </header>
-            { body }
+        <main id="app" data-ready="true" data-stale={stale.to_string()}>
+            <Toolbar project={project.clone()} drafts={drafts.clone()} can_undo={!state.undo.is_empty()} can_redo={!state.redo.is_empty()}
+                notice={state.notice.clone()} storage={(*storage).clone()} dispatch={dispatch.clone()}
+                {on_demo} {on_blank} {on_save} {on_open} />
+            if let Some(e) = plan_error {
+                <p class="error" role="alert" data-testid="plan-error">{ e }</p>
+            }
+            <Layers project={project.clone()} drafts={drafts.clone()} plan={shown.clone()} dispatch={dispatch.clone()} />
+            <Rules project={project} drafts={drafts} plan={shown} {stale} dispatch={dispatch} />
             <footer class="cautions">
                 { "Design estimates only. Final impedance is confirmed by the fabricator on test coupons. Trace spacing here is not electrical-safety clearance; follow local codes and licensed practice." }
             </footer>

@@ -2,7 +2,10 @@
 
 mod app;
 mod bridge;
+mod panels;
+mod persist;
 mod state;
+mod widgets;
 
 fn main() {
     yew::Renderer::<app::App>::new().render();

@@ -1,36 +1,973 @@
-//! The app's single state: the project being edited plus undo history. Plain Rust, testable natively.
+//! The app's single state: the project being edited, the text of fields being typed, and a bounded undo history.
+//! Plain Rust (no DOM), so every edit rule is unit-tested natively.
+//!
+//! Invariant: `project.stackup` always validates. An edit that would break it is not applied; the typed text stays
+//! in its field with the core's message, and the last good project (and so the last good plan) is kept.
 
-use ohmstack_core::Project;
+use crate::bridge;
+use ohmstack_core::error;
+use ohmstack_core::material::{self, PresetUse};
+use ohmstack_core::project::{ImpedanceRule, Solve, Structure};
+use ohmstack_core::stackup::{Copper, CopperRole, Dielectric};
+use ohmstack_core::units::{LengthUnit, OZ_COPPER};
+use ohmstack_core::{Layer, Project};
+use std::collections::BTreeMap;
 use std::rc::Rc;
 use yew::Reducible;
+
+/// The most undo steps kept.
+pub const HISTORY_LIMIT: usize = 100;
+
+/// An editable text field of a layer.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash)]
+pub enum LayerField {
+    Name,
+    Thickness,
+    Dk,
+    Df,
+    SpecFreq,
+    Material,
+}
+
+/// An editable text field of a rule.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash)]
+pub enum RuleField {
+    Name,
+    Target,
+    Tolerance,
+    Width,
+    Spacing,
+    Gap,
+}
+
+/// Every text field of the app.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash)]
+pub enum Field {
+    Title,
+    AnalysisFreq,
+    MinTrace,
+    MinSpace,
+    Layer(usize, LayerField),
+    Rule(usize, RuleField),
+}
+
+impl Field {
+    /// The DOM id (also the test hook) of the field's input.
+    pub fn id(self) -> String {
+        match self {
+            Field::Title => "project-title".into(),
+            Field::AnalysisFreq => "analysis-freq".into(),
+            Field::MinTrace => "fab-min-trace".into(),
+            Field::MinSpace => "fab-min-space".into(),
+            Field::Layer(i, f) => format!(
+                "layer-{i}-{}",
+                match f {
+                    LayerField::Name => "name",
+                    LayerField::Thickness => "thickness",
+                    LayerField::Dk => "dk",
+                    LayerField::Df => "df",
+                    LayerField::SpecFreq => "spec-freq",
+                    LayerField::Material => "material",
+                }
+            ),
+            Field::Rule(i, f) => format!(
+                "rule-{i}-{}-input",
+                match f {
+                    RuleField::Name => "name",
+                    RuleField::Target => "target",
+                    RuleField::Tolerance => "tolerance",
+                    RuleField::Width => "width",
+                    RuleField::Spacing => "spacing",
+                    RuleField::Gap => "gap",
+                }
+            ),
+        }
+    }
+}
+
+/// Text being typed into a field, and the core's message when it does not (yet) make a valid design.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Draft {
+    pub text: String,
+    pub error: Option<String>,
+}
+
+/// A message for the status line.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Notice {
+    pub error: bool,
+    pub text: String,
+}
+
+/// The layer types offered in the type menu.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum LayerKind {
+    Copper,
+    Core,
+    Prepreg,
+    SolderMask,
+}
+
+impl LayerKind {
+    pub const ALL: [LayerKind; 4] = [
+        LayerKind::Copper,
+        LayerKind::Core,
+        LayerKind::Prepreg,
+        LayerKind::SolderMask,
+    ];
+    pub fn of(layer: &Layer) -> LayerKind {
+        match layer {
+            Layer::Copper(_) => LayerKind::Copper,
+            Layer::Core(_) => LayerKind::Core,
+            Layer::Prepreg(_) => LayerKind::Prepreg,
+            Layer::SolderMask(_) => LayerKind::SolderMask,
+        }
+    }
+    pub fn label(self) -> &'static str {
+        match self {
+            LayerKind::Copper => "copper",
+            LayerKind::Core => "core",
+            LayerKind::Prepreg => "prepreg",
+            LayerKind::SolderMask => "solder mask",
+        }
+    }
+    pub fn key(self) -> &'static str {
+        match self {
+            LayerKind::Copper => "copper",
+            LayerKind::Core => "core",
+            LayerKind::Prepreg => "prepreg",
+            LayerKind::SolderMask => "solder-mask",
+        }
+    }
+    pub fn from_key(key: &str) -> Option<LayerKind> {
+        LayerKind::ALL.into_iter().find(|k| k.key() == key)
+    }
+}
 
 /// Everything the app holds.
 #[derive(Debug, Clone, PartialEq)]
 pub struct State {
     pub project: Project,
+    /// Earlier projects, oldest first.
+    pub undo: Vec<Project>,
+    /// Undone projects, most recent last.
+    pub redo: Vec<Project>,
+    pub drafts: BTreeMap<Field, Draft>,
+    pub notice: Option<Notice>,
+    /// The field the last edit went to: further typing in it extends the same undo step.
+    last_field: Option<Field>,
 }
 
 impl Default for State {
     fn default() -> Self {
-        State {
-            project: ohmstack_core::demo::project(),
-        }
+        State::new(ohmstack_core::demo::project())
     }
 }
 
 /// Edits the user can make.
 #[derive(Debug, Clone, PartialEq)]
 pub enum Action {
-    /// Replace the whole project (new, open, demo).
-    Load(Box<Project>),
+    /// Text typed into a field.
+    Edit(Field, String),
+    /// The field lost focus: a valid draft gives way to the stored value's own formatting.
+    Blur(Field),
+    SetUnit(LengthUnit),
+    SetLayerKind(usize, LayerKind),
+    SetCopperRole(usize, CopperRole),
+    /// Copper weight in oz/ft².
+    SetCopperWeight(usize, f64),
+    ApplyPreset(usize, &'static str),
+    /// Insert a new layer below `usize` (the other kind: dielectric under copper, copper under dielectric).
+    InsertLayer(usize),
+    /// Append a layer at the bottom.
+    AddLayer,
+    RemoveLayer(usize),
+    DuplicateLayer(usize),
+    /// Move a layer one place up (`true`) or down.
+    MoveLayer(usize, bool),
+    AddRule,
+    RemoveRule(usize),
+    DuplicateRule(usize),
+    SetRuleLayer(usize, String),
+    SetRuleStructure(usize, Structure),
+    SetRuleSolve(usize, Solve),
+    SetRulePartner(usize, String),
+    Undo,
+    Redo,
+    /// Replace the whole project (new, open, demo); undoable.
+    Load(Box<Project>, String),
+    Notify(Option<Notice>),
+}
+
+fn unique_name(project: &Project, base: &str) -> String {
+    let taken = |n: &str| project.stackup.layers.iter().any(|l| l.name() == n);
+    if !taken(base) {
+        return base.to_string();
+    }
+    (2..10_000)
+        .map(|k| format!("{base} {k}"))
+        .find(|n| !taken(n))
+        .unwrap_or_else(|| format!("{base} {}", project.stackup.layers.len() + 1))
+}
+
+fn unique_rule_name(project: &Project, base: &str) -> String {
+    let taken = |n: &str| project.rules.iter().any(|r| r.name == n);
+    if !taken(base) {
+        return base.to_string();
+    }
+    (2..10_000)
+        .map(|k| format!("{base} {k}"))
+        .find(|n| !taken(n))
+        .unwrap_or_else(|| base.to_string())
+}
+
+fn laminate(name: String, preset_id: &str, thickness_m: f64) -> Dielectric {
+    let p = material::preset(preset_id).unwrap_or(&material::PRESETS[0]);
+    Dielectric {
+        name,
+        material: p.name.to_string(),
+        thickness_m,
+        dk: p.dk,
+        df: p.df,
+        spec_freq_hz: p.spec_freq_hz,
+    }
+}
+
+fn new_copper(name: String) -> Layer {
+    Layer::Copper(Copper {
+        name,
+        thickness_m: OZ_COPPER,
+        role: CopperRole::Signal,
+        fill_pct: None,
+        roughness: None,
+    })
+}
+
+fn rename_layer(layer: &mut Layer, name: String) {
+    match layer {
+        Layer::Copper(c) => c.name = name,
+        Layer::Core(d) | Layer::Prepreg(d) | Layer::SolderMask(d) => d.name = name,
+    }
+}
+
+impl State {
+    pub fn new(project: Project) -> State {
+        State {
+            project,
+            undo: Vec::new(),
+            redo: Vec::new(),
+            drafts: BTreeMap::new(),
+            notice: None,
+            last_field: None,
+        }
+    }
+
+    /// A state restored from storage with its history.
+    pub fn restored(project: Project, undo: Vec<Project>, redo: Vec<Project>) -> State {
+        State {
+            undo,
+            redo,
+            ..State::new(project)
+        }
+    }
+
+    /// True while some field holds text that could not be applied.
+    pub fn has_errors(&self) -> bool {
+        self.drafts.values().any(|d| d.error.is_some())
+    }
+
+    /// Stores `project` as the new current design, remembering the old one for undo.
+    fn commit(&mut self, project: Project, field: Option<Field>) {
+        if project == self.project {
+            return;
+        }
+        let coalesce = field.is_some() && field == self.last_field;
+        if !coalesce {
+            let old = std::mem::replace(&mut self.project, project);
+            self.undo.push(old);
+            if self.undo.len() > HISTORY_LIMIT {
+                let excess = self.undo.len() - HISTORY_LIMIT;
+                self.undo.drain(..excess);
+            }
+        } else {
+            self.project = project;
+        }
+        self.redo.clear();
+        self.last_field = field;
+    }
+
+    /// A structural change: drafts refer to positions that may have moved, so they go.
+    fn structural(&mut self, project: Project) {
+        self.drafts.clear();
+        self.commit(project, None);
+    }
+
+    fn edit(&mut self, field: Field, text: String) {
+        match self.apply_text(field, &text) {
+            Ok(project) => {
+                self.drafts.insert(field, Draft { text, error: None });
+                self.commit(project, Some(field));
+            }
+            Err(message) => {
+                self.drafts.insert(
+                    field,
+                    Draft {
+                        text,
+                        error: Some(message),
+                    },
+                );
+            }
+        }
+    }
+
+    /// The project with `text` applied to `field`, or the core's message why it cannot be.
+    fn apply_text(&self, field: Field, text: &str) -> Result<Project, String> {
+        let unit = self.project.units;
+        let mut p = self.project.clone();
+        let e = |r: ohmstack_core::Result<f64>| r.map_err(|e| e.to_string());
+        match field {
+            Field::Title => {
+                if text.chars().count() > 200 {
+                    return Err("title: longer than 200 characters".into());
+                }
+                p.title = text.to_string();
+            }
+            Field::AnalysisFreq => {
+                let f = bridge::parse_frequency_ghz("analysis frequency", text)?;
+                p.analysis_freq_hz = e(error::in_range("analysis frequency", f, 1.0, 1e12, "Hz"))?;
+            }
+            Field::MinTrace => {
+                let v = bridge::parse_length("minimum trace", text, unit)?;
+                p.fab.min_trace_m = e(error::length("minimum trace", v))?;
+            }
+            Field::MinSpace => {
+                let v = bridge::parse_length("minimum space", text, unit)?;
+                p.fab.min_space_m = e(error::length("minimum space", v))?;
+            }
+            Field::Layer(i, f) => {
+                let Some(layer) = p.stackup.layers.get_mut(i) else {
+                    return Err("this layer no longer exists".into());
+                };
+                let old_name = layer.name().to_string();
+                match (f, &mut *layer) {
+                    (LayerField::Name, layer) => rename_layer(layer, text.trim().to_string()),
+                    (LayerField::Thickness, Layer::Copper(c)) => {
+                        c.thickness_m = bridge::parse_length("thickness", text, unit)?
+                    }
+                    (
+                        LayerField::Thickness,
+                        Layer::Core(d) | Layer::Prepreg(d) | Layer::SolderMask(d),
+                    ) => d.thickness_m = bridge::parse_length("thickness", text, unit)?,
+                    (f, Layer::Core(d) | Layer::Prepreg(d) | Layer::SolderMask(d)) => match f {
+                        LayerField::Dk => d.dk = bridge::parse_number("dk", text, &[])?,
+                        LayerField::Df => d.df = bridge::parse_number("df", text, &[])?,
+                        LayerField::SpecFreq => {
+                            d.spec_freq_hz = bridge::parse_frequency_ghz("spec_freq", text)?
+                        }
+                        LayerField::Material => d.material = text.to_string(),
+                        LayerField::Name | LayerField::Thickness => {}
+                    },
+                    (_, Layer::Copper(_)) => return Err("copper has no such field".into()),
+                }
+                p.stackup.validate().map_err(|e| e.to_string())?;
+                let new_name = p.stackup.layers[i].name().to_string();
+                if new_name != old_name {
+                    for r in &mut p.rules {
+                        if r.layer == old_name {
+                            r.layer = new_name.clone();
+                        }
+                        if r.partner_layer.as_deref() == Some(&old_name) {
+                            r.partner_layer = Some(new_name.clone());
+                        }
+                        for reference in &mut r.references {
+                            if *reference == old_name {
+                                *reference = new_name.clone();
+                            }
+                        }
+                    }
+                }
+            }
+            Field::Rule(i, f) => {
+                let Some(rule) = p.rules.get_mut(i) else {
+                    return Err("this rule no longer exists".into());
+                };
+                match f {
+                    RuleField::Name => {
+                        if text.chars().count() > 80 {
+                            return Err("name: longer than 80 characters".into());
+                        }
+                        rule.name = text.to_string();
+                    }
+                    RuleField::Target => {
+                        let v = bridge::parse_number("target", text, &["ohm", "ohms", "Ω"])?;
+                        rule.target_ohm = e(error::in_range("target", v, 1.0, 1000.0, "Ω"))?;
+                    }
+                    RuleField::Tolerance => {
+                        let v = bridge::parse_number("tolerance", text, &["%"])?;
+                        rule.tolerance_pct = e(error::in_range("tolerance", v, 0.0, 100.0, "%"))?;
+                    }
+                    RuleField::Width => {
+                        let v = bridge::parse_length("width", text, unit)?;
+                        rule.width_m = e(error::length("width", v))?;
+                    }
+                    RuleField::Spacing => {
+                        let v = bridge::parse_length("spacing", text, unit)?;
+                        rule.spacing_m = Some(e(error::length("spacing", v))?);
+                    }
+                    RuleField::Gap => {
+                        let v = bridge::parse_length("gap", text, unit)?;
+                        rule.gap_m = Some(e(error::length("gap", v))?);
+                    }
+                }
+            }
+        }
+        Ok(p)
+    }
+
+    fn set_structure(rule: &mut ImpedanceRule, structure: Structure, project: &Project) {
+        rule.structure = structure;
+        if structure.is_pair() && structure != Structure::BroadsidePair && rule.spacing_m.is_none()
+        {
+            rule.spacing_m = Some(rule.width_m);
+        }
+        if matches!(structure, Structure::Coplanar | Structure::CoplanarPair)
+            && rule.gap_m.is_none()
+        {
+            rule.gap_m = Some(rule.width_m.max(project.fab.min_space_m));
+        }
+        if structure == Structure::BroadsidePair {
+            let ok = rule
+                .partner_layer
+                .as_deref()
+                .is_some_and(|p| p != rule.layer && project.stackup.find(p).is_some());
+            if !ok {
+                rule.partner_layer = bridge::broadside_partners(&project.stackup, &rule.layer)
+                    .into_iter()
+                    .next()
+                    .or_else(|| {
+                        project
+                            .stackup
+                            .layers
+                            .iter()
+                            .filter_map(|l| l.copper())
+                            .find(|c| c.name != rule.layer)
+                            .map(|c| c.name.clone())
+                    });
+            }
+        } else {
+            rule.partner_layer = None;
+        }
+        if rule.solve == Solve::Spacing
+            && !matches!(structure, Structure::EdgePair | Structure::CoplanarPair)
+        {
+            rule.solve = Solve::Width;
+        }
+    }
+
+    fn layer_action(&mut self, action: Action) {
+        let mut p = self.project.clone();
+        let n = p.stackup.layers.len();
+        match action {
+            Action::SetLayerKind(i, kind) => {
+                let Some(old) = p.stackup.layers.get(i).cloned() else {
+                    return;
+                };
+                if LayerKind::of(&old) == kind {
+                    return;
+                }
+                let name = old.name().to_string();
+                let dielectric = old.dielectric().cloned();
+                let mask = material::PRESETS
+                    .iter()
+                    .find(|m| m.used_for == PresetUse::Mask)
+                    .map(|m| m.id)
+                    .unwrap_or("fr4");
+                let base = |preset: &str, t: f64| {
+                    dielectric
+                        .clone()
+                        .unwrap_or_else(|| laminate(name.clone(), preset, t))
+                };
+                p.stackup.layers[i] = match kind {
+                    LayerKind::Copper => new_copper(name.clone()),
+                    LayerKind::Core => Layer::Core(base("fr4", 200e-6)),
+                    LayerKind::Prepreg => Layer::Prepreg(base("fr4", 100e-6)),
+                    LayerKind::SolderMask => Layer::SolderMask(base(mask, 20e-6)),
+                };
+            }
+            Action::SetCopperRole(i, role) => {
+                if let Some(Layer::Copper(c)) = p.stackup.layers.get_mut(i) {
+                    c.role = role;
+                }
+            }
+            Action::SetCopperWeight(i, oz) => {
+                if let Some(Layer::Copper(c)) = p.stackup.layers.get_mut(i) {
+                    c.thickness_m = oz * OZ_COPPER;
+                }
+            }
+            Action::ApplyPreset(i, id) => {
+                let (Some(preset), Some(layer)) =
+                    (material::preset(id), p.stackup.layers.get_mut(i))
+                else {
+                    return;
+                };
+                if let Layer::Core(d) | Layer::Prepreg(d) | Layer::SolderMask(d) = layer {
+                    d.material = preset.name.to_string();
+                    d.dk = preset.dk;
+                    d.df = preset.df;
+                    d.spec_freq_hz = preset.spec_freq_hz;
+                }
+            }
+            Action::InsertLayer(i) => {
+                if i >= n {
+                    return;
+                }
+                let layer = match &p.stackup.layers[i] {
+                    Layer::Copper(_) => {
+                        let name = unique_name(&p, "Prepreg");
+                        Layer::Prepreg(laminate(name, "fr4", 100e-6))
+                    }
+                    _ => new_copper(unique_name(&p, "Copper")),
+                };
+                p.stackup.layers.insert(i + 1, layer);
+            }
+            Action::AddLayer => {
+                let layer = match p.stackup.layers.last() {
+                    Some(Layer::Copper(_)) => {
+                        let name = unique_name(&p, "Prepreg");
+                        Layer::Prepreg(laminate(name, "fr4", 100e-6))
+                    }
+                    _ => new_copper(unique_name(&p, "Copper")),
+                };
+                p.stackup.layers.push(layer);
+            }
+            Action::RemoveLayer(i) => {
+                if n <= 1 {
+                    self.notice = Some(Notice {
+                        error: true,
+                        text: "a stack needs at least one layer".into(),
+                    });
+                    return;
+                }
+                if i < n {
+                    p.stackup.layers.remove(i);
+                }
+            }
+            Action::DuplicateLayer(i) => {
+                let Some(mut copy) = p.stackup.layers.get(i).cloned() else {
+                    return;
+                };
+                let name = unique_name(&p, &format!("{} copy", copy.name()));
+                rename_layer(&mut copy, name);
+                p.stackup.layers.insert(i + 1, copy);
+            }
+            Action::MoveLayer(i, up) => {
+                let j = if up { i.checked_sub(1) } else { Some(i + 1) };
+                match j {
+                    Some(j) if i < n && j < n => p.stackup.layers.swap(i, j),
+                    _ => return,
+                }
+            }
+            _ => return,
+        }
+        if p.stackup.layers.len() > ohmstack_core::stackup::MAX_LAYERS {
+            self.notice = Some(Notice {
+                error: true,
+                text: format!(
+                    "a stack may have at most {} layers",
+                    ohmstack_core::stackup::MAX_LAYERS
+                ),
+            });
+            return;
+        }
+        match p.stackup.validate() {
+            Ok(()) => self.structural(p),
+            Err(e) => {
+                self.notice = Some(Notice {
+                    error: true,
+                    text: e.to_string(),
+                })
+            }
+        }
+    }
+
+    fn rule_action(&mut self, action: Action) {
+        let mut p = self.project.clone();
+        let n = p.rules.len();
+        match action {
+            Action::AddRule => {
+                if n >= ohmstack_core::project::MAX_RULES {
+                    return;
+                }
+                let layer = p
+                    .stackup
+                    .layers
+                    .iter()
+                    .filter_map(|l| l.copper())
+                    .find(|c| c.role != CopperRole::Plane)
+                    .or_else(|| p.stackup.layers.iter().find_map(|l| l.copper()))
+                    .map(|c| c.name.clone())
+                    .unwrap_or_default();
+                let name = unique_rule_name(&p, "Single-ended 50 Ω");
+                p.rules.push(ImpedanceRule {
+                    name,
+                    layer,
+                    structure: Structure::Single,
+                    target_ohm: 50.0,
+                    tolerance_pct: 10.0,
+                    solve: Solve::Width,
+                    width_m: 150e-6,
+                    spacing_m: None,
+                    gap_m: None,
+                    partner_layer: None,
+                    references: Vec::new(),
+                });
+            }
+            Action::RemoveRule(i) if i < n => {
+                p.rules.remove(i);
+            }
+            Action::DuplicateRule(i) if i < n && n < ohmstack_core::project::MAX_RULES => {
+                let mut copy = p.rules[i].clone();
+                copy.name = unique_rule_name(&p, &format!("{} copy", copy.name));
+                p.rules.insert(i + 1, copy);
+            }
+            Action::SetRuleLayer(i, layer) if i < n => {
+                p.rules[i].layer = layer;
+                let structure = p.rules[i].structure;
+                let snapshot = p.clone();
+                State::set_structure(&mut p.rules[i], structure, &snapshot);
+            }
+            Action::SetRuleStructure(i, structure) if i < n => {
+                let snapshot = p.clone();
+                State::set_structure(&mut p.rules[i], structure, &snapshot);
+            }
+            Action::SetRuleSolve(i, solve) if i < n => {
+                let r = &mut p.rules[i];
+                if solve == Solve::Spacing
+                    && !matches!(r.structure, Structure::EdgePair | Structure::CoplanarPair)
+                {
+                    return;
+                }
+                r.solve = solve;
+            }
+            Action::SetRulePartner(i, partner) if i < n => {
+                p.rules[i].partner_layer = Some(partner);
+            }
+            _ => return,
+        }
+        self.structural(p);
+    }
+
+    fn step(&mut self, undo: bool) {
+        let (from, to) = if undo {
+            (&mut self.undo, &mut self.redo)
+        } else {
+            (&mut self.redo, &mut self.undo)
+        };
+        let Some(mut project) = from.pop() else {
+            return;
+        };
+        // The display unit is a view preference, not an edit: it survives undo.
+        project.units = self.project.units;
+        let current = std::mem::replace(&mut self.project, project);
+        to.push(current);
+        self.drafts.clear();
+        self.last_field = None;
+    }
 }
 
 impl Reducible for State {
     type Action = Action;
 
     fn reduce(self: Rc<Self>, action: Action) -> Rc<Self> {
+        let mut s = (*self).clone();
         match action {
-            Action::Load(project) => Rc::new(State { project: *project }),
+            Action::Edit(field, text) => s.edit(field, text),
+            Action::Blur(field) => {
+                if s.drafts.get(&field).is_some_and(|d| d.error.is_none()) {
+                    s.drafts.remove(&field);
+                }
+                s.last_field = None;
+            }
+            Action::SetUnit(unit) => {
+                // Only the display changes; valid drafts are re-shown in the new unit, stored metres stay as they are.
+                s.project.units = unit;
+                s.drafts.retain(|_, d| d.error.is_some());
+            }
+            a @ (Action::SetLayerKind(..)
+            | Action::SetCopperRole(..)
+            | Action::SetCopperWeight(..)
+            | Action::ApplyPreset(..)
+            | Action::InsertLayer(_)
+            | Action::AddLayer
+            | Action::RemoveLayer(_)
+            | Action::DuplicateLayer(_)
+            | Action::MoveLayer(..)) => s.layer_action(a),
+            a @ (Action::AddRule
+            | Action::RemoveRule(_)
+            | Action::DuplicateRule(_)
+            | Action::SetRuleLayer(..)
+            | Action::SetRuleStructure(..)
+            | Action::SetRuleSolve(..)
+            | Action::SetRulePartner(..)) => s.rule_action(a),
+            Action::Undo => s.step(true),
+            Action::Redo => s.step(false),
+            Action::Load(project, message) => {
+                s.structural(*project);
+                s.notice = Some(Notice {
+                    error: false,
+                    text: message,
+                });
+            }
+            Action::Notify(notice) => s.notice = notice,
         }
+        if s == *self {
+            self
+        } else {
+            Rc::new(s)
+        }
+    }
+}
+
+/// A blank project: one signal layer over a plane with a prepreg between, no rules.
+pub fn blank_project() -> Project {
+    let mut p = ohmstack_core::demo::project();
+    p.title = "Untitled".into();
+    p.revision = String::new();
+    p.rules.clear();
+    p.stackup.layers = vec![
+        new_copper("Top".into()),
+        Layer::Prepreg(laminate("Dielectric 1".into(), "fr4", 100e-6)),
+        Layer::Copper(Copper {
+            name: "Plane".into(),
+            thickness_m: OZ_COPPER,
+            role: CopperRole::Plane,
+            fill_pct: None,
+            roughness: None,
+        }),
+    ];
+    p
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn reduce(s: State, a: Action) -> State {
+        (*Rc::new(s).reduce(a)).clone()
+    }
+
+    fn thickness_of(s: &State, i: usize) -> f64 {
+        s.project.stackup.layers[i].thickness_m()
+    }
+
+    #[test]
+    fn valid_text_applies_in_the_display_unit() {
+        // PP1 is layer 2 of the demo; 5 mil = 127 µm exactly.
+        let mut s = State::default();
+        s.project.units = LengthUnit::Mil;
+        let s = reduce(
+            s,
+            Action::Edit(Field::Layer(2, LayerField::Thickness), "5".into()),
+        );
+        assert!((thickness_of(&s, 2) - 127e-6).abs() < 1e-15);
+        assert_eq!(s.undo.len(), 1);
+        assert!(!s.has_errors());
+    }
+
+    #[test]
+    fn invalid_text_keeps_the_design_and_names_the_field() {
+        let s0 = State::default();
+        let before = s0.project.clone();
+        for text in ["-1", "0", "abc", "1e9"] {
+            let s = reduce(
+                s0.clone(),
+                Action::Edit(Field::Layer(2, LayerField::Thickness), text.into()),
+            );
+            assert_eq!(s.project, before, "{text}");
+            let d = &s.drafts[&Field::Layer(2, LayerField::Thickness)];
+            assert_eq!(d.text, text);
+            let msg = d.error.as_deref().unwrap_or_default();
+            assert!(msg.contains("thickness"), "{text}: {msg}");
+            assert!(s.has_errors());
+        }
+    }
+
+    #[test]
+    fn partial_text_is_kept_verbatim() {
+        let s = reduce(
+            State::default(),
+            Action::Edit(Field::Rule(0, RuleField::Width), "0.".into()),
+        );
+        assert_eq!(s.drafts[&Field::Rule(0, RuleField::Width)].text, "0.");
+    }
+
+    #[test]
+    fn typing_in_one_field_is_one_undo_step() {
+        let mut s = State::default();
+        let original = s.project.clone();
+        for text in ["1", "13", "130"] {
+            s = reduce(
+                s,
+                Action::Edit(Field::Layer(2, LayerField::Thickness), text.into()),
+            );
+        }
+        let after_first = s.project.clone();
+        s = reduce(s, Action::Blur(Field::Layer(2, LayerField::Thickness)));
+        s = reduce(
+            s,
+            Action::Edit(Field::Layer(2, LayerField::Dk), "4.5".into()),
+        );
+        assert_eq!(s.undo.len(), 2);
+        s = reduce(s, Action::Undo);
+        assert_eq!(s.project, after_first);
+        s = reduce(s, Action::Undo);
+        assert_eq!(s.project, original);
+        s = reduce(s, Action::Redo);
+        assert_eq!(s.project, after_first);
+    }
+
+    #[test]
+    fn history_is_bounded() {
+        let mut s = State::default();
+        for k in 0..(HISTORY_LIMIT + 20) {
+            s = reduce(
+                s,
+                Action::Edit(
+                    Field::Rule(0, RuleField::Target),
+                    format!("{}", 40 + k % 20),
+                ),
+            );
+            s = reduce(s, Action::Blur(Field::Rule(0, RuleField::Target)));
+        }
+        assert_eq!(s.undo.len(), HISTORY_LIMIT);
+    }
+
+    #[test]
+    fn renaming_a_layer_renames_it_in_rules() {
+        let s = reduce(
+            State::default(),
+            Action::Edit(Field::Layer(1, LayerField::Name), "Top signal".into()),
+        );
+        assert_eq!(s.project.stackup.layers[1].name(), "Top signal");
+        assert!(s.project.rules.iter().all(|r| r.layer != "L1 Top"));
+        assert_eq!(s.project.rules[0].layer, "Top signal");
+        // A duplicate name is refused with the core's message and nothing changes.
+        let s2 = reduce(
+            s.clone(),
+            Action::Edit(Field::Layer(1, LayerField::Name), "L2 GND".into()),
+        );
+        assert_eq!(s2.project, s.project);
+        assert!(s2.drafts.values().any(|d| d
+            .error
+            .as_deref()
+            .is_some_and(|e| e.contains("already used"))));
+    }
+
+    #[test]
+    fn unit_switch_leaves_values_bit_identical() {
+        let s0 = State::default();
+        let mut s = s0.clone();
+        for u in [
+            LengthUnit::Mm,
+            LengthUnit::Mil,
+            LengthUnit::In,
+            LengthUnit::Um,
+        ] {
+            s = reduce(s, Action::SetUnit(u));
+        }
+        assert_eq!(s.project.stackup, s0.project.stackup);
+        assert_eq!(s.project.rules, s0.project.rules);
+        assert!(s.undo.is_empty());
+    }
+
+    #[test]
+    fn layers_move_duplicate_insert_and_remove() {
+        let s0 = State::default();
+        let n = s0.project.stackup.layers.len();
+        let s = reduce(s0.clone(), Action::MoveLayer(2, true));
+        assert_eq!(s.project.stackup.layers[1].name(), "PP1");
+        let s = reduce(s, Action::MoveLayer(0, true));
+        assert_eq!(s.project.stackup.layers[0].name(), "Top mask");
+        let s = reduce(s0.clone(), Action::DuplicateLayer(2));
+        assert_eq!(s.project.stackup.layers.len(), n + 1);
+        assert_eq!(s.project.stackup.layers[3].name(), "PP1 copy");
+        let s = reduce(s, Action::InsertLayer(3));
+        assert!(matches!(s.project.stackup.layers[4], Layer::Copper(_)));
+        let s = reduce(s, Action::RemoveLayer(4));
+        let s = reduce(s, Action::RemoveLayer(3));
+        assert_eq!(s.project.stackup, s0.project.stackup);
+        let one = State::new(Project {
+            stackup: ohmstack_core::Stackup {
+                layers: vec![new_copper("Only".into())],
+            },
+            ..blank_project()
+        });
+        let s = reduce(one.clone(), Action::RemoveLayer(0));
+        assert_eq!(s.project, one.project);
+        assert!(s.notice.is_some_and(|n| n.error));
+    }
+
+    #[test]
+    fn kind_change_keeps_dielectric_values_and_presets_apply() {
+        let s = reduce(State::default(), Action::SetLayerKind(2, LayerKind::Core));
+        let d = s.project.stackup.layers[2].dielectric().unwrap().clone();
+        assert!(matches!(s.project.stackup.layers[2], Layer::Core(_)));
+        assert_eq!(d.dk, 4.0);
+        let s = reduce(s, Action::ApplyPreset(2, "ptfe-ceramic"));
+        let p = material::preset("ptfe-ceramic").unwrap();
+        let d = s.project.stackup.layers[2].dielectric().unwrap();
+        assert_eq!((d.dk, d.df, d.material.as_str()), (p.dk, p.df, p.name));
+        let s = reduce(s, Action::SetCopperWeight(1, 2.0));
+        assert!((s.project.stackup.layers[1].thickness_m() - 2.0 * OZ_COPPER).abs() < 1e-18);
+    }
+
+    #[test]
+    fn structure_change_fills_what_it_needs() {
+        let s = reduce(
+            State::default(),
+            Action::SetRuleStructure(0, Structure::CoplanarPair),
+        );
+        let r = &s.project.rules[0];
+        assert!(r.spacing_m.is_some() && r.gap_m.is_some());
+        assert!(r.validate(&s.project.stackup).is_ok());
+        let s = reduce(s, Action::SetRuleSolve(0, Solve::Spacing));
+        let s = reduce(s, Action::SetRuleStructure(0, Structure::Single));
+        assert_eq!(s.project.rules[0].solve, Solve::Width);
+        let s = reduce(s, Action::SetRuleLayer(0, "L3 Inner".into()));
+        let s = reduce(s, Action::SetRuleStructure(0, Structure::BroadsidePair));
+        assert_eq!(
+            s.project.rules[0].partner_layer.as_deref(),
+            Some("L4 Inner")
+        );
+    }
+
+    #[test]
+    fn rules_add_duplicate_remove() {
+        let s0 = State::default();
+        let n = s0.project.rules.len();
+        let s = reduce(s0.clone(), Action::AddRule);
+        assert_eq!(s.project.rules.len(), n + 1);
+        assert!(s.project.validate().is_ok());
+        let s = reduce(s, Action::DuplicateRule(0));
+        assert_eq!(
+            s.project.rules[1].name,
+            format!("{} copy", s0.project.rules[0].name)
+        );
+        let s = reduce(s, Action::RemoveRule(1));
+        let s = reduce(s, Action::RemoveRule(n));
+        assert_eq!(s.project.rules, s0.project.rules);
+    }
+
+    #[test]
+    fn load_is_undoable_and_blank_is_valid() {
+        let blank = blank_project();
+        assert!(blank.validate().is_ok());
+        let s = reduce(
+            State::default(),
+            Action::Load(Box::new(blank.clone()), "new".into()),
+        );
+        assert_eq!(s.project, blank);
+        let s = reduce(s, Action::Undo);
+        assert_eq!(s.project, ohmstack_core::demo::project());
     }
 }

@@ -1,0 +1,9 @@
+//! The app's panels, one per file; each gets plain data plus a `Callback<Action>` and never calls the core.
+
+pub mod layers;
+pub mod rules;
+pub mod toolbar;
+
+pub use layers::Layers;
+pub use rules::Rules;
+pub use toolbar::Toolbar;

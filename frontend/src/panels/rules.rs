@@ -1,0 +1,244 @@
+//! The impedance rules: one card per controlled net class, its inputs on top and its computed figures below.
+
+use crate::bridge;
+use crate::state::{Action, Draft, Field, RuleField};
+use crate::widgets::{Select, TextField};
+use ohmstack_core::project::{Solve, Structure};
+use ohmstack_core::units::format_sig;
+use ohmstack_core::{Plan, Project, RuleOutcome, RuleResult};
+use std::collections::BTreeMap;
+use std::rc::Rc;
+use yew::prelude::*;
+
+#[derive(Properties, PartialEq)]
+pub struct RulesProps {
+    pub project: Rc<Project>,
+    pub drafts: Rc<BTreeMap<Field, Draft>>,
+    pub plan: Option<Rc<Plan>>,
+    /// True when the figures are from the last good entry, not the current text.
+    pub stale: bool,
+    pub dispatch: Callback<Action>,
+}
+
+fn structure_key(s: Structure) -> &'static str {
+    match s {
+        Structure::Single => "single",
+        Structure::EdgePair => "edge_pair",
+        Structure::BroadsidePair => "broadside_pair",
+        Structure::Coplanar => "coplanar",
+        Structure::CoplanarPair => "coplanar_pair",
+    }
+}
+
+fn solve_key(s: Solve) -> &'static str {
+    match s {
+        Solve::Width => "width",
+        Solve::Spacing => "spacing",
+        Solve::Nothing => "nothing",
+    }
+}
+
+/// One labelled figure of the results strip.
+fn figure(i: usize, key: &str, label: &str, text: String, value: Option<f64>) -> Html {
+    html! {
+        <div class="figure">
+            <span class="fig-label">{ label.to_string() }</span>
+            <span class="fig-value" data-testid={format!("rule-{i}-{key}")} data-value={value.map(|v| v.to_string())}>{ text }</span>
+        </div>
+    }
+}
+
+fn results(i: usize, r: &RuleResult, project: &Project) -> Html {
+    let unit = project.units;
+    let pair = bridge::z_common(r).is_some();
+    let solved = |what: &str| r.solved == Some(what);
+    let mark = |what: &str| if solved(what) { " (solved)" } else { "" };
+    let delay_ps_per_mm = r.delay_s_per_m * 1e9;
+    let delay_ps_per_in = r.delay_s_per_m * 0.0254 * 1e12;
+    let z_label = if pair { "Zdiff (Ω)" } else { "Z0 (Ω)" };
+    let verdict = if r.within_tolerance {
+        html! { <span class="badge ok" data-testid={format!("rule-{i}-verdict")}>{ format!("within ±{}%", format_sig(r.tolerance_pct, 3)) }</span> }
+    } else {
+        html! { <span class="badge bad" data-testid={format!("rule-{i}-verdict")}>{ format!("outside ±{}%", format_sig(r.tolerance_pct, 3)) }</span> }
+    };
+    html! {
+        <div class="rule-results">
+            <div class="figures">
+                { figure(i, "width", &format!("Width{}", mark("width")), bridge::length_label(r.width_m, unit), Some(r.width_m)) }
+                if let (Some(s), true) = (r.spacing_m, pair) {
+                    { figure(i, "spacing", &format!("Spacing{}", mark("spacing")), bridge::length_label(s, unit), Some(s)) }
+                }
+                if let (Some(g), true) = (r.gap_m, r.structure.contains("coplanar")) {
+                    { figure(i, "gap", "Gap to ground", bridge::length_label(g, unit), Some(g)) }
+                }
+                <div class="figure main">
+                    <span class="fig-label">{ z_label }</span>
+                    <span class="fig-value" data-testid={format!("rule-{i}-impedance")} data-value={r.impedance_ohm.to_string()}>{ format!("{:.2}", r.impedance_ohm) }</span>
+                </div>
+                if let Some(zc) = bridge::z_common(r) {
+                    { figure(i, "zcommon", "Zcommon (Ω)", format!("{zc:.2}"), Some(zc)) }
+                }
+                { figure(i, "deviation", "vs target", format!("{:+.2}%", r.deviation_pct), Some(r.deviation_pct)) }
+                { figure(i, "eps-eff", "Dk eff", format!("{:.3}", r.eps_eff), Some(r.eps_eff)) }
+                { figure(i, "delay", "Delay (ps/mm)", format!("{delay_ps_per_mm:.3}"), Some(delay_ps_per_mm)) }
+                { figure(i, "delay-in", "Delay (ps/in)", format!("{delay_ps_per_in:.1}"), Some(delay_ps_per_in)) }
+                { figure(i, "gamma", "Γ vs target", if r.gamma.abs() < 1e-3 { format!("{:+.1e}", r.gamma) } else { format!("{:+.4}", r.gamma) }, Some(r.gamma)) }
+                { figure(i, "return-loss", "Return loss (dB)", if r.return_loss_db > 100.0 { "> 100".into() } else { format!("{:.1}", r.return_loss_db) }, Some(r.return_loss_db).filter(|v| v.is_finite())) }
+                if let Some((f, db_in, db_cm)) = bridge::loss_at(r) {
+                    { figure(i, "loss", &format!("Loss at {} GHz", format_sig(f / 1e9, 4)), format!("{db_in:.3} dB/in ({db_cm:.3} dB/cm)"), Some(db_in)) }
+                }
+                if let Some((lo, hi, yield_pct)) = bridge::spread_of(r) {
+                    { figure(i, "spread", "Spread (Ω)", match yield_pct {
+                        Some(y) => format!("{lo:.2}–{hi:.2}, yield {y:.1}%"),
+                        None => format!("{lo:.2}–{hi:.2}"),
+                    }, None) }
+                }
+            </div>
+            <div class="rule-notes">
+                { verdict }
+                <span class="family">{ format!("{} · {}", r.family, r.method) }</span>
+                if r.references.is_empty() {
+                    <span class="refs">{ " · no reference plane" }</span>
+                } else {
+                    <span class="refs">{ format!(" · referenced to {}", r.references.join(" and ")) }</span>
+                }
+                if r.warnings.is_empty() {
+                    <span class="badge ok" data-testid={format!("rule-{i}-validity")} data-value="0">{ "inside the model's fit" }</span>
+                } else {
+                    <span class="badge warn" data-testid={format!("rule-{i}-validity")} data-value={r.warnings.len().to_string()}>{ format!("{} note{}", r.warnings.len(), if r.warnings.len() == 1 { "" } else { "s" }) }</span>
+                    <ul class="warnings" data-testid={format!("rule-{i}-warnings")}>
+                        { for r.warnings.iter().map(|w| html! { <li>{ w.message.clone() }</li> }) }
+                    </ul>
+                }
+            </div>
+        </div>
+    }
+}
+
+#[component]
+pub fn Rules(props: &RulesProps) -> Html {
+    let project = &props.project;
+    let unit = project.units;
+    let d = &props.dispatch;
+    let draft = |f: Field| props.drafts.get(&f).cloned();
+    let coppers: Vec<String> = project
+        .stackup
+        .layers
+        .iter()
+        .filter_map(|l| l.copper())
+        .map(|c| c.name.clone())
+        .collect();
+    let cards = project.rules.iter().enumerate().map(|(i, rule)| {
+        let title = if rule.name.trim().is_empty() { format!("Rule {}", i + 1) } else { rule.name.clone() };
+        let mut layer_options: Vec<(AttrValue, AttrValue)> =
+            coppers.iter().map(|c| (AttrValue::from(c.clone()), AttrValue::from(c.clone()))).collect();
+        if !coppers.contains(&rule.layer) {
+            layer_options.insert(0, (rule.layer.clone().into(), format!("{} (missing)", rule.layer).into()));
+        }
+        let allowed = bridge::structures_for(&project.stackup, &rule.layer);
+        let structure_options: Vec<(AttrValue, AttrValue)> = Structure::ALL
+            .into_iter()
+            .filter(|s| allowed.contains(s) || *s == rule.structure)
+            .map(|s| {
+                let label = if allowed.contains(&s) { s.label().to_string() } else { format!("{} (not possible on this layer)", s.label()) };
+                (AttrValue::from(structure_key(s)), AttrValue::from(label))
+            })
+            .collect();
+        let spacing_solvable = matches!(rule.structure, Structure::EdgePair | Structure::CoplanarPair);
+        let mut solve_options: Vec<(AttrValue, AttrValue)> = vec![("width".into(), "width".into())];
+        if spacing_solvable {
+            solve_options.push(("spacing".into(), "spacing".into()));
+        }
+        solve_options.push(("nothing".into(), "nothing (analyse as drawn)".into()));
+        let on_layer = { let d = d.clone(); Callback::from(move |v: String| d.emit(Action::SetRuleLayer(i, v))) };
+        let on_structure = {
+            let d = d.clone();
+            Callback::from(move |v: String| {
+                if let Some(s) = Structure::ALL.into_iter().find(|s| structure_key(*s) == v) {
+                    d.emit(Action::SetRuleStructure(i, s))
+                }
+            })
+        };
+        let on_solve = {
+            let d = d.clone();
+            Callback::from(move |v: String| {
+                let s = match v.as_str() { "spacing" => Solve::Spacing, "nothing" => Solve::Nothing, _ => Solve::Width };
+                d.emit(Action::SetRuleSolve(i, s))
+            })
+        };
+        let on_partner = { let d = d.clone(); Callback::from(move |v: String| d.emit(Action::SetRulePartner(i, v))) };
+        let len = |f: RuleField, label: &str, m: f64| html! {
+            <TextField field={Field::Rule(i, f)} label={format!("{label} ({})", unit.symbol())} size="narrow"
+                value={bridge::length_text(m, unit)} draft={draft(Field::Rule(i, f))} dispatch={d.clone()} />
+        };
+        let width_label = if rule.solve == Solve::Width { "Start width" } else { "Width" };
+        let spacing_label = if rule.solve == Solve::Spacing { "Start spacing" } else { "Spacing" };
+        let outcome = props.plan.as_ref().and_then(|p| p.rules.get(i));
+        let body = match outcome {
+            Some(RuleOutcome::Ok(r)) => results(i, r, project),
+            Some(RuleOutcome::Error { message, .. }) => html! {
+                <p class="error rule-error" data-testid={format!("rule-{i}-error")}>{ message.clone() }</p>
+            },
+            None => html! {},
+        };
+        let (dup, remove) = {
+            let (d1, d2) = (d.clone(), d.clone());
+            (Callback::from(move |_: MouseEvent| d1.emit(Action::DuplicateRule(i))), Callback::from(move |_: MouseEvent| d2.emit(Action::RemoveRule(i))))
+        };
+        let partners = if rule.structure == Structure::BroadsidePair {
+            let mut options: Vec<(AttrValue, AttrValue)> = bridge::broadside_partners(&project.stackup, &rule.layer)
+                .into_iter()
+                .map(|p| (AttrValue::from(p.clone()), AttrValue::from(p)))
+                .collect();
+            let current = rule.partner_layer.clone().unwrap_or_default();
+            if !options.iter().any(|(v, _)| v.as_str() == current) {
+                options.insert(0, (current.clone().into(), format!("{current} (not usable)").into()));
+            }
+            html! { <Select id={format!("rule-{i}-partner")} label="Second trace on" options={options} selected={current} onchange={on_partner} /> }
+        } else {
+            html! {}
+        };
+        html! {
+            <li class={classes!("rule-card", props.stale.then_some("stale"))} data-testid={format!("rule-card-{i}")} aria-label={title.clone()}>
+                <div class="rule-inputs">
+                    <TextField field={Field::Rule(i, RuleField::Name)} label="Net class" size="wide" value={rule.name.clone()}
+                        draft={draft(Field::Rule(i, RuleField::Name))} dispatch={d.clone()} />
+                    <Select id={format!("rule-{i}-layer")} label="Layer" options={layer_options} selected={rule.layer.clone()} onchange={on_layer} />
+                    <Select id={format!("rule-{i}-structure")} label="Structure" options={structure_options} selected={structure_key(rule.structure)} onchange={on_structure} />
+                    { partners }
+                    <TextField field={Field::Rule(i, RuleField::Target)} label={if rule.structure.is_pair() { "Target Zdiff (Ω)" } else { "Target Z0 (Ω)" }} size="narrow"
+                        value={format_sig(rule.target_ohm, 6)} draft={draft(Field::Rule(i, RuleField::Target))} dispatch={d.clone()} />
+                    <TextField field={Field::Rule(i, RuleField::Tolerance)} label="± (%)" size="narrow"
+                        value={format_sig(rule.tolerance_pct, 6)} draft={draft(Field::Rule(i, RuleField::Tolerance))} dispatch={d.clone()} />
+                    <Select id={format!("rule-{i}-solve")} label="Solve for" options={solve_options} selected={solve_key(rule.solve)} onchange={on_solve} />
+                    { len(RuleField::Width, width_label, rule.width_m) }
+                    if let (Some(s), true) = (rule.spacing_m, matches!(rule.structure, Structure::EdgePair | Structure::CoplanarPair)) {
+                        { len(RuleField::Spacing, spacing_label, s) }
+                    }
+                    if let (Some(g), true) = (rule.gap_m, matches!(rule.structure, Structure::Coplanar | Structure::CoplanarPair)) {
+                        { len(RuleField::Gap, "Gap to ground", g) }
+                    }
+                    <div class="card-actions no-print">
+                        <button type="button" id={format!("rule-{i}-dup")} aria-label={format!("Duplicate rule {title}")} title="Duplicate" onclick={dup}>{ "Duplicate" }</button>
+                        <button type="button" id={format!("rule-{i}-remove")} aria-label={format!("Remove rule {title}")} title="Remove" onclick={remove}>{ "Remove" }</button>
+                    </div>
+                </div>
+                { body }
+            </li>
+        }
+    });
+    let add = {
+        let d = d.clone();
+        Callback::from(move |_: MouseEvent| d.emit(Action::AddRule))
+    };
+    html! {
+        <section class="panel" aria-labelledby="rules-title">
+            <h2 id="rules-title">{ "Impedance rules" }<span class="sub">{ " one per controlled net class" }</span></h2>
+            if props.stale {
+                <p class="stale-note" role="status" data-testid="stale-note">{ "Figures below are from the last valid entry; fix the marked field to update them." }</p>
+            }
+            <ol class="rules">{ for cards }</ol>
+            <p class="no-print"><button type="button" id="add-rule" onclick={add}>{ "Add rule" }</button></p>
+        </section>
+    }
+}
