@@ -225,10 +225,10 @@ fn analyze(args: &[String]) -> Result<()> {
                     format!(
                         "{} {}",
                         r.family,
-                        if r.structure == "single-ended" {
-                            ""
-                        } else {
-                            r.structure
+                        match r.structure {
+                            "single-ended" | "coplanar single-ended" => "",
+                            "coplanar pair" => "pair",
+                            other => other,
                         }
                     ),
                     format_length(r.width_m, unit),

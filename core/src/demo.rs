@@ -124,7 +124,7 @@ pub fn project() -> Project {
         50.0,
         250.0,
     );
-    rf.gap_m = Some(200e-6);
+    rf.gap_m = Some(145e-6);
     Project {
         schema: SCHEMA_VERSION,
         title: "Buoy sensor gateway, 6 layers".into(),
