@@ -240,3 +240,47 @@ mod tests {
         assert_eq!(broadside_partners(&p.stackup, "L3 Inner"), vec!["L4 Inner"]);
     }
 }
+
+/// A field check of one rule, run in slices by the rule card.
+pub type FieldJob = ohmstack_core::field::rules::RuleFieldJob;
+
+/// What the rule card shows of a finished field check.
+#[derive(Debug, Clone, PartialEq)]
+pub struct FieldSummary {
+    pub field_ohm: f64,
+    pub error_pct: f64,
+    pub difference_pct: Option<f64>,
+    pub band_pct: Option<f64>,
+    pub outside_band: bool,
+    pub notes: Vec<String>,
+}
+
+/// Starts the field check of rule `index` with the solver's default accuracy.
+pub fn field_job(project: &Project, index: usize) -> Result<FieldJob, String> {
+    let rule = project
+        .rules
+        .get(index)
+        .ok_or_else(|| format!("no rule {index}"))?;
+    FieldJob::start(project, rule, ohmstack_core::field::FieldOptions::default())
+        .map_err(|e| e.to_string())
+}
+
+/// The finished check in plain figures (an unfinished job reads as an error).
+pub fn field_summary(job: &FieldJob) -> Result<FieldSummary, String> {
+    let check = job
+        .finish()
+        .ok_or("the field solve has not finished")?
+        .map_err(|e| e.to_string())?;
+    let c = &check.comparison;
+    let outside_band = matches!((c.difference_pct, c.band_pct), (Some(d), Some(b)) if d.abs() > b + c.field_error_pct);
+    let mut notes: Vec<String> = c.warnings.iter().map(|w| w.message.clone()).collect();
+    notes.extend(check.field.warnings.iter().map(|w| w.message.clone()));
+    Ok(FieldSummary {
+        field_ohm: c.field_ohm,
+        error_pct: c.field_error_pct,
+        difference_pct: c.difference_pct,
+        band_pct: c.band_pct,
+        outside_band,
+        notes,
+    })
+}

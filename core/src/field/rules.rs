@@ -1,7 +1,7 @@
 //! Closed form against field solve for the rules of a project: each rule's solved dimensions are re-analysed by the
 //! field solver (with the project's etch factor) and the two controlled impedances compared.
 
-use super::{compare, solve_cross_section, Comparison, FieldOptions, FieldResult};
+use super::{build, compare, Comparison, FieldOptions, FieldResult, FieldSolve, Progress};
 use crate::cross_section;
 use crate::error::Result;
 use crate::models::Dims;
@@ -26,58 +26,120 @@ pub struct RuleCheck {
     pub field: FieldResult,
 }
 
-/// Field-checks one rule of `project`.
+/// A field check of one rule that runs in slices, so a browser page stays responsive: [`RuleFieldJob::start`],
+/// then [`RuleFieldJob::step`] until `done`, then [`RuleFieldJob::finish`]. [`check_rule`] runs it in one go.
+pub struct RuleFieldJob {
+    solve: FieldSolve,
+    name: String,
+    layer: String,
+    family: &'static str,
+    structure: &'static str,
+    dims: Dims,
+    etch: Option<f64>,
+    closed: Option<(&'static str, f64)>,
+    notes: Vec<Warning>,
+}
+
+impl RuleFieldJob {
+    /// Resolves the rule, takes the closed form's solved dimensions (or the rule's own when there is no closed
+    /// form), and sets up the field solve.
+    pub fn start(
+        project: &Project,
+        rule: &ImpedanceRule,
+        options: FieldOptions,
+    ) -> Result<RuleFieldJob> {
+        rule.validate(&project.stackup)?;
+        let cs = cross_section::resolve(&project.stackup, rule)?;
+        let mut notes = Vec::new();
+        let (dims, closed) = match analyze_rule(project, rule) {
+            Ok(r) => (
+                Dims {
+                    w: r.width_m,
+                    s: r.spacing_m,
+                    gap: r.gap_m,
+                },
+                Some((r.method, r.impedance_ohm)),
+            ),
+            Err(e) => {
+                notes.push(Warning::new(format!(
+                    "no closed-form result ({e}); the field solve uses the rule's dimensions as given"
+                )));
+                (
+                    Dims {
+                        w: rule.width_m,
+                        s: rule.spacing_m,
+                        gap: rule.gap_m,
+                    },
+                    None,
+                )
+            }
+        };
+        let etch = project.fab.etch_factor;
+        if etch.is_some() && closed.is_some() {
+            notes.push(Warning::new(
+                "the field solve models the etched (trapezoidal) trace; the closed form may not",
+            ));
+        }
+        let solve = FieldSolve::new(build(&cs, rule.structure, &dims, etch)?, options)?;
+        Ok(RuleFieldJob {
+            solve,
+            name: rule.name.clone(),
+            layer: rule.layer.clone(),
+            family: cs.family_for(rule.structure),
+            structure: rule.structure.label(),
+            dims,
+            etch,
+            closed,
+            notes,
+        })
+    }
+
+    /// Does about `work_budget` units of work (see [`FieldSolve::step`]).
+    pub fn step(&mut self, work_budget: usize) -> Progress {
+        self.solve.step(work_budget)
+    }
+
+    /// The check, once the solve is done.
+    pub fn finish(&self) -> Option<Result<RuleCheck>> {
+        let field = match self.solve.result()? {
+            Ok(f) => f,
+            Err(e) => return Some(Err(e)),
+        };
+        let mut comparison = compare(self.closed, field.controlled_ohm, field.error_estimate_pct);
+        comparison.warnings.extend(self.notes.iter().cloned());
+        Some(Ok(RuleCheck {
+            name: self.name.clone(),
+            layer: self.layer.clone(),
+            family: self.family,
+            structure: self.structure,
+            width_m: self.dims.w,
+            spacing_m: self.dims.s,
+            gap_m: self.dims.gap,
+            etch_factor: self.etch,
+            comparison,
+            field,
+        }))
+    }
+}
+
+/// Field-checks one rule of `project` (blocking; bounded by the options' caps).
 pub fn check_rule(
     project: &Project,
     rule: &ImpedanceRule,
     options: FieldOptions,
 ) -> Result<RuleCheck> {
-    rule.validate(&project.stackup)?;
-    let cs = cross_section::resolve(&project.stackup, rule)?;
-    let mut notes = Vec::new();
-    let (dims, closed) = match analyze_rule(project, rule) {
-        Ok(r) => (
-            Dims {
-                w: r.width_m,
-                s: r.spacing_m,
-                gap: r.gap_m,
-            },
-            Some((r.method, r.impedance_ohm)),
-        ),
-        Err(e) => {
-            notes.push(Warning::new(format!(
-                "no closed-form result ({e}); the field solve uses the rule's dimensions as given"
-            )));
-            (
-                Dims {
-                    w: rule.width_m,
-                    s: rule.spacing_m,
-                    gap: rule.gap_m,
-                },
-                None,
-            )
+    let mut job = RuleFieldJob::start(project, rule, options)?;
+    loop {
+        if job.step(usize::MAX / 4).done {
+            break;
         }
-    };
-    let etch = project.fab.etch_factor;
-    let field = solve_cross_section(&cs, rule.structure, &dims, etch, options)?;
-    let mut comparison = compare(closed, field.controlled_ohm, field.error_estimate_pct);
-    if etch.is_some() && closed.is_some() {
-        notes.push(Warning::new(
-            "the field solve models the etched (trapezoidal) trace; the closed form may not",
-        ));
     }
-    comparison.warnings.extend(notes);
-    Ok(RuleCheck {
-        name: rule.name.clone(),
-        layer: rule.layer.clone(),
-        family: cs.family(),
-        structure: rule.structure.label(),
-        width_m: dims.w,
-        spacing_m: dims.s,
-        gap_m: dims.gap,
-        etch_factor: etch,
-        comparison,
-        field,
+    job.finish().unwrap_or_else(|| {
+        Err(crate::error::Error::NotConverged {
+            what: "field solve".into(),
+            iterations: 0,
+            residual: f64::NAN,
+        })
     })
 }
 

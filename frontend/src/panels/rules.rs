@@ -224,6 +224,7 @@ pub fn Rules(props: &RulesProps) -> Html {
                     </div>
                 </div>
                 { body }
+                <super::FieldCheck project={props.project.clone()} index={i} />
             </li>
         }
     });
