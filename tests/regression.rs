@@ -45,3 +45,89 @@ fn hostile_project_json_is_a_typed_error() {
         assert!(Project::from_json(text).is_err(), "{text:.60} parsed");
     }
 }
+
+/// Found by the CLI hostile-input suite (cli/tests/hostile.rs): a subnormal width (1e-320 m) passed the
+/// "positive" check and every model returned `Ok` with a NaN impedance. Lengths now have a 1e-15 m floor.
+#[test]
+fn hostile_cli_subnormal_width_is_an_error_not_nan() {
+    use ohmstack_core::case;
+    use std::collections::BTreeMap;
+    for (field, value) in [
+        ("width", "1e-320"),
+        ("height", "1e-320"),
+        ("thickness", "1e-320"),
+        ("width", "1e-16"),
+    ] {
+        let mut fields: BTreeMap<String, String> = [
+            ("width", "0.3mm"),
+            ("height", "0.17mm"),
+            ("thickness", "35um"),
+            ("dk", "4.2"),
+        ]
+        .into_iter()
+        .map(|(k, v)| (k.to_string(), v.to_string()))
+        .collect();
+        fields.insert(field.into(), value.into());
+        let result = case::parse("microstrip", &fields).and_then(|c| c.analyze());
+        assert!(result.is_err(), "{field} = {value} accepted: {result:?}");
+    }
+}
+
+/// The extremes that remain legal (1e-15 m to 0.5 m in any combination) give finite figures or a typed error.
+#[test]
+fn legal_extreme_lengths_give_finite_results_or_errors() {
+    use ohmstack_core::case;
+    use std::collections::BTreeMap;
+    let kinds = [
+        "microstrip",
+        "coated-microstrip",
+        "embedded-microstrip",
+        "stripline",
+        "edge-coupled-microstrip",
+        "edge-coupled-stripline",
+        "broadside-stripline",
+        "coplanar",
+        "grounded-coplanar",
+        "coplanar-pair",
+        "grounded-coplanar-pair",
+    ];
+    for kind in kinds {
+        for w in ["1e-15", "0.5"] {
+            for h in ["1e-15", "0.5"] {
+                let fields: BTreeMap<String, String> = [
+                    ("width", w),
+                    ("height", h),
+                    ("height2", h),
+                    ("thickness", "0"),
+                    ("dk", "4"),
+                    ("spacing", w),
+                    ("gap", w),
+                    ("separation", h),
+                    ("mask-thickness", h),
+                    ("mask-dk", "3.5"),
+                    ("cover", h),
+                    ("cover-dk", "4"),
+                ]
+                .into_iter()
+                .map(|(k, v)| (k.to_string(), v.to_string()))
+                .collect();
+                // Keep only the fields the kind knows (parse rejects the others by name).
+                let mut own = fields.clone();
+                loop {
+                    match case::parse(kind, &own) {
+                        Err(ohmstack_core::Error::Invalid { field, reason })
+                            if reason.starts_with("not a field") =>
+                        {
+                            own.remove(&field);
+                        }
+                        _ => break,
+                    }
+                }
+                if let Ok(e) = case::parse(kind, &own).and_then(|c| c.analyze()) {
+                    let z = e.analysis.controlled();
+                    assert!(z.is_finite() && z > 0.0, "{kind} w={w} h={h}: Z = {z}");
+                }
+            }
+        }
+    }
+}

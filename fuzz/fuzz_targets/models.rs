@@ -76,8 +76,16 @@ fuzz_target!(|data: &[u8]| {
     let structure = n.pick(&Structure::ALL);
     let dims = Dims {
         w: n.f64_near(150e-6),
-        s: if n.bool() { Some(n.f64_near(150e-6)) } else { None },
-        gap: if n.bool() { Some(n.f64_near(150e-6)) } else { None },
+        s: if n.bool() {
+            Some(n.f64_near(150e-6))
+        } else {
+            None
+        },
+        gap: if n.bool() {
+            Some(n.f64_near(150e-6))
+        } else {
+            None
+        },
     };
     let evaluated = models::evaluate(&cs, structure, &dims);
     if let Ok(e) = &evaluated {
@@ -101,12 +109,7 @@ fuzz_target!(|data: &[u8]| {
     }
     // Loss with fuzzed material data.
     let model_kind = n.pick(&[DielectricModel::Wideband, DielectricModel::Constant]);
-    let Ok(dielectric) = Dispersive::fit(
-        model_kind,
-        er,
-        n.f64_near(0.02),
-        n.f64_near(1e9),
-    ) else {
+    let Ok(dielectric) = Dispersive::fit(model_kind, er, n.f64_near(0.02), n.f64_near(1e9)) else {
         return;
     };
     let rough = match n.byte() % 3 {
