@@ -131,3 +131,36 @@ fn legal_extreme_lengths_give_finite_results_or_errors() {
         }
     }
 }
+
+/// Found by the `models` fuzz target (crash-74d94ef2…): a coplanar strip far thicker than wide (t/w ≈ 1240)
+/// made the Gupta thickness widening negative, the effective modulus negative, and Z0 NaN inside an `Ok`.
+#[test]
+fn fuzz_models_coplanar_thick_narrow_strip() {
+    use ohmstack_core::cross_section::{CrossSection, Medium};
+    use ohmstack_core::models::{self, Dims};
+    use ohmstack_core::Structure;
+    let cs = CrossSection {
+        medium: Medium::NoPlane {
+            h: 0.04725843667006398,
+            er: 1.0054834447335024,
+        },
+        t: 0.0033080905669044783,
+        references: Vec::new(),
+        warnings: Vec::new(),
+    };
+    let dims = Dims {
+        w: 2.6690358627109957e-06,
+        s: None,
+        gap: Some(5.859375e-07),
+    };
+    for structure in [Structure::Coplanar, Structure::CoplanarPair] {
+        let dims = Dims {
+            s: Some(dims.w),
+            ..dims
+        };
+        if let Ok(e) = models::evaluate(&cs, structure, &dims) {
+            let z = e.analysis.controlled();
+            assert!(z.is_finite() && z > 0.0, "{structure:?}: Z = {z}");
+        }
+    }
+}

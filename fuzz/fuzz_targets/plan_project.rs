@@ -12,19 +12,26 @@ use ohmstack_fuzz::Numbers;
 fuzz_target!(|data: &[u8]| {
     let mut n = Numbers::new(data);
     let mut project = ohmstack_core::demo::project();
-    project.rules.push(ImpedanceRule {
-        name: "broadside".into(),
-        layer: "L3 Inner".into(),
-        structure: Structure::BroadsidePair,
-        target_ohm: 100.0,
-        tolerance_pct: 10.0,
-        solve: Solve::Width,
-        width_m: 120e-6,
-        spacing_m: None,
-        gap_m: None,
-        partner_layer: Some("L4 Inner".into()),
-        references: Vec::new(),
-    });
+    // The broadside pair runs the moment-method solver (most of a second per plan under the sanitizer), so only one input
+    // in four carries it; the closed-form rules keep the run at hundreds of inputs a second.
+    let broadside = n.byte() % 4 == 0;
+    // Same for the direct spread model: every sample is a model call.
+    let direct = n.byte() % 4 == 0;
+    if broadside {
+        project.rules.push(ImpedanceRule {
+            name: "broadside".into(),
+            layer: "L3 Inner".into(),
+            structure: Structure::BroadsidePair,
+            target_ohm: 100.0,
+            tolerance_pct: 10.0,
+            solve: Solve::Width,
+            width_m: 120e-6,
+            spacing_m: None,
+            gap_m: None,
+            partner_layer: Some("L4 Inner".into()),
+            references: Vec::new(),
+        });
+    }
     project.analysis_freq_hz = n.f64_near(1e9);
     project.fab.min_trace_m = n.f64_near(100e-6);
     project.fab.min_space_m = n.f64_near(100e-6);
@@ -60,7 +67,11 @@ fuzz_target!(|data: &[u8]| {
     let options = PlanOptions {
         spread_samples: usize::from(n.byte() % 48),
         seed: u64::from(n.byte()),
-        spread_model: n.pick(&[SampleModel::Quadratic, SampleModel::Direct]),
+        spread_model: if direct {
+            SampleModel::Direct
+        } else {
+            SampleModel::Quadratic
+        },
     };
     if let Ok(plan) = plan_with(&project, &options) {
         let notes = report::fab_notes(&project, &plan);

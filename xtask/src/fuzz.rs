@@ -44,7 +44,7 @@ fn stat(log: &str, name: &str) -> u64 {
     // libFuzzer's -print_final_stats lines look like "stat::number_of_executed_units: 123456".
     log.lines()
         .filter_map(|l| l.trim().strip_prefix(name))
-        .filter_map(|rest| rest.trim_start_matches(':').trim().parse().ok())
+        .filter_map(|rest| rest.trim_start_matches(':').trim().parse::<u64>().ok())
         .sum()
 }
 
