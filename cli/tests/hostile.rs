@@ -295,3 +295,43 @@ fn batch_reports_bad_lines_and_fails_on_binary_stdin() {
     assert_eq!(out.lines().count(), 1);
     assert!(out.len() < 10_000, "{} bytes of output", out.len());
 }
+
+#[test]
+fn a_reader_that_goes_away_is_not_a_panic() {
+    // Much more than a pipe buffer of output, and the reading end closed at once (`ohmstack ... | head`): once
+    // through a buffered writer (`random`), once through `print!` (`touchstone`, a 4-port of 2001 points).
+    let cases: [(&[&str], Vec<u8>); 2] = [
+        (&["random", "normal", "--count", "1000000"], Vec::new()),
+        (
+            &[
+                "touchstone",
+                "-",
+                "--rule",
+                "USB data 90 Ω",
+                "--length",
+                "10mm",
+                "--points",
+                "2001",
+            ],
+            demo(),
+        ),
+    ];
+    for (args, stdin) in cases {
+        let mut child = Command::new(env!("CARGO_BIN_EXE_ohmstack"))
+            .args(args)
+            .stdin(Stdio::piped())
+            .stdout(Stdio::piped())
+            .stderr(Stdio::piped())
+            .spawn()
+            .expect("spawn ohmstack");
+        drop(child.stdout.take());
+        let mut pipe = child.stdin.take().unwrap();
+        let _ = pipe.write_all(&stdin);
+        drop(pipe);
+        let out = child.wait_with_output().unwrap();
+        let err = String::from_utf8_lossy(&out.stderr);
+        assert!(!err.contains("panicked"), "{args:?}: {err}");
+        assert_ne!(out.status.code(), Some(0), "{args:?}");
+        assert!(err.trim_end().lines().count() <= 1, "{args:?}: {err}");
+    }
+}
