@@ -164,3 +164,15 @@ fn fuzz_models_coplanar_thick_narrow_strip() {
         }
     }
 }
+
+/// Found by `plan_results_that_come_back_ok_are_finite` (tests/properties.rs): synthesis hit the target to the
+/// last bit, Γ = 0, and the return loss was +∞ (written as `null` in the plan's JSON).
+#[test]
+fn proptest_plan_exact_match_return_loss_is_finite() {
+    use ohmstack_core::lines::{return_loss_db, MAX_RETURN_LOSS_DB};
+    assert_eq!(return_loss_db(0.0), MAX_RETURN_LOSS_DB);
+    assert_eq!(return_loss_db(-0.0), MAX_RETURN_LOSS_DB);
+    // Ordinary values are unchanged: |Γ| = 0.1 is 20 dB (definition).
+    assert!((return_loss_db(0.1) - 20.0).abs() < 1e-12);
+    assert!((return_loss_db(-0.01) - 40.0).abs() < 1e-12);
+}
