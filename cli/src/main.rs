@@ -63,20 +63,7 @@ usage:
 lengths take units: um, mm, mil, in (and oz for copper thickness); plain numbers are metres.";
 
 fn main() {
-    // A closed pipe (`ohmstack analyze f | head`) ends printing: leave quietly, as a SIGPIPE death would,
-    // instead of showing a panic. Any other panic is a bug and says so in one line.
-    std::panic::set_hook(Box::new(|info| {
-        let payload = info.payload();
-        let message = payload
-            .downcast_ref::<String>()
-            .map(String::as_str)
-            .or_else(|| payload.downcast_ref::<&str>().copied())
-            .unwrap_or("");
-        if message.contains("Broken pipe") {
-            std::process::exit(141);
-        }
-        eprintln!("error: internal error, please report: {message}");
-    }));
+    quiet_output_errors();
     let args: Vec<String> = std::env::args().skip(1).collect();
     match run(&args) {
         Ok(()) => {}
@@ -85,6 +72,29 @@ fn main() {
             std::process::exit(2);
         }
     }
+}
+
+/// `print!` panics when stdout fails; found by the hostile-input tests with `ohmstack random normal | head`.
+/// A reader that went away (broken pipe) ends the program quietly with the shell's SIGPIPE status 141; any other
+/// write error becomes the usual one-line error. Everything else keeps the default panic report.
+fn quiet_output_errors() {
+    let default = std::panic::take_hook();
+    std::panic::set_hook(Box::new(move |info| {
+        let payload = info
+            .payload()
+            .downcast_ref::<String>()
+            .map(String::as_str)
+            .or_else(|| info.payload().downcast_ref::<&str>().copied())
+            .unwrap_or("");
+        if let Some(reason) = payload.strip_prefix("failed printing to stdout: ") {
+            if reason.contains("Broken pipe") {
+                std::process::exit(141);
+            }
+            eprintln!("error: writing output: {reason}");
+            std::process::exit(2);
+        }
+        default(info);
+    }));
 }
 
 fn run(args: &[String]) -> Result<()> {

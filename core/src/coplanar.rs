@@ -205,11 +205,15 @@ pub(crate) fn cover_layer(
 }
 
 /// Gupta et al. 1996 eq. (7.98): the widening Δ of a strip of width `w` from its thickness `t`.
+///
+/// The formula is made for t ≪ w; for t > 4πw·e it turns negative (a thick strip would "narrow"), which drove
+/// the effective modulus negative and Z0 to NaN (found by fuzzing, `fuzz_models_coplanar_thick_narrow_strip`).
+/// Thickness never narrows a strip, so Δ is held at zero there (the thickness warnings already flag the input).
 pub fn thickness_widening(w: f64, t: f64) -> f64 {
     if t <= 0.0 {
         return 0.0;
     }
-    1.25 * t / PI * (1.0 + (4.0 * PI * w / t).ln())
+    (1.25 * t / PI * (1.0 + (4.0 * PI * w / t).ln())).max(0.0)
 }
 
 impl Coplanar {

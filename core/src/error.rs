@@ -119,15 +119,31 @@ pub fn in_range(field: &str, value: f64, min: f64, max: f64, unit: &'static str)
     }
 }
 
-/// Accepts a geometric length: finite, above zero and below [`crate::units::MAX_LENGTH_M`].
+/// Accepts a geometric length: finite, at least [`crate::units::MIN_LENGTH_M`] and at most
+/// [`crate::units::MAX_LENGTH_M`].
 pub fn length(field: &str, metres: f64) -> Result<f64> {
     positive(field, metres, "m")?;
-    in_range(field, metres, 0.0, crate::units::MAX_LENGTH_M, "m")
+    in_range(
+        field,
+        metres,
+        crate::units::MIN_LENGTH_M,
+        crate::units::MAX_LENGTH_M,
+        "m",
+    )
 }
 
-/// Accepts a length that may also be zero (a copper thickness of zero is a valid idealisation).
+/// Accepts a length that may also be exactly zero (a copper thickness of zero is a valid idealisation).
 pub fn length_or_zero(field: &str, metres: f64) -> Result<f64> {
-    in_range(field, metres, 0.0, crate::units::MAX_LENGTH_M, "m")
+    if metres == 0.0 {
+        return Ok(0.0);
+    }
+    in_range(
+        field,
+        metres,
+        crate::units::MIN_LENGTH_M,
+        crate::units::MAX_LENGTH_M,
+        "m",
+    )
 }
 
 /// Accepts a relative permittivity between 1 and 100.

@@ -91,7 +91,12 @@ pub fn reflection(z: f64, z_target: f64) -> f64 {
     (z - z_target) / (z + z_target)
 }
 
-/// Return loss −20·log10|Γ| in dB (infinite for a perfect match).
+/// Return loss −20·log10|Γ| in dB, at most [`MAX_RETURN_LOSS_DB`]: an exact match (Γ = 0, which synthesis can
+/// hit to the last bit) would be +∞, which JSON cannot hold (serde_json writes `null`; found by the plan property
+/// test in tests/properties.rs).
 pub fn return_loss_db(gamma: f64) -> f64 {
-    -20.0 * gamma.abs().log10()
+    -20.0 * gamma.abs().max(1e-15).log10()
 }
+
+/// The largest return loss reported, dB (|Γ| = 1e-15, about the f64 resolution of Γ near a match).
+pub const MAX_RETURN_LOSS_DB: f64 = 300.0;

@@ -21,6 +21,10 @@ pub const OZ_COPPER: f64 = 1.37 * MIL;
 
 /// The largest length any geometry field accepts (0.5 m): anything bigger is a typo, not a board.
 pub const MAX_LENGTH_M: f64 = 0.5;
+/// The shortest nonzero length any input may have, m (1e-15 m: far below any PCB feature, yet small enough for the
+/// models' own limit tests such as touching strips). Found by the hostile-input tests: a subnormal width
+/// (1e-320 m) passed the positivity check and gave a NaN impedance.
+pub const MIN_LENGTH_M: f64 = 1e-15;
 
 /// A unit for displaying and entering lengths.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize, Default)]

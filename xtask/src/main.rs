@@ -1,7 +1,8 @@
-//! Build tasks for the workspace, run as `cargo xtask <task>`: `dist` (one-file web app), `serve`, `test`.
+//! Build tasks for the workspace, run as `cargo xtask <task>`: `dist` (one-file web app), `serve`, `test`, `fuzz`.
 //! Hand-written argument parsing keeps this crate to a few dependencies.
 
 mod dist;
+mod fuzz;
 mod serve;
 mod test;
 mod util;
@@ -13,7 +14,8 @@ const HELP: &str = "cargo xtask <task>
 tasks:
   dist                 build the web app into one self-contained file, dist/ohmstack.html
   serve [--port N]     build, then serve dist/ohmstack.html on http://127.0.0.1:N/ (default 8080)
-  test                 install what the tests need, then fmt check, clippy, all tests, reference and browser tests";
+  test                 install what the tests need, then fmt check, clippy, all tests, reference and browser tests
+  fuzz [--seconds N]   run every libFuzzer target in fuzz/ for N s each (default 60); installs cargo-fuzz";
 
 fn main() {
     if let Err(e) = run() {
@@ -39,6 +41,7 @@ fn run() -> Result<()> {
             serve::run(&file, port)
         }
         Some("test") => test::run(),
+        Some("fuzz") => fuzz::run(fuzz::parse_seconds(&args[1..])?),
         Some("-h" | "--help") | None => {
             println!("{HELP}");
             Ok(())
