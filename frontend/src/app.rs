@@ -18,6 +18,10 @@ pub fn App() -> Html {
             state.dispatch(Action::Load(Box::new(ohmstack_core::demo::project())))
         })
     };
+    let (shared, on_load) = (std::rc::Rc::new(project.clone()), {
+        let state = state.clone();
+        Callback::from(move |p| state.dispatch(Action::Load(Box::new(p))))
+    });
     let body = match &*plan {
         Err(message) => html! { <p class="error" role="alert">{ message.clone() }</p> },
         Ok(plan) => html! {
@@ -78,7 +82,10 @@ pub fn App() -> Html {
                 <span class="project-title">{ project.title.clone() }</span>
                 <button class="no-print" onclick={load_demo}>{ "Load demo" }</button>
             </header>
+            <crate::panels::share::SharePanel project={shared.clone()} on_load={on_load} />
             { body }
+            <crate::panels::pictures::PicturesPanel project={shared.clone()} plan={plan.clone()} />
+            <crate::panels::notes::NotesPanel project={shared} plan={plan.clone()} />
             <footer class="cautions">
                 { "Design estimates only. Final impedance is confirmed by the fabricator on test coupons. Trace spacing here is not electrical-safety clearance; follow local codes and licensed practice." }
             </footer>

@@ -2,6 +2,8 @@
 
 mod app;
 mod bridge;
+mod link;
+mod panels;
 mod state;
 
 fn main() {
