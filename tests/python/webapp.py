@@ -57,6 +57,8 @@ def normalized(project: dict) -> dict:
 
 
 def open_app(driver, fragment: str = ""):
+    """A fresh page load (a URL differing from the current one only in its fragment would not reload)."""
+    driver.get("about:blank")
     driver.get(browser.app_url(fragment))
     browser.wait_ready(driver)
 
