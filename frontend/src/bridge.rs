@@ -249,11 +249,13 @@ pub fn z_width_plot_svg(project: &Project, idx: usize) -> Result<String, String>
             },
             Series {
                 label: format!("± {} %", format_sig(r.tolerance_pct, 3)),
-                points: flat(r.target_ohm + band),
-            },
-            Series {
-                label: String::new(),
-                points: flat(r.target_ohm - band),
+                // One series, two lines: a non-finite point breaks the line (plot::line_plot).
+                points: [
+                    flat(r.target_ohm + band),
+                    vec![(f64::NAN, f64::NAN)],
+                    flat(r.target_ohm - band),
+                ]
+                .concat(),
             },
             Series {
                 label: format!("solution {}", format_length(r.width_m, unit)),

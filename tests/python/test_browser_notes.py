@@ -49,6 +49,8 @@ def pdf_text(driver) -> str:
     opts = PrintOptions()
     opts.background = False
     pdf = base64.b64decode(driver.print_page(opts))
+    browser.ARTIFACTS.mkdir(parents=True, exist_ok=True)
+    (browser.ARTIFACTS / "notes-print.pdf").write_bytes(pdf)
     reader = PdfReader(io.BytesIO(pdf))
     return "\n".join(page.extract_text() for page in reader.pages)
 
@@ -77,6 +79,10 @@ def test_fab_notes_print_to_pdf_with_the_core_numbers(driver):
         assert control not in text, control
     # Pictures and the share bar are editor views: not printed.
     assert "Drawing and plots" not in text
+    # What the printed page looks like (print media emulated on screen), for a look by eye.
+    driver.execute_cdp_cmd("Emulation.setEmulatedMedia", {"media": "print"})
+    browser.screenshot(driver, "notes-print-media")
+    driver.execute_cdp_cmd("Emulation.setEmulatedMedia", {"media": ""})
     assert browser.console_errors(driver) == []
 
 

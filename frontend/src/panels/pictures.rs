@@ -111,7 +111,7 @@ pub fn PicturesPanel(props: &PicturesProps) -> Html {
         Some((loss, z_width, spread)) => {
             let spread_fig = match spread {
                 Ok(s) => html! {
-                    <>
+                    <div class="spread">
                     { figure("plot-spread", "Monte Carlo spread of the impedance; the shaded band is the rule's tolerance window.", &Ok(s.svg.clone())) }
                     <p class="spread-stats" data-testid="spread-stats"
                         data-mean={s.mean_ohm.to_string()} data-sigma={s.sigma_ohm.to_string()}
@@ -120,7 +120,7 @@ pub fn PicturesPanel(props: &PicturesProps) -> Html {
                             s.mean_ohm, s.sigma_ohm, s.yield_pct, s.samples, s.lower_ohm, s.upper_ohm) }
                         if s.failed > 0 { { format!(" ({} samples failed)", s.failed) } }
                     </p>
-                    </>
+                    </div>
                 },
                 Err(e) => figure("plot-spread", "Monte Carlo spread", &Err(e.clone())),
             };
