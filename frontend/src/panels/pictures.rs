@@ -54,9 +54,7 @@ pub fn PicturesPanel(props: &PicturesProps) -> Html {
     let plots = use_memo(
         (props.project.clone(), props.plan.clone(), rule),
         |(p, plan, r)| {
-            let Some(i) = *r else {
-                return None;
-            };
+            let i = (*r)?;
             if let Err(e) = &**plan {
                 return Some((Err(e.clone()), Err(e.clone()), Err(e.clone())));
             }

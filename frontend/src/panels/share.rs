@@ -31,7 +31,7 @@ enum Status {
 #[derive(Debug, Clone, PartialEq)]
 enum Gate {
     Starting,
-    Awaiting(Project),
+    Awaiting(Box<Project>),
     Open,
 }
 
@@ -45,9 +45,9 @@ struct Pending {
 /// What to do with a fragment, given the work already in the browser (pure, so the policy reads in one place).
 enum Decision {
     /// Open this project (the link, or saved work when there is no link).
-    Load(Project, Option<Status>),
+    Load(Box<Project>, Option<Status>),
     /// Ask first: the link differs from the work in the browser (shown meanwhile, loaded if not on screen).
-    Ask(Project, Option<Project>),
+    Ask(Box<Project>, Option<Box<Project>>),
     /// Nothing to do (the link holds the work already shown), with what to say.
     Keep(Option<Status>),
 }
@@ -55,7 +55,7 @@ enum Decision {
 fn decide(fragment: Option<&str>, local: Option<&Project>, current: &Project) -> Decision {
     let Some(fragment) = fragment else {
         return match local {
-            Some(l) if l != current => Decision::Load(l.clone(), None),
+            Some(l) if l != current => Decision::Load(Box::new(l.clone()), None),
             _ => Decision::Keep(None),
         };
     };
@@ -64,16 +64,19 @@ fn decide(fragment: Option<&str>, local: Option<&Project>, current: &Project) ->
             let kept = "The link was not opened; your current work is kept.";
             let status = Some(Status::Error(format!("{message}. {kept}")));
             match local {
-                Some(l) if l != current => Decision::Load(l.clone(), status),
+                Some(l) if l != current => Decision::Load(Box::new(l.clone()), status),
                 _ => Decision::Keep(status),
             }
         }
         Ok(linked) => {
             let opened = Status::Info(format!("Opened the linked project “{}”.", linked.title));
             match local {
-                Some(l) if *l != linked => Decision::Ask(linked, (l != current).then(|| l.clone())),
+                Some(l) if *l != linked => Decision::Ask(
+                    Box::new(linked),
+                    (l != current).then(|| Box::new(l.clone())),
+                ),
                 _ if linked == *current => Decision::Keep(Some(opened)),
-                _ => Decision::Load(linked, Some(opened)),
+                _ => Decision::Load(Box::new(linked), Some(opened)),
             }
         }
     }
@@ -108,19 +111,19 @@ pub fn SharePanel(props: &ShareProps) -> Html {
             match decide(fragment.as_deref(), local.as_ref(), &current) {
                 Decision::Load(project, said) => {
                     *gate.borrow_mut() = Gate::Awaiting(project.clone());
-                    on_load.emit(project);
+                    on_load.emit(*project);
                     status.set(said);
                 }
                 Decision::Ask(linked, show) => {
                     *gate.borrow_mut() = match show {
                         Some(local) => {
-                            on_load.emit(local.clone());
+                            on_load.emit((*local).clone());
                             Gate::Awaiting(local)
                         }
                         None => Gate::Open,
                     };
                     pending.set(Some(Pending {
-                        linked: Rc::new(linked),
+                        linked: Rc::new(*linked),
                         local_title: local.map(|l| l.title).unwrap_or_default(),
                     }));
                 }
@@ -162,7 +165,7 @@ pub fn SharePanel(props: &ShareProps) -> Html {
                 let mut g = gate.borrow_mut();
                 match &*g {
                     Gate::Starting => false,
-                    Gate::Awaiting(p) if p != &**project => false,
+                    Gate::Awaiting(p) if **p != **project => false,
                     _ => {
                         *g = Gate::Open;
                         true
@@ -224,7 +227,7 @@ pub fn SharePanel(props: &ShareProps) -> Html {
                     "Opened the linked project “{}”.",
                     project.title
                 ))));
-                *gate.borrow_mut() = Gate::Awaiting(project.clone());
+                *gate.borrow_mut() = Gate::Awaiting(Box::new(project.clone()));
                 on_load.emit(project);
             }
             pending.set(None);
