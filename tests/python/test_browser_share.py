@@ -194,3 +194,26 @@ def test_a_link_with_markup_in_names_renders_it_as_text(driver):
     assert driver.execute_script("return window.__pwned;") is None
     browser.screenshot(driver, "share-markup-names")
     assert browser.console_errors(driver) == []
+
+
+@pytest.mark.parametrize("breakage", [
+    "Object.defineProperty(navigator, 'clipboard', {value: undefined, configurable: true});",
+    "navigator.clipboard.writeText = () => Promise.reject(new DOMException('denied', 'NotAllowedError'));",
+    "navigator.clipboard.writeText = () => { throw new Error('broken'); };",
+])
+def test_copy_link_without_a_working_clipboard_shows_the_link_to_copy(driver, breakage):
+    w.open_app(driver)
+    driver.execute_script(breakage)
+    click(driver, "copy-link")
+    status = browser.wait_for(
+        lambda: driver.find_element(By.CSS_SELECTOR, "[data-testid='share-status']").text, what="status")
+    assert status.startswith("Copy the link below"), status
+    field = driver.find_element(By.CSS_SELECTOR, "[data-testid='share-link']")
+    url = field.get_attribute("value")
+    assert url == driver.current_url and w.decode(url) == w.normalized(w.demo())
+    # Focus selects the whole link, ready for Ctrl+C.
+    field.click()
+    assert driver.execute_script("return window.getSelection().toString() || "
+                                 "(document.activeElement.selectionEnd - document.activeElement.selectionStart);"
+                                 ) in (url, len(url))
+    assert browser.console_errors(driver) == []
