@@ -129,3 +129,18 @@ pub fn NotesPanel(props: &NotesProps) -> Html {
         </section>
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::file_stem;
+
+    #[test]
+    fn file_names_keep_only_safe_characters() {
+        assert_eq!(
+            file_stem("Buoy sensor gateway, 6 layers"),
+            "buoy-sensor-gateway-6-layers"
+        );
+        assert_eq!(file_stem("<script>../../x</script>"), "script-x-script");
+        assert_eq!(file_stem("Ω µ"), "ohmstack");
+    }
+}

@@ -291,3 +291,65 @@ pub fn SharePanel(props: &ShareProps) -> Html {
         </section>
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn demo_titled(title: &str) -> Project {
+        let mut p = ohmstack_core::demo::project();
+        p.title = title.into();
+        p
+    }
+
+    #[test]
+    fn no_link_restores_saved_work_once() {
+        let (demo, mine) = (ohmstack_core::demo::project(), demo_titled("mine"));
+        assert!(matches!(decide(None, Some(&mine), &demo), Decision::Load(p, None) if *p == mine));
+        assert!(matches!(
+            decide(None, Some(&mine), &mine),
+            Decision::Keep(None)
+        ));
+        assert!(matches!(decide(None, None, &demo), Decision::Keep(None)));
+    }
+
+    #[test]
+    fn a_link_to_other_work_asks_and_shows_the_saved_work_meanwhile() {
+        let (demo, mine, theirs) = (
+            ohmstack_core::demo::project(),
+            demo_titled("mine"),
+            demo_titled("theirs"),
+        );
+        let link = bridge::encode_link(&theirs);
+        match decide(Some(&link), Some(&mine), &demo) {
+            Decision::Ask(linked, Some(show)) => {
+                assert_eq!(*linked, theirs);
+                assert_eq!(*show, mine);
+            }
+            _ => panic!("expected a question"),
+        }
+        // Without saved work the link opens; a link to the work on screen changes nothing.
+        assert!(
+            matches!(decide(Some(&link), None, &demo), Decision::Load(p, Some(_)) if *p == theirs)
+        );
+        assert!(matches!(
+            decide(Some(&link), Some(&theirs), &theirs),
+            Decision::Keep(Some(_))
+        ));
+    }
+
+    #[test]
+    fn a_bad_link_keeps_the_work_and_says_the_core_error() {
+        let (demo, mine) = (ohmstack_core::demo::project(), demo_titled("mine"));
+        let core = ohmstack_core::share::decode("v9.abc")
+            .unwrap_err()
+            .to_string();
+        match decide(Some("v9.abc"), Some(&mine), &demo) {
+            Decision::Load(p, Some(Status::Error(msg))) => {
+                assert_eq!(*p, mine);
+                assert!(msg.starts_with(&core), "{msg}");
+            }
+            _ => panic!("expected the saved work and an error"),
+        }
+    }
+}
