@@ -17,6 +17,9 @@ pub fn App() -> Html {
         s.notice = message.map(|text| Notice { error: true, text });
         s
     });
+    // What this browser had saved when the page opened, read before the first autosave (the share panel weighs a
+    // link against it).
+    let saved_work = use_memo((), |_| crate::panels::share::local_work().map(Rc::new));
     let project = Rc::new(state.project.clone());
     let drafts = Rc::new(state.drafts.clone());
     let plan = use_memo(state.project.clone(), bridge::analyse);
@@ -31,6 +34,7 @@ pub fn App() -> Html {
         Err(e) => (last_good.borrow().clone(), Some(e.clone())),
     };
     let stale = plan_error.is_some() || state.has_errors();
+    let plan_rc: Rc<Result<Plan, String>> = Rc::new((*plan).clone());
     let storage = use_state_eq(|| None::<AttrValue>);
     {
         let state = state.clone();
@@ -71,6 +75,15 @@ pub fn App() -> Html {
     let dispatch = {
         let d = state.dispatcher();
         Callback::from(move |a: Action| d.dispatch(a))
+    };
+    let on_load = {
+        let d = dispatch.clone();
+        Callback::from(move |p: ohmstack_core::Project| {
+            d.emit(Action::Load(
+                Box::new(p),
+                "opened the linked project (Undo brings back your previous work)".into(),
+            ))
+        })
     };
     let on_demo = {
         let d = dispatch.clone();
@@ -149,8 +162,11 @@ pub fn App() -> Html {
             if let Some(e) = plan_error {
                 <p class="error" role="alert" data-testid="plan-error">{ e }</p>
             }
+            <crate::panels::share::SharePanel project={project.clone()} on_load={on_load} saved_work={(*saved_work).clone()} />
             <Layers project={project.clone()} drafts={drafts.clone()} plan={shown.clone()} dispatch={dispatch.clone()} />
-            <Rules project={project} drafts={drafts} plan={shown} {stale} dispatch={dispatch} />
+            <Rules project={project.clone()} drafts={drafts} plan={shown} {stale} dispatch={dispatch} />
+            <crate::panels::pictures::PicturesPanel project={project.clone()} plan={plan_rc.clone()} />
+            <crate::panels::notes::NotesPanel project={project} plan={plan_rc} />
             <footer class="cautions">
                 { "Design estimates only. Final impedance is confirmed by the fabricator on test coupons. Trace spacing here is not electrical-safety clearance; follow local codes and licensed practice." }
             </footer>

@@ -2,6 +2,7 @@
 
 mod app;
 mod bridge;
+mod link;
 mod panels;
 mod persist;
 mod state;

@@ -1,8 +1,11 @@
-//! The app's panels, one per file; each gets plain data plus a `Callback<Action>` and never calls the core.
+//! The app's panels, one per file; each gets plain data plus callbacks and calls the core only through `bridge`.
 
 pub mod field_check;
 pub mod layers;
+pub mod notes;
+pub mod pictures;
 pub mod rules;
+pub mod share;
 pub mod toolbar;
 
 pub use field_check::FieldCheck;

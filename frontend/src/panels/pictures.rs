@@ -1,0 +1,165 @@
+//! Pictures of one rule: the cross-section drawing, loss against frequency, impedance against width, the
+//! Monte Carlo histogram with the tolerance window, a slot for the field solution, and a Touchstone download.
+//! The SVG strings come from the core (which escapes all user text); they are the only raw HTML in the app.
+
+use crate::bridge;
+use crate::link;
+use ohmstack_core::{Plan, Project};
+use std::rc::Rc;
+use web_sys::{HtmlInputElement, HtmlSelectElement};
+use yew::prelude::*;
+
+#[derive(Properties, PartialEq)]
+pub struct PicturesProps {
+    pub project: Rc<Project>,
+    pub plan: Rc<Result<Plan, String>>,
+    /// A rule chosen elsewhere (e.g. in the rules table); the panel's own selector can change it.
+    #[prop_or_default]
+    pub selected_rule: Option<usize>,
+}
+
+/// A core SVG string, or the error that prevented it, in a labelled figure.
+fn figure(testid: &'static str, caption: &str, svg: &Result<String, String>) -> Html {
+    let body = match svg {
+        Ok(svg) => Html::from_html_unchecked(AttrValue::from(svg.clone())),
+        Err(e) => html! { <p class="error">{ e.clone() }</p> },
+    };
+    html! {
+        <figure class="picture" data-testid={testid}>
+            <div class="svg-box">{ body }</div>
+            <figcaption>{ caption.to_string() }</figcaption>
+        </figure>
+    }
+}
+
+#[component]
+pub fn PicturesPanel(props: &PicturesProps) -> Html {
+    let n_rules = props.project.rules.len();
+    let selected = use_state(|| props.selected_rule.unwrap_or(0));
+    {
+        let selected = selected.clone();
+        use_effect_with(props.selected_rule, move |chosen| {
+            if let Some(i) = *chosen {
+                selected.set(i);
+            }
+        });
+    }
+    let rule = (n_rules > 0).then(|| (*selected).min(n_rules - 1));
+    let length = use_state(|| "100 mm".to_string());
+    let message = use_state(|| None::<Result<String, String>>);
+
+    let drawing = use_memo((props.project.clone(), rule), |(p, r)| {
+        bridge::cross_section_svg(p, *r)
+    });
+    let plots = use_memo(
+        (props.project.clone(), props.plan.clone(), rule),
+        |(p, plan, r)| {
+            let i = (*r)?;
+            if let Err(e) = &**plan {
+                return Some((Err(e.clone()), Err(e.clone()), Err(e.clone())));
+            }
+            Some((
+                bridge::loss_plot_svg(p, i),
+                bridge::z_width_plot_svg(p, i),
+                bridge::spread_view(p, i),
+            ))
+        },
+    );
+
+    let on_select = {
+        let selected = selected.clone();
+        Callback::from(move |e: Event| {
+            if let Some(el) = e.target_dyn_into::<HtmlSelectElement>() {
+                if let Ok(i) = el.value().parse::<usize>() {
+                    selected.set(i);
+                }
+            }
+        })
+    };
+    let on_length = {
+        let length = length.clone();
+        Callback::from(move |e: InputEvent| {
+            if let Some(el) = e.target_dyn_into::<HtmlInputElement>() {
+                length.set(el.value());
+            }
+        })
+    };
+    let on_touchstone = {
+        let (project, length, message) = (props.project.clone(), length.clone(), message.clone());
+        Callback::from(move |_: MouseEvent| {
+            let Some(i) = rule else { return };
+            let result = bridge::touchstone_file(&project, i, &length)
+                .and_then(|(name, text)| link::download(&name, "text/plain", &text).map(|()| name));
+            message.set(Some(result.map(|name| format!("Downloaded {name}."))));
+        })
+    };
+
+    let selector = html! {
+        <label class="rule-select">
+            { "Rule " }
+            <select data-testid="picture-rule" onchange={on_select} disabled={n_rules == 0}>
+                { for props.project.rules.iter().enumerate().map(|(i, r)| html! {
+                    <option value={i.to_string()} selected={Some(i) == rule}>{ r.name.clone() }</option>
+                }) }
+            </select>
+        </label>
+    };
+    let plots_html = match &*plots {
+        None => html! { <p class="muted">{ "The project has no impedance rules to plot." }</p> },
+        Some((loss, z_width, spread)) => {
+            let spread_fig = match spread {
+                Ok(s) => html! {
+                    <div class="spread">
+                    { figure("plot-spread", "Monte Carlo spread of the impedance; the shaded band is the rule's tolerance window.", &Ok(s.svg.clone())) }
+                    <p class="spread-stats" data-testid="spread-stats"
+                        data-mean={s.mean_ohm.to_string()} data-sigma={s.sigma_ohm.to_string()}
+                        data-yield={s.yield_pct.to_string()}>
+                        { format!("mean {:.2} Ω, σ {:.3} Ω, {:.2} % of {} samples within {:.2} to {:.2} Ω",
+                            s.mean_ohm, s.sigma_ohm, s.yield_pct, s.samples, s.lower_ohm, s.upper_ohm) }
+                        if s.failed > 0 { { format!(" ({} samples failed)", s.failed) } }
+                    </p>
+                    </div>
+                },
+                Err(e) => figure("plot-spread", "Monte Carlo spread", &Err(e.clone())),
+            };
+            html! {
+                <>
+                { figure("plot-loss", "Loss of the signal mode against frequency, with its conductor and dielectric parts.", loss) }
+                { figure("plot-z-width", "Impedance against trace width around the solution.", z_width) }
+                { spread_fig }
+                <figure class="picture field-slot" data-testid="field-map">
+                    <div class="svg-box empty"><p class="muted">{ "Field solution: not run." }</p></div>
+                    <figcaption>{ "Potential map of the 2D field solution (available once the field solver is part of the app)." }</figcaption>
+                </figure>
+                </>
+            }
+        }
+    };
+    let touchstone_message = match &*message {
+        None => html! {},
+        Some(Ok(t)) => {
+            html! { <span class="muted" data-testid="touchstone-status">{ t.clone() }</span> }
+        }
+        Some(Err(e)) => {
+            html! { <span class="error" data-testid="touchstone-error">{ e.clone() }</span> }
+        }
+    };
+    html! {
+        <section class="panel pictures no-print" aria-labelledby="pictures-title">
+            <h2 id="pictures-title">{ "Drawing and plots" }</h2>
+            <div class="picture-controls">
+                { selector }
+                <label>
+                    { "Segment length " }
+                    <input data-testid="touchstone-length" value={(*length).clone()} oninput={on_length} size="8" />
+                </label>
+                <button data-testid="touchstone-download" onclick={on_touchstone} disabled={rule.is_none()}>
+                    { "Download Touchstone" }
+                </button>
+                { touchstone_message }
+            </div>
+            { figure("cross-section", "Cross-section of the stack (layer heights not to scale) with the selected rule's traces.", &drawing) }
+            <div class="plots">{ plots_html }</div>
+        </section>
+    }
+}
