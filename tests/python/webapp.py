@@ -9,7 +9,7 @@ from selenium.webdriver.common.by import By
 import browser
 from conftest import run
 
-LOCAL_KEY = "ohmstack.project"
+LOCAL_KEY = "ohmstack.project.v1"  # the editor's autosave key (frontend/src/persist.rs)
 
 
 def cli_ok(*args: str, stdin: str = "") -> str:

@@ -95,9 +95,9 @@ pub fn PicturesPanel(props: &PicturesProps) -> Html {
     };
 
     let selector = html! {
-        <label class="rule-select">
+        <label class="rule-select" for="picture-rule">
             { "Rule " }
-            <select data-testid="picture-rule" onchange={on_select} disabled={n_rules == 0}>
+            <select id="picture-rule" data-testid="picture-rule" onchange={on_select} disabled={n_rules == 0}>
                 { for props.project.rules.iter().enumerate().map(|(i, r)| html! {
                     <option value={i.to_string()} selected={Some(i) == rule}>{ r.name.clone() }</option>
                 }) }
@@ -149,9 +149,9 @@ pub fn PicturesPanel(props: &PicturesProps) -> Html {
             <h2 id="pictures-title">{ "Drawing and plots" }</h2>
             <div class="picture-controls">
                 { selector }
-                <label>
+                <label for="touchstone-length">
                     { "Segment length " }
-                    <input data-testid="touchstone-length" value={(*length).clone()} oninput={on_length} size="8" />
+                    <input id="touchstone-length" data-testid="touchstone-length" value={(*length).clone()} oninput={on_length} size="8" />
                 </label>
                 <button data-testid="touchstone-download" onclick={on_touchstone} disabled={rule.is_none()}>
                     { "Download Touchstone" }
