@@ -198,7 +198,7 @@ def test_pictures_match_the_core_and_are_saved_as_artefacts(driver):
     drawing = driver.find_element(By.CSS_SELECTOR, "[data-testid='cross-section'] svg").text
     for layer in project["stackup"]:
         assert layer["name"] in drawing
-    assert "not run" in driver.find_element(By.CSS_SELECTOR, "[data-testid='field-map']").text
+    assert "not drawn yet" in driver.find_element(By.CSS_SELECTOR, "[data-testid='field-map']").text
     scroll_to(driver, "cross-section")
     browser.screenshot(driver, "pictures-cross-section")
     scroll_to(driver, "plot-loss")

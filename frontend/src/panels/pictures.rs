@@ -128,8 +128,8 @@ pub fn PicturesPanel(props: &PicturesProps) -> Html {
                 { figure("plot-z-width", "Impedance against trace width around the solution.", z_width) }
                 { spread_fig }
                 <figure class="picture field-slot" data-testid="field-map">
-                    <div class="svg-box empty"><p class="muted">{ "Field solution: not run." }</p></div>
-                    <figcaption>{ "Potential map of the 2D field solution (available once the field solver is part of the app)." }</figcaption>
+                    <div class="svg-box empty"><p class="muted">{ "Potential map: not drawn yet." }</p></div>
+                    <figcaption>{ "The field solve itself runs from each rule card (Verify with field solver); its potential map is not drawn yet." }</figcaption>
                 </figure>
                 </>
             }
