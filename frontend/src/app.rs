@@ -10,6 +10,9 @@ use std::rc::Rc;
 use wasm_bindgen::JsCast;
 use yew::prelude::*;
 
+/// How long typing must pause before the tolerance spread is recomputed, ms.
+const SPREAD_DELAY_MS: u32 = 250;
+
 #[component]
 pub fn App() -> Html {
     let state = use_reducer(|| {
@@ -22,7 +25,26 @@ pub fn App() -> Html {
     let saved_work = use_memo((), |_| crate::panels::share::local_work().map(Rc::new));
     let project = Rc::new(state.project.clone());
     let drafts = Rc::new(state.drafts.clone());
-    let plan = use_memo(state.project.clone(), bridge::analyse);
+    // Impedance, loss and delay follow every keystroke; the tolerance spread (slow for the moment-method
+    // striplines) follows once typing pauses for SPREAD_DELAY_MS, and replaces the quick plan when it is for the
+    // same project.
+    let quick = use_memo(state.project.clone(), bridge::analyse_quick);
+    let full = use_state(|| None::<(ohmstack_core::Project, Rc<Result<Plan, String>>)>);
+    let pending = use_mut_ref(|| None::<gloo::timers::callback::Timeout>);
+    {
+        let (full, pending) = (full.clone(), pending.clone());
+        use_effect_with(state.project.clone(), move |p| {
+            let p = p.clone();
+            *pending.borrow_mut() = Some(gloo::timers::callback::Timeout::new(SPREAD_DELAY_MS, move || {
+                let plan = bridge::analyse(&p);
+                full.set(Some((p, Rc::new(plan))));
+            }));
+        });
+    }
+    let plan: Rc<Result<Plan, String>> = match &*full {
+        Some((p, plan)) if *p == state.project => plan.clone(),
+        _ => Rc::new((*quick).clone()),
+    };
     // The last plan that computed, shown greyed while the current one cannot be.
     let last_good = use_mut_ref(|| None::<Rc<Plan>>);
     let (shown, plan_error) = match &*plan {
@@ -34,7 +56,7 @@ pub fn App() -> Html {
         Err(e) => (last_good.borrow().clone(), Some(e.clone())),
     };
     let stale = plan_error.is_some() || state.has_errors();
-    let plan_rc: Rc<Result<Plan, String>> = Rc::new((*plan).clone());
+    let plan_rc = plan.clone();
     let storage = use_state_eq(|| None::<AttrValue>);
     {
         let state = state.clone();

@@ -12,6 +12,11 @@ pub fn analyse(project: &Project) -> Result<Plan, String> {
     plan_with(project, &PlanOptions::with_spread()).map_err(|e| e.to_string())
 }
 
+/// Plans the project without the tolerance spread: what every keystroke recomputes.
+pub fn analyse_quick(project: &Project) -> Result<Plan, String> {
+    plan_with(project, &PlanOptions::default()).map_err(|e| e.to_string())
+}
+
 /// True when `text` ends in a digit or a decimal point, i.e. carries no unit word.
 fn is_bare(text: &str) -> bool {
     text.trim_end()

@@ -94,6 +94,23 @@ fn results(i: usize, r: &RuleResult, project: &Project) -> Html {
                     }, None) }
                 }
             </div>
+            if let Some(sp) = &r.spread {
+                <p class="spread-detail" data-testid={format!("rule-{i}-spread-detail")}>
+                    { format!("Tolerance spread: corners {:.2}–{:.2} Ω · Monte Carlo {:.2} ± {:.2} Ω (σ, {} samples){}",
+                        sp.corners.min_ohm, sp.corners.max_ohm, sp.monte_carlo.mean_ohm, sp.monte_carlo.sigma_ohm,
+                        sp.monte_carlo.samples,
+                        sp.monte_carlo.cpk.map(|c| format!(", Cpk {c:.2}")).unwrap_or_default()) }
+                    if let Some(top) = sp.sensitivities.first() {
+                        { format!(" · most sensitive to {} ({:+.2} Ω at its limit)", top.parameter, top.impact_ohm) }
+                    }
+                    if let Some(c) = &sp.centred {
+                        <span data-testid={format!("rule-{i}-centred")} data-value={c.centred_m.to_string()}>
+                            { format!(" · tolerance-centred {}: {} {} (yield {:.2} % → {:.2} %)", c.dimension,
+                                bridge::length_text(c.centred_m, unit), unit.symbol(), c.nominal_yield_pct, c.centred_yield_pct) }
+                        </span>
+                    }
+                </p>
+            }
             <div class="rule-notes">
                 { verdict }
                 <span class="family">{ format!("{} · {}", r.family, r.method) }</span>
