@@ -1,6 +1,8 @@
-//! Build tasks for the workspace, run as `cargo xtask <task>`: `dist` (one-file web app), `serve`, `test`.
+//! Build tasks for the workspace, run as `cargo xtask <task>`: `dist` (one-file web app), `serve`, `test`,
+//! `bench`.
 //! Hand-written argument parsing keeps this crate to a few dependencies.
 
+mod bench;
 mod dist;
 mod serve;
 mod test;
@@ -13,7 +15,10 @@ const HELP: &str = "cargo xtask <task>
 tasks:
   dist                 build the web app into one self-contained file, dist/ohmstack.html
   serve [--port N]     build, then serve dist/ohmstack.html on http://127.0.0.1:N/ (default 8080)
-  test                 install what the tests need, then fmt check, clippy, all tests, reference and browser tests";
+  test                 install what the tests need, then fmt check, clippy, all tests, reference and browser tests
+  bench [--quick] [--no-criterion] [--no-browser]
+                       criterion benches, peer comparison with scikit-rf, WASM vs native, bundle figures
+                       (see BENCHMARKS.md; writes target/bench/summary.md)";
 
 fn main() {
     if let Err(e) = run() {
@@ -39,6 +44,7 @@ fn run() -> Result<()> {
             serve::run(&file, port)
         }
         Some("test") => test::run(),
+        Some("bench") => bench::run(&args[1..]),
         Some("-h" | "--help") | None => {
             println!("{HELP}");
             Ok(())
