@@ -10,7 +10,14 @@ use std::hint::black_box;
 use std::time::Duration;
 
 /// One case per structure kind, with typical dimensions (lengths as `ohmstack calc` takes them).
-const CASES: &[(&str, &str, &[(&str, &str)])] = &[
+/// (label, `ohmstack calc` kind, fields).
+type Case = (
+    &'static str,
+    &'static str,
+    &'static [(&'static str, &'static str)],
+);
+
+const CASES: &[Case] = &[
     (
         "microstrip",
         "microstrip",
