@@ -9,7 +9,7 @@ use std::collections::BTreeMap;
 use std::hint::black_box;
 use std::time::Duration;
 
-/// One case per structure kind, with typical dimensions (lengths as `ohmstack calc` takes them).
+/// One case per structure kind, with typical dimensions (lengths as `ohmstack calc` takes them):
 /// (label, `ohmstack calc` kind, fields).
 type Case = (
     &'static str,
@@ -18,8 +18,20 @@ type Case = (
 );
 
 const CASES: &[Case] = &[
+    // t/h = 0.175, inside the Hammerstad–Jensen thickness fit (no warning text to format).
     (
         "microstrip",
+        "microstrip",
+        &[
+            ("width", "0.35mm"),
+            ("height", "0.2mm"),
+            ("thickness", "35um"),
+            ("dk", "4.2"),
+        ],
+    ),
+    // t/h = 0.206, just outside the fit: every evaluation formats a validity warning.
+    (
+        "microstrip, out of fit",
         "microstrip",
         &[
             ("width", "0.3mm"),
