@@ -29,7 +29,7 @@ fn rust_files(dir: &Path, out: &mut Vec<PathBuf>) {
 #[test]
 fn every_rust_file_starts_with_a_doc_line() {
     let mut files = Vec::new();
-    for dir in ["core", "cli", "frontend", "xtask", "tests"] {
+    for dir in ["core", "cli", "frontend", "xtask", "tests", "bench-wasm"] {
         rust_files(&root().join(dir), &mut files);
     }
     assert!(files.len() > 10);

@@ -120,7 +120,9 @@ pub fn hammerstad_jensen(u: f64, tn: f64, er: f64) -> (f64, f64) {
     let (du1, dur) = thickness_increments(u, tn, er);
     let (u1, ur) = (u + du1, u + dur);
     let zr = z0_homogeneous(ur);
-    let z1 = z0_homogeneous(u1);
+    // Zero thickness (or εr = 1) makes the two increments equal: skip the second, identical evaluation (a quarter
+    // of the transcendental calls; see BENCHMARKS.md).
+    let z1 = if u1 == ur { zr } else { z0_homogeneous(u1) };
     let e = eps_eff_zero_thickness(ur, er);
     (zr / e.sqrt(), e * (z1 / zr).powi(2))
 }

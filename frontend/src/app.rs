@@ -35,10 +35,13 @@ pub fn App() -> Html {
         let (full, pending) = (full.clone(), pending.clone());
         use_effect_with(state.project.clone(), move |p| {
             let p = p.clone();
-            *pending.borrow_mut() = Some(gloo::timers::callback::Timeout::new(SPREAD_DELAY_MS, move || {
-                let plan = bridge::analyse(&p);
-                full.set(Some((p, Rc::new(plan))));
-            }));
+            *pending.borrow_mut() = Some(gloo::timers::callback::Timeout::new(
+                SPREAD_DELAY_MS,
+                move || {
+                    let plan = bridge::analyse(&p);
+                    full.set(Some((p, Rc::new(plan))));
+                },
+            ));
         });
     }
     let plan: Rc<Result<Plan, String>> = match &*full {

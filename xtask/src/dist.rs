@@ -40,27 +40,37 @@ fn sha256_b64(text: &str) -> String {
     base64::engine::general_purpose::STANDARD.encode(Sha256::digest(text.as_bytes()))
 }
 
-/// Builds dist/ohmstack.html and returns its path.
-pub fn run() -> Result<PathBuf> {
+/// The cargo target directory (`CARGO_TARGET_DIR` or target/ in the workspace).
+pub fn target_dir() -> PathBuf {
+    std::env::var_os("CARGO_TARGET_DIR")
+        .map(PathBuf::from)
+        .unwrap_or_else(|| root().join("target"))
+}
+
+/// Builds `package` (its library) for wasm32 with the wasm-release profile and returns the .wasm path.
+pub fn build_wasm(package: &str) -> Result<PathBuf> {
     ensure_wasm_target()?;
     util::run(cargo().args([
         "build",
         "-p",
-        "ohmstack-web",
+        package,
+        "--lib",
         "--profile",
         "wasm-release",
         "--target",
         TARGET,
     ]))?;
-    let target_dir = std::env::var_os("CARGO_TARGET_DIR")
-        .map(PathBuf::from)
-        .unwrap_or_else(|| root().join("target"));
-    let wasm_path = target_dir
+    Ok(target_dir()
         .join(TARGET)
         .join("wasm-release")
-        .join("ohmstack-web.wasm");
+        .join(format!("{}.wasm", package.replace('-', "_"))))
+}
+
+/// Runs wasm-bindgen (web target) on `wasm_path` and returns the JS glue, ready to sit in one inline module
+/// script, and the processed WASM bytes. Fails when the module needs JS snippets or local modules.
+pub fn bindgen_inline(wasm_path: &std::path::Path) -> Result<(String, Vec<u8>)> {
     let mut output = wasm_bindgen_cli_support::Bindgen::new()
-        .input_path(&wasm_path)
+        .input_path(wasm_path)
         .web(true)?
         .typescript(false)
         .generate_output()
@@ -77,14 +87,33 @@ pub fn run() -> Result<PathBuf> {
     if js.contains("</script") {
         bail!("the generated JS contains `</script`, which would end the inline script early");
     }
-    let wasm = output.wasm_mut().emit_wasm();
+    // The generated module ends with `export { initSync, __wbg_init as default }`; strip the export so the code can
+    // sit in one inline module script.
+    let js = js.replace("export { initSync, __wbg_init as default };", "");
+    Ok((js, output.wasm_mut().emit_wasm()))
+}
+
+/// Builds dist/ohmstack.html and returns its path.
+pub fn run() -> Result<PathBuf> {
+    ensure_wasm_target()?;
+    util::run(cargo().args([
+        "build",
+        "-p",
+        "ohmstack-web",
+        "--profile",
+        "wasm-release",
+        "--target",
+        TARGET,
+    ]))?;
+    let wasm_path = target_dir()
+        .join(TARGET)
+        .join("wasm-release")
+        .join("ohmstack-web.wasm");
+    let (js, wasm) = bindgen_inline(&wasm_path)?;
     // The WASM travels deflate-compressed (raw deflate, decoded by the browser's own DecompressionStream), which
-    // roughly halves the file against plain base64 of the binary.
+    // roughly halves the file against plain base64 of the binary; async compile, so no 8 MB sync limit either.
     let packed = miniz_oxide::deflate::compress_to_vec(&wasm, 10);
     let wasm_b64 = base64::engine::general_purpose::STANDARD.encode(&packed);
-    // The generated module ends with `export { initSync, __wbg_init as default }`; strip the export so the code can
-    // sit in one inline module script, then start it with the inline bytes (async compile: no 8 MB sync limit).
-    let js = js.replace("export { initSync, __wbg_init as default };", "");
     let script = format!(
         "{js}\nconst b64 = \"{wasm_b64}\";\n\
          try {{\n\

@@ -1,6 +1,8 @@
-//! Build tasks for the workspace, run as `cargo xtask <task>`: `dist` (one-file web app), `serve`, `test`, `fuzz`.
+//! Build tasks for the workspace, run as `cargo xtask <task>`: `dist` (one-file web app), `serve`, `test`,
+//! `fuzz`, `bench`.
 //! Hand-written argument parsing keeps this crate to a few dependencies.
 
+mod bench;
 mod dist;
 mod fuzz;
 mod serve;
@@ -15,7 +17,10 @@ tasks:
   dist                 build the web app into one self-contained file, dist/ohmstack.html
   serve [--port N]     build, then serve dist/ohmstack.html on http://127.0.0.1:N/ (default 8080)
   test                 install what the tests need, then fmt check, clippy, all tests, reference and browser tests
-  fuzz [--seconds N]   run every libFuzzer target in fuzz/ for N s each (default 60); installs cargo-fuzz";
+  fuzz [--seconds N]   run every libFuzzer target in fuzz/ for N s each (default 60); installs cargo-fuzz
+  bench [--quick] [--no-criterion] [--no-browser]
+                       criterion benches, peer comparison with scikit-rf, WASM vs native, bundle figures
+                       (see BENCHMARKS.md; writes target/bench/summary.md)";
 
 fn main() {
     if let Err(e) = run() {
@@ -42,6 +47,7 @@ fn run() -> Result<()> {
         }
         Some("test") => test::run(),
         Some("fuzz") => fuzz::run(fuzz::parse_seconds(&args[1..])?),
+        Some("bench") => bench::run(&args[1..]),
         Some("-h" | "--help") | None => {
             println!("{HELP}");
             Ok(())

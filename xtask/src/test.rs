@@ -9,8 +9,8 @@ use sha2::{Digest, Sha256};
 use std::path::{Path, PathBuf};
 use std::process::Command;
 
-const CHROMIUM: &str = "/usr/bin/chromium";
-const CHROMEDRIVER: &str = "/usr/bin/chromedriver";
+pub const CHROMIUM: &str = "/usr/bin/chromium";
+pub const CHROMEDRIVER: &str = "/usr/bin/chromedriver";
 
 fn ensure_chromium() -> Result<()> {
     if Path::new(CHROMIUM).exists() && Path::new(CHROMEDRIVER).exists() {
@@ -35,7 +35,7 @@ fn ensure_chromium() -> Result<()> {
 }
 
 /// Creates target/pyenv and installs tests/python/requirements.txt into it, once per requirements change.
-fn ensure_venv() -> Result<PathBuf> {
+pub fn ensure_venv() -> Result<PathBuf> {
     let venv = root().join("target").join("pyenv");
     let python = venv.join("bin").join("python");
     let requirements = root().join("tests").join("python").join("requirements.txt");

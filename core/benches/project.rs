@@ -1,0 +1,66 @@
+//! Criterion benchmarks of the whole-project recompute and of the tolerance spread, on the 12-layer, 16-rule
+//! fixture (tests/fixtures/twelve_layer_sixteen_rules.json). Run: `cargo bench -p ohmstack-core --bench project`.
+//!
+//! TODO(field-solver): when the 2D field solver lands, add a `field_solve` group here (one solve to 0.5 % per
+//! structure) and fill its row in BENCHMARKS.md; `cargo xtask bench` picks up every group of this file.
+
+use criterion::{criterion_group, criterion_main, Criterion};
+use ohmstack_core::spread::{self, SampleModel, SpreadOptions};
+use ohmstack_core::{plan, plan_with, PlanOptions, Project};
+use std::hint::black_box;
+use std::time::Duration;
+
+const FIXTURE: &str = include_str!("../../tests/fixtures/twelve_layer_sixteen_rules.json");
+
+fn project() -> Project {
+    let p = Project::from_json(FIXTURE).unwrap();
+    assert_eq!(p.rules.len(), 16);
+    assert_eq!(p.stackup.copper_count(), 12);
+    p
+}
+
+fn config() -> Criterion {
+    Criterion::default()
+        .sample_size(10)
+        .warm_up_time(Duration::from_millis(300))
+        .measurement_time(Duration::from_secs(2))
+}
+
+fn monte_carlo(c: &mut Criterion) {
+    let p = project();
+    let rule = &p.rules[0];
+    let result = ohmstack_core::plan::analyze_rule(&p, rule).unwrap();
+    let mut g = c.benchmark_group("spread_10000_one_rule");
+    for (label, model) in [
+        ("quadratic surface", SampleModel::Quadratic),
+        ("direct model", SampleModel::Direct),
+    ] {
+        let opts = SpreadOptions {
+            samples: 10_000,
+            model,
+            ..SpreadOptions::default()
+        };
+        g.bench_function(label, |b| {
+            b.iter(|| spread::run(&p, rule, &result, black_box(&opts)).unwrap())
+        });
+    }
+    g.finish();
+}
+
+fn recompute(c: &mut Criterion) {
+    let p = project();
+    let mut g = c.benchmark_group("recompute_12_layers_16_rules");
+    g.bench_function("plan", |b| b.iter(|| plan(black_box(&p)).unwrap()));
+    let with_spread = PlanOptions::with_spread();
+    g.bench_function("plan_with spread", |b| {
+        b.iter(|| plan_with(black_box(&p), &with_spread).unwrap())
+    });
+    g.finish();
+}
+
+criterion_group! {
+    name = benches;
+    config = config();
+    targets = monte_carlo, recompute
+}
+criterion_main!(benches);
