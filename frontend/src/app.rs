@@ -44,9 +44,9 @@ pub fn App() -> Html {
             ));
         });
     }
-    let plan: Rc<Result<Plan, String>> = match &*full {
-        Some((p, plan)) if *p == state.project => plan.clone(),
-        _ => Rc::new((*quick).clone()),
+    let (plan, settled): (Rc<Result<Plan, String>>, bool) = match &*full {
+        Some((p, plan)) if *p == state.project => (plan.clone(), true),
+        _ => (Rc::new((*quick).clone()), false),
     };
     // The last plan that computed, shown greyed while the current one cannot be.
     let last_good = use_mut_ref(|| None::<Rc<Plan>>);
@@ -180,7 +180,7 @@ pub fn App() -> Html {
         })
     };
     html! {
-        <main id="app" data-ready="true" data-stale={stale.to_string()}>
+        <main id="app" data-ready="true" data-stale={stale.to_string()} data-settled={settled.to_string()}>
             <Toolbar project={project.clone()} drafts={drafts.clone()} can_undo={!state.undo.is_empty()} can_redo={!state.redo.is_empty()}
                 notice={state.notice.clone()} storage={(*storage).clone()} dispatch={dispatch.clone()}
                 {on_demo} {on_blank} {on_save} {on_open} />

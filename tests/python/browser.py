@@ -44,7 +44,8 @@ def wait_ready(driver, timeout: float = 30.0):
         err = driver.execute_script("return document.body && document.body.dataset.loadError")
         if err:
             raise AssertionError(f"app failed to start: {err}")
-        if driver.find_elements(By.CSS_SELECTOR, "main#app[data-ready='true']"):
+        # Ready, and settled: the tolerance spread (computed once edits pause) is in for the project on screen.
+        if driver.find_elements(By.CSS_SELECTOR, "main#app[data-ready='true']:not([data-settled='false'])"):
             return
         time.sleep(0.05)
     raise AssertionError("app did not render within %.0f s" % timeout)

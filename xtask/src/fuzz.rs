@@ -11,7 +11,13 @@ use std::process::Command;
 
 /// The fuzz targets, in the order they run. A new target (e.g. the field solver) is one more name here plus a
 /// `[[bin]]` in fuzz/Cargo.toml.
-pub const TARGETS: &[&str] = &["share_decode", "project_json", "models", "plan_project"];
+pub const TARGETS: &[&str] = &[
+    "share_decode",
+    "project_json",
+    "models",
+    "plan_project",
+    "field",
+];
 
 /// Seconds per target when `--seconds` is not given.
 pub const DEFAULT_SECONDS: u64 = 60;
