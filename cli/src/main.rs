@@ -29,10 +29,11 @@ usage:
                                         ohmstack calc microstrip --width 0.3mm --height 0.17mm --thickness 35um --dk 4.2
   ohmstack solve KIND --target OHMS --field value ... [--json]
                                         find the width that gives the target impedance
-  ohmstack spread FILE|- [--rule NAME] [--samples N] [--seed S] [--model direct|quadratic] [--json]
+  ohmstack spread FILE|- [--rule NAME] [--samples N] [--seed S] [--model direct|quadratic|field] [--json]
                                         tolerance spread and yield per rule: corners, Monte Carlo,
                                         sensitivities, tolerance-centred width (default 10000 samples, seed 1;
-                                        quadratic = the fast response surface the app uses)
+                                        quadratic = the fast response surface the app uses; field = the 2D
+                                        field solver through that surface, no centring)
   ohmstack random normal|uniform [--count N] [--seed S]
                                         the spread's seeded random stream, one number a line (for checks)
   ohmstack batch                        JSON lines of cases on stdin, JSON lines of results on stdout
@@ -702,10 +703,13 @@ fn spread(args: &[String]) -> Result<()> {
     let samples = parse_count::<usize>(&mut map, "samples")?.unwrap_or(spread::DEFAULT_SAMPLES);
     let seed = parse_count::<u64>(&mut map, "seed")?.unwrap_or(spread::DEFAULT_SEED);
     let only = map.remove("rule");
-    let model = match map.remove("model").as_deref() {
-        None | Some("direct") => SampleModel::Direct,
-        Some("quadratic") => SampleModel::Quadratic,
-        Some(other) => bail!("--model: {other:?} is not direct or quadratic"),
+    // `field`: the 2D field solver is the impedance model, through the quadratic response surface (each call is a
+    // whole field solve), without tolerance centring (which would re-solve the width many times).
+    let (model, use_field) = match map.remove("model").as_deref() {
+        None | Some("direct") => (SampleModel::Direct, false),
+        Some("quadratic") => (SampleModel::Quadratic, false),
+        Some("field") => (SampleModel::Quadratic, true),
+        Some(other) => bail!("--model: {other:?} is not direct, quadratic or field"),
     };
     if let Some(k) = map.keys().next() {
         bail!("--{k}: not an option of spread");
@@ -732,13 +736,21 @@ fn spread(args: &[String]) -> Result<()> {
     let opts = SpreadOptions {
         samples,
         seed,
-        centre: true,
+        centre: !use_field,
         model,
+    };
+    let field_model = ohmstack_core::field::rules::FieldModel {
+        etch_factor: project.fab.etch_factor,
+        options: FieldOptions::default(),
     };
     let mut out = Vec::new();
     for rule in rules {
         let result = ohmstack_core::plan::analyze_rule(&project, rule).and_then(|r| {
-            let s = spread::run(&project, rule, &r, &opts)?;
+            let s = if use_field {
+                spread::run_with_model(&project, rule, &r, &opts, &field_model)?
+            } else {
+                spread::run(&project, rule, &r, &opts)?
+            };
             Ok((r, s))
         });
         out.push((rule.name.clone(), result));
@@ -759,8 +771,13 @@ fn spread(args: &[String]) -> Result<()> {
         return Ok(());
     }
     println!(
-        "{} — tolerance spread, {samples} samples, seed {seed} (design estimates from the closed-form models)",
-        project.title
+        "{} — tolerance spread, {samples} samples, seed {seed} (design estimates from {})",
+        project.title,
+        if use_field {
+            "the 2D field solver through a quadratic response surface"
+        } else {
+            "the closed-form models"
+        }
     );
     for (name, r) in &out {
         println!();

@@ -165,3 +165,38 @@ fn field_calc_bad_input_names_the_field() {
         assert!(!err.contains("panicked"), "{err}");
     }
 }
+
+#[test]
+fn spread_on_the_field_solver_agrees_with_the_closed_form_spread() {
+    // Two impedance models of the same coated microstrip (closed form within ~1 % of the field solve): their
+    // tolerance spreads, from the same seeded draws, must agree closely in σ — a check that the field model is
+    // wired into the spread, not a reference value.
+    let (_, demo, _) = ohmstack(&["demo"], "");
+    let rule = "Single-ended 50 Ω top";
+    let sigma = |model: &str| -> f64 {
+        let (code, out, err) = ohmstack(
+            &[
+                "spread",
+                "-",
+                "--rule",
+                rule,
+                "--model",
+                model,
+                "--samples",
+                "2000",
+                "--json",
+            ],
+            &demo,
+        );
+        assert_eq!(code, 0, "{err}");
+        let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+        v["rules"][0]["spread"]["monte_carlo"]["sigma_ohm"]
+            .as_f64()
+            .unwrap()
+    };
+    let (closed, field) = (sigma("quadratic"), sigma("field"));
+    assert!(
+        (closed - field).abs() / closed < 0.15,
+        "closed-form σ {closed} vs field σ {field}"
+    );
+}

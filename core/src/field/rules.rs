@@ -143,6 +143,28 @@ pub fn check_rule(
     })
 }
 
+/// The field solver as the impedance model of a tolerance spread, for `ohmstack spread --model field`: every call
+/// is a whole field solve, so use it with the quadratic response surface (about 1 + 2n + 2n(n−1) solves per rule for
+/// n varied parameters), which the spread then samples.
+#[derive(Debug, Clone, Copy)]
+pub struct FieldModel {
+    /// The project's etch factor (trapezoidal traces), if any.
+    pub etch_factor: Option<f64>,
+    pub options: FieldOptions,
+}
+
+impl crate::spread::ImpedanceModel for FieldModel {
+    fn impedance(
+        &self,
+        cs: &crate::cross_section::CrossSection,
+        structure: crate::project::Structure,
+        dims: &Dims,
+    ) -> Result<f64> {
+        super::solve_cross_section(cs, structure, dims, self.etch_factor, self.options)
+            .map(|r| r.controlled_ohm)
+    }
+}
+
 /// Field-checks every rule; a rule that fails carries its error message.
 pub fn check_project(
     project: &Project,
