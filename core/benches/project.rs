@@ -1,8 +1,8 @@
 //! Criterion benchmarks of the whole-project recompute and of the tolerance spread, on the 12-layer, 16-rule
 //! fixture (tests/fixtures/twelve_layer_sixteen_rules.json). Run: `cargo bench -p ohmstack-core --bench project`.
 //!
-//! TODO(field-solver): when the 2D field solver lands, add a `field_solve` group here (one solve to 0.5 % per
-//! structure) and fill its row in BENCHMARKS.md; `cargo xtask bench` picks up every group of this file.
+//! The `field_solve` group times one 2D field solve at the default accuracy for each rule of the fixture whose
+//! structure the solver builds (a sample of every family); `cargo xtask bench` picks up every group of this file.
 
 use criterion::{criterion_group, criterion_main, Criterion};
 use ohmstack_core::spread::{self, SampleModel, SpreadOptions};
@@ -58,9 +58,43 @@ fn recompute(c: &mut Criterion) {
     g.finish();
 }
 
+fn field_solve(c: &mut Criterion) {
+    let p = project();
+    let mut g = c.benchmark_group("field_solve_default_accuracy");
+    let mut seen = std::collections::BTreeSet::new();
+    for rule in &p.rules {
+        let Ok(r) = ohmstack_core::plan::analyze_rule(&p, rule) else {
+            continue;
+        };
+        let label = format!("{} {}", r.family, r.structure);
+        if !seen.insert(label.clone()) {
+            continue;
+        }
+        let dims = ohmstack_core::models::Dims {
+            w: r.width_m,
+            s: r.spacing_m,
+            gap: r.gap_m,
+        };
+        let solve = || {
+            ohmstack_core::field::solve_cross_section(
+                &r.cross_section,
+                rule.structure,
+                &dims,
+                p.fab.etch_factor,
+                ohmstack_core::field::FieldOptions::default(),
+            )
+        };
+        if solve().is_err() {
+            continue;
+        }
+        g.bench_function(label, |b| b.iter(|| solve().unwrap()));
+    }
+    g.finish();
+}
+
 criterion_group! {
     name = benches;
     config = config();
-    targets = monte_carlo, recompute
+    targets = monte_carlo, recompute, field_solve
 }
 criterion_main!(benches);

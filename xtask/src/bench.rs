@@ -7,8 +7,7 @@
 //! Options: `--quick` (criterion `--quick`, fewer repeats), `--no-criterion`, `--no-browser` (skips the WASM and
 //! bundle parts, which need the wasm32 target, Chromium and a dist build). Writes target/bench/summary.md.
 //!
-//! TODO(field-solver): when the field solver lands, add its peer row here (our solve to 0.5 % against scikit-fem at
-//! equal accuracy, native and in WASM) next to `peer`, and export a `field_solve(n)` from bench-wasm.
+//! The field solve is compared with scikit-fem by bench/field_peer.py (both against Cohn's exact stripline).
 
 use crate::util::{self, cargo, root};
 use anyhow::{bail, Context, Result};
@@ -192,6 +191,37 @@ pub fn run(args: &[String]) -> Result<()> {
         bail!("ohmstack batch failed ({status})");
     }
 
+    // Field solve against scikit-fem at matched accuracy, both measured against Cohn's exact stripline.
+    util::run(cargo().args(["build", "--release", "-q", "-p", "ohmstack"]))?;
+    let exe = crate::dist::target_dir().join("release").join("ohmstack");
+    let field = Command::new(&python)
+        .arg(root().join("bench").join("field_peer.py"))
+        .arg(&exe)
+        .current_dir(root())
+        .output()
+        .context("running bench/field_peer.py")?;
+    if !field.status.success() {
+        bail!(
+            "bench/field_peer.py failed: {}",
+            String::from_utf8_lossy(&field.stderr)
+        );
+    }
+    for line in String::from_utf8_lossy(&field.stdout).lines() {
+        eprintln!("{line}");
+        if let Some(rest) = line.strip_prefix("at ") {
+            rows.push((
+                format!(
+                    "field solve vs scikit-fem P2 (stripline, Cohn exact), at {}",
+                    rest.split(':').next().unwrap_or("")
+                ),
+                rest.split_once(": ")
+                    .map(|(_, r)| r.to_string())
+                    .unwrap_or_default(),
+                "cargo xtask bench (bench/field_peer.py)".into(),
+            ));
+        }
+    }
+
     let ratio = |a: f64, b: f64| format!("{:.0}×", a / b);
     let peer_cmd = "cargo xtask bench (bench/peer_skrf.py + core/benches/peer_microstrip.rs)";
     rows.push((
@@ -297,12 +327,6 @@ pub fn run(args: &[String]) -> Result<()> {
             "cargo xtask bench (bench/browser_bench.py bundle)".into(),
         ));
     }
-    rows.push((
-        "field solve to 0.5 % vs scikit-fem; field solve in WASM".into(),
-        "TODO: the field solver lands from another branch".into(),
-        "-".into(),
-    ));
-
     let mut md = format!(
         "# cargo xtask bench{}\n\nmachine at start: {started}\nmachine at end: {}\n\n| figure | value | command |\n|---|---|---|\n",
         if o.quick { " --quick" } else { "" },
