@@ -3,6 +3,7 @@
 
 use anyhow::{anyhow, bail, Context, Result};
 use ohmstack_core::case::{self, LineCase};
+use ohmstack_core::field::rules::RuleFieldJob;
 use ohmstack_core::field::{Comparison, FieldOptions, FieldResult};
 use ohmstack_core::loss;
 use ohmstack_core::models::Dims;
@@ -39,11 +40,14 @@ usage:
   ohmstack batch                        JSON lines of cases on stdin, JSON lines of results on stdout
   ohmstack kinds                        list the structures calc/solve/batch know
   ohmstack materials [--json]           generic dielectric classes with typical Dk/Df (the app's presets)
-  ohmstack field FILE|- [--rule NAME] [--tolerance PCT] [--json]
+  ohmstack field FILE|- [--rule NAME] [--tolerance PCT] [--map out.svg|out.json] [--json]
                                         closed form vs 2D field solve for each rule of a project
-  ohmstack field-calc KIND --field value ... [--spacing S] [--gap G] [--etch-factor E] [--tolerance PCT] [--json]
+  ohmstack field-calc KIND --field value ... [--spacing S] [--gap G] [--etch-factor E] [--tolerance PCT]
+                  [--map out.svg|out.json] [--json]
                                         2D field solve of one structure (KIND as for calc; --spacing makes an
                                         edge-coupled pair, --gap a coplanar line, both a coplanar pair)
+    --map writes the solution's potential: an SVG picture, or the sampled values as JSON (field needs
+    one rule for it: --rule NAME)
   ohmstack share encode FILE|-          print the share link (v1.…) of a project
   ohmstack share decode LINK|-          print the project JSON a share link holds (a whole URL is fine)
   ohmstack notes FILE|- [--format md|csv]
@@ -1051,6 +1055,40 @@ fn plot(args: &[String]) -> Result<()> {
     write_svg(output, &svg)
 }
 
+/// Where `--map` writes, and as what.
+enum MapTarget {
+    Svg(String),
+    Json(String),
+}
+
+fn map_target(path: &str) -> Result<MapTarget> {
+    let lower = path.to_ascii_lowercase();
+    if lower.ends_with(".svg") {
+        Ok(MapTarget::Svg(path.to_string()))
+    } else if lower.ends_with(".json") {
+        Ok(MapTarget::Json(path.to_string()))
+    } else {
+        bail!("--map: {path:?} must end in .svg (a picture) or .json (the sampled potential)")
+    }
+}
+
+/// Writes the potential map of a finished solve.
+fn write_map(
+    target: &MapTarget,
+    map: Option<ohmstack_core::field::PotentialMap>,
+    title: &str,
+) -> Result<()> {
+    let map = map.ok_or_else(|| anyhow!("--map: the field solve gave no potential to draw"))?;
+    let (path, text) = match target {
+        MapTarget::Svg(p) => {
+            let title = format!("Potential of {title} ({})", map.drive_label());
+            (p, ohmstack_core::plot::potential_map(&map, &title)?)
+        }
+        MapTarget::Json(p) => (p, serde_json::to_string(&map)?),
+    };
+    std::fs::write(path, text).with_context(|| format!("--map: writing {path}"))
+}
+
 /// Field-solver options from `--tolerance PCT` (percent).
 fn field_options(map: &mut BTreeMap<String, String>) -> Result<FieldOptions> {
     let mut options = FieldOptions::default();
@@ -1152,6 +1190,7 @@ fn field_calc(args: &[String]) -> Result<()> {
     if map.contains_key("target") {
         bail!("--target: field-calc analyses the given width; use `solve` for synthesis");
     }
+    let map_path = map.remove("map").map(|p| map_target(&p)).transpose()?;
     // Kinds that name their own pattern (pairs, coplanar) take --spacing/--gap as `calc` does; for the plain
     // single-line kinds, --spacing and --gap turn the line into a pair or a coplanar line.
     let own_pattern = case::parse(kind, &map)
@@ -1182,14 +1221,18 @@ fn field_calc(args: &[String]) -> Result<()> {
     };
     let closed = case.analyze().ok();
     let started = Instant::now();
-    let r = ohmstack_core::field::solve_cross_section(
-        &case.cross_section,
-        case.structure,
-        &case.dims,
-        etch,
-        options,
-    )?;
+    let geometry =
+        ohmstack_core::field::build(&case.cross_section, case.structure, &case.dims, etch)?;
+    let mut solve = ohmstack_core::field::FieldSolve::new(geometry, options)?;
+    solve.run();
+    let r = solve
+        .result()
+        .ok_or_else(|| anyhow!("the field solve did not finish"))??;
     let elapsed_ms = started.elapsed().as_secs_f64() * 1e3;
+    if let Some(target) = &map_path {
+        let title = format!("{} {}", case.cross_section.family(), case.structure.label());
+        write_map(target, solve.potential_map(), &title)?;
+    }
     let cmp = ohmstack_core::field::compare(
         closed.as_ref().map(|e| (e.method, e.analysis.controlled())),
         r.controlled_ohm,
@@ -1223,6 +1266,7 @@ fn field_project(args: &[String]) -> Result<()> {
     let (mut map, json, positional) = flags(args)?;
     let options = field_options(&mut map)?;
     let only = map.remove("rule");
+    let map_path = map.remove("map").map(|p| map_target(&p)).transpose()?;
     if let Some(k) = map.keys().next() {
         bail!("--{k}: not an option of field");
     }
@@ -1241,10 +1285,34 @@ fn field_project(args: &[String]) -> Result<()> {
             only.as_deref().unwrap_or_default()
         );
     }
+    if map_path.is_some() && rules.len() > 1 {
+        bail!("--map: pictures one rule; name it with --rule NAME");
+    }
     let mut out = Vec::new();
     for rule in rules {
         let started = Instant::now();
-        let check = ohmstack_core::field::rules::check_rule(&project, rule, options);
+        let mut job = None;
+        let check = RuleFieldJob::start(&project, rule, options).and_then(|mut j| {
+            j.run();
+            let check = j.finish().unwrap_or_else(|| {
+                Err(ohmstack_core::Error::Invalid {
+                    field: "field".into(),
+                    reason: "the field solve did not finish".into(),
+                })
+            });
+            job = Some(j);
+            check
+        });
+        if let Some(target) = &map_path {
+            match (&check, &job) {
+                (Ok(_), Some(j)) => write_map(target, j.potential_map(), &rule.name)?,
+                (Err(e), _) => bail!("--map: the field solve of {:?} failed: {e}", rule.name),
+                (Ok(_), None) => bail!(
+                    "--map: the field solve of {:?} gave no potential",
+                    rule.name
+                ),
+            }
+        }
         let ms = started.elapsed().as_secs_f64() * 1e3;
         out.push((rule.name.clone(), check, ms));
     }

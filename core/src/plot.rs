@@ -94,6 +94,21 @@ pub struct Field2d {
     pub values: Vec<f64>,
     /// Number of contour levels drawn over the colours (0 for none; clamped to 50).
     pub contours: usize,
+    /// Lines drawn over the field (in the field's coordinates), e.g. conductor outlines.
+    pub overlays: Vec<Overlay>,
+}
+
+/// A polyline over a heat map.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Overlay {
+    /// SVG class of the path (also says what it is to a reader of the SVG).
+    pub class: &'static str,
+    pub points: Vec<(f64, f64)>,
+    pub stroke: &'static str,
+    pub width: f64,
+    pub dashed: bool,
+    /// Fill of a closed outline (`None` draws the line only).
+    pub fill: Option<&'static str>,
 }
 
 const W: f64 = 640.0;
@@ -444,6 +459,9 @@ const RAMP: [(f64, f64, f64); 5] = [
     (253.0, 231.0, 37.0),
 ];
 
+/// Colour levels of heat-map cells (finer than the eye separates next to contour lines).
+const COLOUR_STEPS: f64 = 48.0;
+
 fn colour(t: f64) -> String {
     let t = if t.is_finite() {
         t.clamp(0.0, 1.0)
@@ -523,26 +541,53 @@ pub fn heat_map(field: &Field2d) -> Result<String> {
     let y_base = MT + (ah + (yb - ya) * scale) / 2.0;
     let px = |x: f64| ML + (x - xa) * scale;
     let py = |y: f64| y_base - (y - ya) * scale;
+    // One rectangle per run of cells of the same (quantised) colour along a row: a potential map has wide
+    // regions of one colour (inside copper, far from it), and the SVG stays small.
+    let cell_colour = |i: usize, j: usize| -> Option<String> {
+        let corners = [at(i, j), at(i + 1, j), at(i, j + 1), at(i + 1, j + 1)];
+        let good: Vec<f64> = corners.iter().copied().filter(|v| v.is_finite()).collect();
+        if good.is_empty() {
+            return None;
+        }
+        let mean = good.iter().sum::<f64>() / good.len() as f64;
+        let t = (mean - vlo) / (vhi - vlo);
+        Some(colour((t * COLOUR_STEPS).round() / COLOUR_STEPS))
+    };
+    // All runs of one colour go into one path (a few dozen paths instead of thousands of rectangles).
+    let mut by_colour: std::collections::BTreeMap<String, String> = Default::default();
     for j in 0..ny - 1 {
-        for i in 0..nx - 1 {
-            let corners = [at(i, j), at(i + 1, j), at(i, j + 1), at(i + 1, j + 1)];
-            let good: Vec<f64> = corners.iter().copied().filter(|v| v.is_finite()).collect();
-            if good.is_empty() {
+        let (y0, y1) = (py(field.ys[j + 1]), py(field.ys[j]));
+        let mut i = 0;
+        while i < nx - 1 {
+            let Some(fill) = cell_colour(i, j) else {
+                i += 1;
                 continue;
+            };
+            let mut end = i + 1;
+            while end < nx - 1 && cell_colour(end, j).as_ref() == Some(&fill) {
+                end += 1;
             }
-            let mean = good.iter().sum::<f64>() / good.len() as f64;
-            let (x0, x1) = (px(field.xs[i]), px(field.xs[i + 1]));
-            let (y0, y1) = (py(field.ys[j + 1]), py(field.ys[j]));
+            let (x0, x1) = (px(field.xs[i]), px(field.xs[end]));
+            // A slight overlap hides seams between neighbouring runs.
+            let (w, h) = (x1 - x0 + 0.3, y1 - y0 + 0.3);
+            let d = by_colour.entry(fill).or_default();
             let _ = write!(
-                s,
-                r##"<rect class="cell" x="{}" y="{}" width="{}" height="{}" fill="{}"/>"##,
+                d,
+                "M{} {}h{}v{}h-{}z",
                 num(x0),
                 num(y0),
-                num((x1 - x0) + 0.3),
-                num((y1 - y0) + 0.3),
-                colour((mean - vlo) / (vhi - vlo))
+                num(w),
+                num(h),
+                num(w)
             );
+            i = end;
         }
+    }
+    for (fill, d) in &by_colour {
+        let _ = write!(
+            s,
+            r##"<path class="cells" fill="{fill}" shape-rendering="crispEdges" d="{d}"/>"##
+        );
     }
     let levels = field.contours.min(50);
     for l in 1..=levels {
@@ -569,6 +614,39 @@ pub fn heat_map(field: &Field2d) -> Result<String> {
                 d.trim_end()
             );
         }
+    }
+    for o in &field.overlays {
+        let d: Vec<String> = o
+            .points
+            .iter()
+            .filter(|p| p.0.is_finite() && p.1.is_finite())
+            .enumerate()
+            .map(|(k, p)| {
+                format!(
+                    "{}{} {}",
+                    if k == 0 { 'M' } else { 'L' },
+                    num(px(p.0)),
+                    num(py(p.1))
+                )
+            })
+            .collect();
+        if d.len() < 2 {
+            continue;
+        }
+        let _ = write!(
+            s,
+            r##"<path class="{}" d="{}" fill="{}" stroke="{}" stroke-width="{}"{}/>"##,
+            xml_escape(o.class),
+            d.join(" "),
+            xml_escape(o.fill.unwrap_or("none")),
+            xml_escape(o.stroke),
+            num(o.width),
+            if o.dashed {
+                r#" stroke-dasharray="4 3""#
+            } else {
+                ""
+            }
+        );
     }
     let _ = write!(
         s,
@@ -631,6 +709,64 @@ pub fn heat_map(field: &Field2d) -> Result<String> {
     }
     s.push_str("</svg>\n");
     Ok(s)
+}
+
+/// The potential map of a field solve as a heat map with equipotentials every tenth of the drive (0.1 V steps
+/// for a single line; 0.2 V from −0.8 to +0.8 V for a pair's ±1 V), the copper outlined, planes drawn thick and
+/// dielectric interfaces dashed. Coordinates in µm (mm for windows wider than 3 mm).
+pub fn potential_map(map: &crate::field::PotentialMap, title: &str) -> Result<String> {
+    use crate::field::map::OutlineKind;
+    let width = map.xs.last().copied().unwrap_or(0.0) - map.xs.first().copied().unwrap_or(0.0);
+    let (scale, unit) = if width > 3e-3 {
+        (1e3, "mm")
+    } else {
+        (1e6, "µm")
+    };
+    // Interfaces first, then planes, then copper (filled in a copper colour: its potential is the drive's, and the
+    // fill hides interface lines that run through it). Copper gets a light halo under a dark line, so it shows on
+    // both ends of the colour ramp.
+    let mut overlays = Vec::new();
+    for kind in [
+        OutlineKind::Interface,
+        OutlineKind::Plane,
+        OutlineKind::Copper,
+    ] {
+        let strokes: &[(&'static str, &'static str, f64, bool, Option<&'static str>)] = match kind {
+            OutlineKind::Interface => &[("interface", "#e8e8e8", 0.9, true, None)],
+            OutlineKind::Plane => &[("plane", "#b87333", 4.0, false, None)],
+            OutlineKind::Copper => &[
+                ("copper-halo", "#ffffff", 3.0, false, None),
+                ("copper", "#1a1a1a", 1.2, false, Some("#c9874f")),
+            ],
+        };
+        for o in map.outlines.iter().filter(|o| o.kind == kind) {
+            for &(class, stroke, width, dashed, fill) in strokes {
+                overlays.push(Overlay {
+                    class,
+                    points: o
+                        .points
+                        .iter()
+                        .map(|&(x, y)| (x * scale, y * scale))
+                        .collect(),
+                    stroke,
+                    width,
+                    dashed,
+                    fill,
+                });
+            }
+        }
+    }
+    heat_map(&Field2d {
+        title: title.to_string(),
+        x_label: format!("x ({unit})"),
+        y_label: format!("y ({unit})"),
+        xs: map.xs.iter().map(|x| x * scale).collect(),
+        ys: map.ys.iter().map(|y| y * scale).collect(),
+        values: map.values.clone(),
+        // Nine levels between the extremes: tenths of the span (the values reach the drive's extremes in copper).
+        contours: 9,
+        overlays,
+    })
 }
 
 /// Contour segments of one grid cell at `level` (marching squares; saddles split by the cell's mean value).
@@ -920,10 +1056,18 @@ pub(crate) mod tests {
             ys,
             values,
             contours: 3,
+            overlays: vec![],
         };
         let svg = heat_map(&f).unwrap();
         assert_well_formed(&svg);
-        assert_eq!(svg.matches("class=\"cell\"").count(), 12);
+        // 12 cells, one run each (every column has its own colour), in 4 colour paths.
+        assert_eq!(svg.matches("class=\"cells\"").count(), 4);
+        let runs: usize = svg
+            .split("class=\"cells\"")
+            .skip(1)
+            .map(|p| p[..p.find("/>").unwrap()].matches('z').count())
+            .sum();
+        assert_eq!(runs, 12);
         assert_eq!(svg.matches("class=\"contour\"").count(), 3);
         // Each level crosses 3 rows of cells: one segment each, all with equal x at both ends.
         for seg in cell_segments(&f, 1, 0, 1.5) {

@@ -47,6 +47,7 @@
 pub mod extract;
 pub mod geometry;
 pub mod grid;
+pub mod map;
 pub mod rules;
 pub mod solve;
 
@@ -63,6 +64,7 @@ use solve::{Pcg, System, Wall};
 
 pub use extract::{compare, Comparison};
 pub use geometry::{build, build_layered, LayerStack, Slab};
+pub use map::PotentialMap;
 
 /// Knobs of the solve. The defaults aim at 0.3 % estimated error (the extrapolated value is typically 5–10× better) in well under a second natively.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -587,6 +589,17 @@ impl FieldSolve {
         })
     }
 
+    /// Runs the rest of the solve (blocking; bounded by the options' caps).
+    pub fn run(&mut self) {
+        // Every call to `step` makes progress and the level/iteration caps bound the total, so this ends; the count
+        // below is a second safety net.
+        for _ in 0..1_000_000 {
+            if self.step(5_000_000).done {
+                break;
+            }
+        }
+    }
+
     /// Progress so far (the fraction never decreases).
     pub fn progress(&self) -> Progress {
         if self.outcome.is_some() {
@@ -625,13 +638,7 @@ impl FieldSolve {
 /// Runs a whole field solve of `geometry` (blocking; bounded by the options' caps).
 pub fn solve(geometry: Geometry, options: FieldOptions) -> Result<FieldResult> {
     let mut s = FieldSolve::new(geometry, options)?;
-    // Every call to `step` makes progress and the level/iteration caps bound the total, so this ends; the count
-    // below is a second safety net.
-    for _ in 0..1_000_000 {
-        if s.step(5_000_000).done {
-            break;
-        }
-    }
+    s.run();
     s.result().unwrap_or_else(|| {
         Err(Error::NotConverged {
             what: "field solve".into(),

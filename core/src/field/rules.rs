@@ -99,6 +99,21 @@ impl RuleFieldJob {
         self.solve.step(work_budget)
     }
 
+    /// Runs the rest of the solve (blocking; bounded by the options' caps).
+    pub fn run(&mut self) {
+        self.solve.run();
+    }
+
+    /// The sampled potential of the finished solve, for a picture (`None` before it is done or if it failed).
+    pub fn potential_map(&self) -> Option<super::PotentialMap> {
+        self.solve.potential_map()
+    }
+
+    /// The rule's name.
+    pub fn name(&self) -> &str {
+        &self.name
+    }
+
     /// The check, once the solve is done.
     pub fn finish(&self) -> Option<Result<RuleCheck>> {
         let field = match self.solve.result()? {
@@ -129,11 +144,7 @@ pub fn check_rule(
     options: FieldOptions,
 ) -> Result<RuleCheck> {
     let mut job = RuleFieldJob::start(project, rule, options)?;
-    loop {
-        if job.step(usize::MAX / 4).done {
-            break;
-        }
-    }
+    job.run();
     job.finish().unwrap_or_else(|| {
         Err(crate::error::Error::NotConverged {
             what: "field solve".into(),
