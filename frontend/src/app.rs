@@ -44,6 +44,22 @@ pub fn App() -> Html {
             ));
         });
     }
+    // The potential map of the last field check, with the project it was solved for (any edit makes it stale).
+    let field_map = use_state(|| None::<(ohmstack_core::Project, Rc<bridge::FieldMapView>)>);
+    let map_serial = use_mut_ref(|| 0u32);
+    let on_field_map = {
+        let (field_map, project) = (field_map.clone(), state.project.clone());
+        Callback::from(move |mut view: bridge::FieldMapView| {
+            let mut serial = map_serial.borrow_mut();
+            *serial += 1;
+            view.serial = *serial;
+            field_map.set(Some((project.clone(), Rc::new(view))));
+        })
+    };
+    let current_map = match &*field_map {
+        Some((p, view)) if *p == state.project => Some(view.clone()),
+        _ => None,
+    };
     let (plan, settled): (Rc<Result<Plan, String>>, bool) = match &*full {
         Some((p, plan)) if *p == state.project => (plan.clone(), true),
         _ => (Rc::new((*quick).clone()), false),
@@ -189,8 +205,8 @@ pub fn App() -> Html {
             }
             <crate::panels::share::SharePanel project={project.clone()} on_load={on_load} saved_work={(*saved_work).clone()} />
             <Layers project={project.clone()} drafts={drafts.clone()} plan={shown.clone()} dispatch={dispatch.clone()} />
-            <Rules project={project.clone()} drafts={drafts} plan={shown} {stale} dispatch={dispatch} />
-            <crate::panels::pictures::PicturesPanel project={project.clone()} plan={plan_rc.clone()} />
+            <Rules project={project.clone()} drafts={drafts} plan={shown} {stale} dispatch={dispatch} {on_field_map} />
+            <crate::panels::pictures::PicturesPanel project={project.clone()} plan={plan_rc.clone()} field_map={current_map} />
             <crate::panels::notes::NotesPanel project={project} plan={plan_rc} />
             <footer class="cautions">
                 { "Design estimates only. Final impedance is confirmed by the fabricator on test coupons. Trace spacing here is not electrical-safety clearance; follow local codes and licensed practice." }

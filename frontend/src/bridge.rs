@@ -290,6 +290,39 @@ pub fn field_summary(job: &FieldJob) -> Result<FieldSummary, String> {
     })
 }
 
+/// The potential map of a finished field check, for the pictures panel.
+#[derive(Debug, Clone, PartialEq)]
+pub struct FieldMapView {
+    /// The rule's index and name when it was solved.
+    pub rule: usize,
+    pub name: String,
+    /// The core's SVG (user text in it is escaped there).
+    pub svg: yew::AttrValue,
+    /// The drive in words ("trace at 1 V, …").
+    pub drive: &'static str,
+    /// Nodes of the solver grid the map samples.
+    pub solver_nodes: usize,
+    /// Counts maps made in this page, so a repeated solve of the same rule still reads as new.
+    pub serial: u32,
+}
+
+/// Draws the potential of a finished field check of rule `index`.
+pub fn field_map_view(job: &FieldJob, index: usize, serial: u32) -> Result<FieldMapView, String> {
+    let map = job
+        .potential_map()
+        .ok_or("the field solve gave no potential to draw")?;
+    let title = format!("Potential of {} ({})", job.name(), map.drive_label());
+    let svg = plot::potential_map(&map, &title).map_err(|e| e.to_string())?;
+    Ok(FieldMapView {
+        rule: index,
+        name: job.name().to_string(),
+        svg: yew::AttrValue::from(svg),
+        drive: map.drive_label(),
+        solver_nodes: map.solver_nodes,
+        serial,
+    })
+}
+
 // ---- Share links, fab notes, drawings and plots (panels/share.rs, notes.rs, pictures.rs) ----
 
 use ohmstack_core::models::Dims;

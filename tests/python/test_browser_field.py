@@ -1,5 +1,9 @@
-"""'Verify with field solver' in the browser: the sliced WASM field solve gives the native CLI's value."""
+"""'Verify with field solver' in the browser: the sliced WASM field solve gives the native CLI's value, and its
+potential map is the native CLI's picture."""
 import json
+import re
+import tempfile
+from pathlib import Path
 
 import pytest
 from selenium.webdriver.common.by import By
@@ -43,4 +47,52 @@ def test_an_edit_clears_a_stale_field_result(driver):
     target.send_keys("55")
     browser.wait_for(lambda: not driver.find_elements(By.CSS_SELECTOR, "[data-testid='rule-0-field-z']"),
                      timeout=10, what="stale field result cleared")
+    assert browser.console_errors(driver) == []
+
+
+NUMBER = re.compile(r"-?\d+(?:\.\d+)?")
+FILL = re.compile(r'fill="(#[0-9a-f]{6})"')
+
+
+def test_potential_map_in_the_browser_is_the_cli_picture(driver):
+    """The pair's map after a field check in the browser against `ohmstack field --map` on the same project: the
+    same colours in the same order and every coordinate within rounding (WASM and native libm may differ in the
+    last bits, and the SVG rounds coordinates to 0.01 px)."""
+    driver.get(browser.app_url())
+    browser.wait_ready(driver)
+    demo = run("demo").stdout
+    rules = json.loads(demo)["rules"]
+    index = next(i for i, r in enumerate(rules) if r["structure"] == "edge_pair")
+    name = rules[index]["name"]
+    hint = driver.find_element(By.CSS_SELECTOR, "[data-testid='field-map-hint']").text
+    assert "Verify with field solver" in hint
+    driver.find_element(By.ID, f"rule-{index}-field-run").click()
+    figure = browser.wait_for(
+        lambda: [f for f in driver.find_elements(By.CSS_SELECTOR, "figure[data-testid='field-map']")
+                 if f.get_attribute("data-rule") == name],
+        timeout=90, what="potential map")[0]
+    assert figure.get_attribute("data-drive").startswith("differential")
+    # The pictures panel switched to the solved rule, and the card links to the map.
+    assert driver.find_element(By.ID, "picture-rule").get_attribute("value") == str(index)
+    assert driver.find_elements(By.CSS_SELECTOR, f"[data-testid='rule-{index}-field-map-link']")
+    web_svg = figure.find_element(By.CSS_SELECTOR, "svg").get_attribute("outerHTML")
+    with tempfile.TemporaryDirectory() as tmp:
+        out = Path(tmp) / "map.svg"
+        proc = run("field", "-", "--rule", name, "--map", str(out), stdin=demo)
+        assert proc.returncode == 0, proc.stderr
+        cli_svg = out.read_text()
+    assert FILL.findall(web_svg) == FILL.findall(cli_svg)
+    web_numbers = [float(v) for v in NUMBER.findall(web_svg)]
+    cli_numbers = [float(v) for v in NUMBER.findall(cli_svg)]
+    assert len(web_numbers) == len(cli_numbers)
+    assert max(abs(a - b) for a, b in zip(web_numbers, cli_numbers)) <= 0.011
+    assert web_svg.count('class="copper"') == 2 and 'class="contour"' in web_svg
+    driver.execute_script("arguments[0].scrollIntoView({block: 'start'});", figure)
+    browser.screenshot(driver, "field-potential-map")
+    # Any edit makes the map stale: it goes, and the slot says how to get a new one.
+    target = driver.find_element(By.ID, f"rule-{index}-target-input")
+    target.clear()
+    target.send_keys("95")
+    browser.wait_for(lambda: driver.find_elements(By.CSS_SELECTOR, "[data-testid='field-map-hint']"),
+                     timeout=10, what="stale map cleared")
     assert browser.console_errors(driver) == []

@@ -1,5 +1,6 @@
 //! "Verify with field solver" for one rule: runs the core's 2D field solve in slices between frames (so the page
-//! stays responsive), shows progress, then the field impedance, its error estimate and the closed form's difference.
+//! stays responsive), shows progress, then the field impedance, its error estimate and the closed form's difference;
+//! the potential map of the solve goes to the pictures panel through `on_map`.
 
 use crate::bridge::{self, FieldJob};
 use ohmstack_core::units::format_sig;
@@ -15,6 +16,9 @@ const SLICE_BUDGET: usize = 150_000;
 pub struct FieldCheckProps {
     pub project: Rc<Project>,
     pub index: usize,
+    /// Receives the potential map of each finished solve (its serial is set by the receiver).
+    #[prop_or_default]
+    pub on_map: Callback<bridge::FieldMapView>,
 }
 
 #[derive(Clone, PartialEq)]
@@ -26,17 +30,29 @@ enum Status {
 
 type Shared<T> = Rc<RefCell<Option<T>>>;
 
-fn run_slice(
-    job: Shared<FieldJob>,
-    timer: Shared<gloo::timers::callback::Timeout>,
+/// What a running solve reports to when it ends.
+#[derive(Clone)]
+struct Sinks {
     status: UseStateHandle<Status>,
-) {
+    on_map: Callback<bridge::FieldMapView>,
+    index: usize,
+}
+
+fn run_slice(job: Shared<FieldJob>, timer: Shared<gloo::timers::callback::Timeout>, sinks: Sinks) {
+    let status = sinks.status.clone();
     let progress = match job.borrow_mut().as_mut() {
         Some(j) => j.step(SLICE_BUDGET),
         None => return,
     };
     if progress.done {
         let summary = job.borrow().as_ref().map(bridge::field_summary);
+        if let Some(Ok(map)) = job
+            .borrow()
+            .as_ref()
+            .map(|j| bridge::field_map_view(j, sinks.index, 0))
+        {
+            sinks.on_map.emit(map);
+        }
         *job.borrow_mut() = None;
         status.set(Status::Done(
             summary.unwrap_or_else(|| Err("the field solve was cancelled".into())),
@@ -44,9 +60,9 @@ fn run_slice(
         return;
     }
     status.set(Status::Running(progress.fraction));
-    let (j, t, s) = (job.clone(), timer.clone(), status.clone());
+    let (j, t) = (job.clone(), timer.clone());
     *timer.borrow_mut() = Some(gloo::timers::callback::Timeout::new(0, move || {
-        run_slice(j, t, s)
+        run_slice(j, t, sinks)
     }));
 }
 
@@ -72,11 +88,16 @@ pub fn FieldCheck(props: &FieldCheckProps) -> Html {
             timer.clone(),
             props.project.clone(),
         );
+        let sinks = Sinks {
+            status: status.clone(),
+            on_map: props.on_map.clone(),
+            index: i,
+        };
         Callback::from(move |_: MouseEvent| match bridge::field_job(&project, i) {
             Ok(j) => {
                 *job.borrow_mut() = Some(j);
                 status.set(Status::Running(0.0));
-                run_slice(job.clone(), timer.clone(), status.clone());
+                run_slice(job.clone(), timer.clone(), sinks.clone());
             }
             Err(e) => status.set(Status::Done(Err(e))),
         })
@@ -104,6 +125,7 @@ pub fn FieldCheck(props: &FieldCheckProps) -> Html {
                     </span>
                 }
                 { for s.notes.iter().map(|n| html! { <span class="warn">{ format!(" · {n}") }</span> }) }
+                { " · " }<a href="#field-map" data-testid={format!("rule-{i}-field-map-link")}>{ "potential map" }</a>
             </span>
         },
     };

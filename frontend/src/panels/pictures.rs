@@ -1,5 +1,6 @@
 //! Pictures of one rule: the cross-section drawing, loss against frequency, impedance against width, the
-//! Monte Carlo histogram with the tolerance window, a slot for the field solution, and a Touchstone download.
+//! Monte Carlo histogram with the tolerance window, the potential map of the last field check, and a Touchstone
+//! download.
 //! The SVG strings come from the core (which escapes all user text); they are the only raw HTML in the app.
 
 use crate::bridge;
@@ -16,6 +17,9 @@ pub struct PicturesProps {
     /// A rule chosen elsewhere (e.g. in the rules table); the panel's own selector can change it.
     #[prop_or_default]
     pub selected_rule: Option<usize>,
+    /// The potential map of the last field check of the current project (it selects its rule when it arrives).
+    #[prop_or_default]
+    pub field_map: Option<Rc<bridge::FieldMapView>>,
 }
 
 /// A core SVG string, or the error that prevented it, in a labelled figure.
@@ -32,6 +36,33 @@ fn figure(testid: &'static str, caption: &str, svg: &Result<String, String>) -> 
     }
 }
 
+/// The potential map of the selected rule's field check, or how to get one.
+fn field_map_figure(map: Option<&bridge::FieldMapView>, rule: Option<usize>) -> Html {
+    match map {
+        Some(m) if Some(m.rule) == rule => html! {
+            <figure class="picture" id="field-map" data-testid="field-map" data-rule={m.name.clone()}
+                data-drive={m.drive} data-solver-nodes={m.solver_nodes.to_string()}>
+                <div class="svg-box">{ Html::from_html_unchecked(m.svg.clone()) }</div>
+                <figcaption>{ format!(
+                    "Field solution of {} ({}): colour is the potential, white lines are equipotentials every tenth of the drive, dashed lines are dielectric interfaces. Sampled from the solver's finest grid ({} nodes in the half cross-section).",
+                    m.name, m.drive, m.solver_nodes) }</figcaption>
+            </figure>
+        },
+        other => {
+            let hint = match other {
+                Some(m) => format!("The last field check was of {}; choose it above, or verify this rule.", m.name),
+                None => "Press “Verify with field solver” on this rule's card to draw its potential map here.".to_string(),
+            };
+            html! {
+                <figure class="picture field-slot" id="field-map" data-testid="field-map">
+                    <div class="svg-box empty"><p class="muted" data-testid="field-map-hint">{ hint }</p></div>
+                    <figcaption>{ "Potential map of the field solution (appears after a field check)." }</figcaption>
+                </figure>
+            }
+        }
+    }
+}
+
 #[component]
 pub fn PicturesPanel(props: &PicturesProps) -> Html {
     let n_rules = props.project.rules.len();
@@ -41,6 +72,14 @@ pub fn PicturesPanel(props: &PicturesProps) -> Html {
         use_effect_with(props.selected_rule, move |chosen| {
             if let Some(i) = *chosen {
                 selected.set(i);
+            }
+        });
+    }
+    {
+        let selected = selected.clone();
+        use_effect_with(props.field_map.clone(), move |map| {
+            if let Some(m) = map {
+                selected.set(m.rule);
             }
         });
     }
@@ -127,10 +166,7 @@ pub fn PicturesPanel(props: &PicturesProps) -> Html {
                 { figure("plot-loss", "Loss of the signal mode against frequency, with its conductor and dielectric parts.", loss) }
                 { figure("plot-z-width", "Impedance against trace width around the solution.", z_width) }
                 { spread_fig }
-                <figure class="picture field-slot" data-testid="field-map">
-                    <div class="svg-box empty"><p class="muted">{ "Potential map: not drawn yet." }</p></div>
-                    <figcaption>{ "The field solve itself runs from each rule card (Verify with field solver); its potential map is not drawn yet." }</figcaption>
-                </figure>
+                { field_map_figure(props.field_map.as_deref(), rule) }
                 </>
             }
         }

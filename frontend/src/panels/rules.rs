@@ -18,6 +18,9 @@ pub struct RulesProps {
     /// True when the figures are from the last good entry, not the current text.
     pub stale: bool,
     pub dispatch: Callback<Action>,
+    /// Receives the potential map of each finished field check.
+    #[prop_or_default]
+    pub on_field_map: Callback<crate::bridge::FieldMapView>,
 }
 
 fn structure_key(s: Structure) -> &'static str {
@@ -241,7 +244,7 @@ pub fn Rules(props: &RulesProps) -> Html {
                     </div>
                 </div>
                 { body }
-                <super::FieldCheck project={props.project.clone()} index={i} />
+                <super::FieldCheck project={props.project.clone()} index={i} on_map={props.on_field_map.clone()} />
             </li>
         }
     });
