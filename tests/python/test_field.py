@@ -86,13 +86,10 @@ class Structure:
         yk += [(y0, self.feature if y0 == 0 else 1e9), (y1, 1e9)]
         return MeshTri.init_tensor(graded_axis(xk, x0, x1, scale), graded_axis(yk, y0, y1, scale))
 
-    def capacitances(self, scale):
-        """Maxwell matrices C and C0 (F/m) for the signal nets."""
+    def system(self, scale):
+        """The P2 basis of the mesh at `scale`, the conductor DOF masks per net (-1 = ground) and the fixed DOFs."""
         m = self.mesh(scale)
         basis = Basis(m, ElementTriP2())
-        cx, cy = m.p[:, m.t].mean(axis=1)
-        eps_el = self.eps(cx, cy)
-        nqp = basis.X.shape[1]
         X = basis.doflocs
         tol = 1e-12
         boundary = basis.get_dofs().all()
@@ -104,23 +101,45 @@ class Structure:
         fixed[boundary] = True
         for v in on.values():
             fixed |= v
-        D = np.nonzero(fixed)[0]
+        return basis, nets, on, np.nonzero(fixed)[0]
+
+    def stiffness(self, basis, vacuum=False):
+        """The matrix of ∫ εr ∇u·∇v (εr = 1 everywhere when `vacuum`)."""
+        m = basis.mesh
+        cx, cy = m.p[:, m.t].mean(axis=1)
+        e = np.ones_like(cx) if vacuum else self.eps(cx, cy)
+        nqp = basis.X.shape[1]
 
         @BilinearForm
         def laplace(u, v, w):
             return w["eps"] * dot(grad(u), grad(v))
 
+        return asm(laplace, basis, eps=np.repeat(e[:, None], nqp, axis=1))
+
+    def capacitances(self, scale):
+        """Maxwell matrices C and C0 (F/m) for the signal nets."""
+        basis, nets, on, D = self.system(scale)
         out = {}
-        for label, e in (("c", eps_el), ("c0", np.ones_like(eps_el))):
-            K = asm(laplace, basis, eps=np.repeat(e[:, None], nqp, axis=1))
+        for label, vacuum in (("c", False), ("c0", True)):
+            K = self.stiffness(basis, vacuum)
             sols = []
             for n in nets:
                 u = np.zeros(basis.N)
                 u[on[n]] = 1.0
                 sols.append(solve(*condense(K, x=u, D=D)))
             out[label] = [[float(EPS0 * a @ (K @ b)) for b in sols] for a in sols]
-        out["nodes"] = int(m.p.shape[1])
+        out["nodes"] = int(basis.mesh.p.shape[1])
         return out
+
+    def potential(self, scale, drive, points):
+        """The potential (dielectrics in place) with net n at drive[n] volts, at points (2 × N array)."""
+        basis, nets, on, D = self.system(scale)
+        K = self.stiffness(basis)
+        u = np.zeros(basis.N)
+        for n in nets:
+            u[on[n]] = drive[n]
+        u = solve(*condense(K, x=u, D=D))
+        return basis.probes(points) @ u
 
 
 def fem(structure, scale):
