@@ -103,5 +103,10 @@ fuzz_target!(|data: &[u8]| {
             r.controlled_ohm.is_finite(),
             "non-finite field result: {r:?}"
         );
+        // The potential map of any finished solve draws: finite values within the drive, ascending axes.
+        let map = solve.potential_map().expect("a finished solve has a map");
+        assert!(map.values.iter().all(|v| v.is_finite() && v.abs() <= 1.0 + 1e-3));
+        assert!(map.xs.windows(2).all(|w| w[1] > w[0]) && map.ys.windows(2).all(|w| w[1] > w[0]));
+        ohmstack_core::plot::potential_map(&map, "fuzz").expect("the map draws");
     }
 });
