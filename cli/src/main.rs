@@ -4,6 +4,7 @@
 use anyhow::{anyhow, bail, Context, Result};
 use ohmstack_core::case::{self, LineCase};
 use ohmstack_core::field::rules::RuleFieldJob;
+use ohmstack_core::field::synth::FieldSynthesis;
 use ohmstack_core::field::{Comparison, FieldOptions, FieldResult};
 use ohmstack_core::loss;
 use ohmstack_core::models::Dims;
@@ -46,6 +47,9 @@ usage:
                   [--map out.svg|out.json] [--json]
                                         2D field solve of one structure (KIND as for calc; --spacing makes an
                                         edge-coupled pair, --gap a coplanar line, both a coplanar pair)
+  ohmstack field-solve FILE|- [--rule NAME] [--tolerance PCT] [--map out.svg|out.json] [--json]
+                                        solve each rule's width (or spacing) with the 2D field solver,
+                                        starting from the closed form's solution
     --map writes the solution's potential: an SVG picture, or the sampled values as JSON (field needs
     one rule for it: --rule NAME)
   ohmstack share encode FILE|-          print the share link (v1.…) of a project
@@ -119,6 +123,7 @@ fn run(args: &[String]) -> Result<()> {
         "batch" => batch(),
         "field" => field_project(rest),
         "field-calc" => field_calc(rest),
+        "field-solve" => field_solve(rest),
         "loss" => loss_cmd(rest),
         "touchstone" => touchstone_cmd(rest),
         "spread" => spread(rest),
@@ -1356,6 +1361,125 @@ fn field_project(args: &[String]) -> Result<()> {
                 print_field(&c.field);
                 println!("  {}", comparison_line(&c.comparison));
                 for w in c.field.warnings.iter().chain(c.comparison.warnings.iter()) {
+                    println!("  note: {}", w.message);
+                }
+            }
+            Err(e) => println!("{name} — error: {e}"),
+        }
+    }
+    Ok(())
+}
+
+fn field_solve(args: &[String]) -> Result<()> {
+    let (mut map, json, positional) = flags(args)?;
+    let options = field_options(&mut map)?;
+    let only = map.remove("rule");
+    let map_path = map.remove("map").map(|p| map_target(&p)).transpose()?;
+    if let Some(k) = map.keys().next() {
+        bail!("--{k}: not an option of field-solve");
+    }
+    let [path] = positional.as_slice() else {
+        bail!("field-solve takes one FILE (or - for stdin)")
+    };
+    let project = Project::from_json(&read_input(path)?)?;
+    let rules: Vec<_> = project
+        .rules
+        .iter()
+        .filter(|r| only.as_deref().is_none_or(|n| r.name == n))
+        .filter(|r| only.is_some() || r.solve != ohmstack_core::project::Solve::Nothing)
+        .collect();
+    if rules.is_empty() {
+        bail!(
+            "--rule: no rule named {:?} that solves a dimension",
+            only.as_deref().unwrap_or_default()
+        );
+    }
+    if map_path.is_some() && rules.len() > 1 {
+        bail!("--map: pictures one rule; name it with --rule NAME");
+    }
+    let mut out = Vec::new();
+    for rule in rules {
+        let started = Instant::now();
+        let mut job = None;
+        let result = FieldSynthesis::start(&project, rule, options).and_then(|mut j| {
+            j.run();
+            let r = j.result().unwrap_or_else(|| {
+                Err(ohmstack_core::Error::Invalid {
+                    field: "field".into(),
+                    reason: "the field synthesis did not finish".into(),
+                })
+            });
+            job = Some(j);
+            r
+        });
+        if let Some(target) = &map_path {
+            match (&result, &job) {
+                (Ok(_), Some(j)) => write_map(target, j.potential_map(), &rule.name)?,
+                (Err(e), _) => bail!("--map: the field synthesis of {:?} failed: {e}", rule.name),
+                (Ok(_), None) => bail!("--map: no potential for {:?}", rule.name),
+            }
+        }
+        out.push((
+            rule.name.clone(),
+            result,
+            started.elapsed().as_secs_f64() * 1e3,
+        ));
+    }
+    if json {
+        let v: Vec<Value> = out
+            .iter()
+            .map(|(name, r, ms)| match r {
+                Ok(r) => {
+                    let mut v = json!({
+                        "name": name,
+                        "dimension": r.dimension,
+                        "value_m": r.value_m,
+                        "closed_form_m": r.closed_form_m,
+                        "target_ohm": r.target_ohm,
+                        "field_ohm": r.field_ohm,
+                        "error_estimate_pct": r.error_estimate_pct,
+                        "closed_form_ohm_at_value": r.closed_form_ohm_at_value,
+                        "solves": r.solves,
+                        "converged": r.converged,
+                        "warnings": r.warnings.iter().map(|w| w.message.clone()).collect::<Vec<_>>(),
+                        "time_ms": ms,
+                    });
+                    v["field"] = field_json(&r.field);
+                    v
+                }
+                Err(e) => json!({ "name": name, "error": e.to_string() }),
+            })
+            .collect();
+        println!("{}", serde_json::to_string_pretty(&v)?);
+        return Ok(());
+    }
+    let unit = project.units;
+    for (name, r, ms) in &out {
+        match r {
+            Ok(r) => {
+                let closed = r
+                    .closed_form_m
+                    .map(|c| {
+                        format!(
+                            " (closed form {}, {:+.1} %)",
+                            format_length(c, unit),
+                            (r.value_m / c - 1.0) * 100.0
+                        )
+                    })
+                    .unwrap_or_default();
+                println!(
+                    "{name} — field-solved {} {}{closed}: {:.2} Ω ± {} % (est.), {} solves, {ms:.0} ms{}",
+                    r.dimension,
+                    format_length(r.value_m, unit),
+                    r.field_ohm,
+                    format_sig(r.error_estimate_pct, 2),
+                    r.solves,
+                    if r.converged { "" } else { " — not converged" }
+                );
+                if let Some(z) = r.closed_form_ohm_at_value {
+                    println!("  the closed form says {z:.2} Ω at this {}", r.dimension);
+                }
+                for w in &r.warnings {
                     println!("  note: {}", w.message);
                 }
             }

@@ -200,3 +200,41 @@ fn spread_on_the_field_solver_agrees_with_the_closed_form_spread() {
         "closed-form σ {closed} vs field σ {field}"
     );
 }
+
+#[test]
+fn field_solve_puts_the_field_impedance_on_target() {
+    let (_, demo, _) = ohmstack(&["demo"], "");
+    let (code, out, err) = ohmstack(&["field-solve", "-", "--json"], &demo);
+    assert_eq!(code, 0, "{err}");
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    let rules = v.as_array().unwrap();
+    assert!(!rules.is_empty());
+    for r in rules {
+        let target = r["target_ohm"].as_f64().unwrap();
+        let z = r["field_ohm"].as_f64().unwrap();
+        assert!(r["converged"].as_bool().unwrap(), "{r}");
+        assert!((z / target - 1.0).abs() < 1e-3, "{r}");
+        assert_eq!(r["field"]["controlled_ohm"].as_f64().unwrap(), z);
+    }
+    // One rule, with its potential map written as data.
+    let dir = std::env::temp_dir().join(format!("ohmstack-field-solve-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let path = dir.join("radio.json");
+    let (code, out, err) = ohmstack(
+        &[
+            "field-solve",
+            "-",
+            "--rule",
+            "Radio feed 50 Ω",
+            "--map",
+            path.to_str().unwrap(),
+        ],
+        &demo,
+    );
+    assert_eq!(code, 0, "{err}");
+    assert!(out.contains("field-solved width"), "{out}");
+    let map: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(&path).unwrap()).unwrap();
+    assert_eq!(map["drive"], "single");
+    std::fs::remove_dir_all(&dir).ok();
+}

@@ -176,6 +176,8 @@ fn every_project_command_rejects_hostile_stdin() {
         &["notes", "-"],
         &["notes", "-", "--format", "csv"],
         &["draw", "-"],
+        &["field", "-"],
+        &["field-solve", "-"],
         &["plot", "-", "--rule", "Single-ended 50 Ω top"],
         &["loss", "-", "--rule", "Single-ended 50 Ω top"],
         &[
@@ -224,6 +226,8 @@ fn options_of_project_commands_reject_hostile_values() {
                 bad,
             ],
             vec!["random", "normal", "--count", bad],
+            vec!["field", "-", "--rule", rule, "--tolerance", bad],
+            vec!["field-solve", "-", "--rule", rule, "--tolerance", bad],
         ] {
             // `--seed 0` and `--count 0` are legal values, and so is a zero count of random numbers.
             if matches!(*bad, "0" | "-0") && (args.contains(&"--seed") || args.contains(&"--count"))
@@ -246,6 +250,12 @@ fn options_of_project_commands_reject_hostile_values() {
         vec!["calc", "no-such-kind", "--width", "1mm"],
         vec!["calc", "microstrip", "--width"],
         vec!["calc", "microstrip", "--width", "1mm", "--width", "2mm"],
+        // A map needs one rule and a known picture or data extension.
+        vec!["field", "-", "--map", "m.svg"],
+        vec!["field", "-", "--rule", rule, "--map", "m.png"],
+        vec!["field-solve", "-", "--map", "m.svg"],
+        vec!["field-solve", "-", "--rule", "no such rule"],
+        vec!["field-solve", "-", "--rule", rule, "--frobnicate", "1"],
     ] {
         assert_clean_failure(&args, demo());
     }

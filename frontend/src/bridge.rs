@@ -248,6 +248,38 @@ mod tests {
 
 /// A field check of one rule, run in slices by the rule card.
 pub type FieldJob = ohmstack_core::field::rules::RuleFieldJob;
+/// A field-solver synthesis of one rule's width or spacing, run in slices by the rule card.
+pub type FieldSynthesis = ohmstack_core::field::synth::FieldSynthesis;
+
+/// Slow field work of a rule card: a check of the closed form's dimensions, or a synthesis.
+pub enum FieldWork {
+    Check(Box<FieldJob>),
+    Synthesis(Box<FieldSynthesis>),
+}
+
+impl FieldWork {
+    /// About `budget` units of work (see the core's `FieldSolve::step`).
+    pub fn step(&mut self, budget: usize) -> ohmstack_core::field::Progress {
+        match self {
+            FieldWork::Check(j) => j.step(budget),
+            FieldWork::Synthesis(j) => j.step(budget),
+        }
+    }
+
+    fn name(&self) -> &str {
+        match self {
+            FieldWork::Check(j) => j.name(),
+            FieldWork::Synthesis(j) => j.name(),
+        }
+    }
+
+    fn potential_map(&self) -> Option<ohmstack_core::field::PotentialMap> {
+        match self {
+            FieldWork::Check(j) => j.potential_map(),
+            FieldWork::Synthesis(j) => j.potential_map(),
+        }
+    }
+}
 
 /// What the rule card shows of a finished field check.
 #[derive(Debug, Clone, PartialEq)]
@@ -260,14 +292,84 @@ pub struct FieldSummary {
     pub notes: Vec<String>,
 }
 
-/// Starts the field check of rule `index` with the solver's default accuracy.
-pub fn field_job(project: &Project, index: usize) -> Result<FieldJob, String> {
-    let rule = project
+/// What the rule card shows of a finished field synthesis (lengths already in the project's unit).
+#[derive(Debug, Clone, PartialEq)]
+pub struct SynthesisSummary {
+    /// "width" or "spacing".
+    pub dimension: &'static str,
+    pub value_m: f64,
+    pub value: String,
+    pub closed_form: Option<String>,
+    /// Field-solved against closed-form dimension, %.
+    pub change_pct: Option<f64>,
+    pub field_ohm: f64,
+    pub error_pct: f64,
+    pub closed_form_ohm_at_value: Option<f64>,
+    pub solves: usize,
+    pub converged: bool,
+    pub notes: Vec<String>,
+}
+
+/// A finished piece of field work.
+#[derive(Debug, Clone, PartialEq)]
+pub enum FieldOutcome {
+    Check(FieldSummary),
+    Synthesis(SynthesisSummary),
+}
+
+fn rule_at(project: &Project, index: usize) -> Result<&ohmstack_core::ImpedanceRule, String> {
+    project
         .rules
         .get(index)
-        .ok_or_else(|| format!("no rule {index}"))?;
-    FieldJob::start(project, rule, ohmstack_core::field::FieldOptions::default())
-        .map_err(|e| e.to_string())
+        .ok_or_else(|| format!("no rule {index}"))
+}
+
+/// Starts the field check of rule `index` with the solver's default accuracy.
+pub fn field_job(project: &Project, index: usize) -> Result<FieldWork, String> {
+    FieldJob::start(
+        project,
+        rule_at(project, index)?,
+        ohmstack_core::field::FieldOptions::default(),
+    )
+    .map(|j| FieldWork::Check(Box::new(j)))
+    .map_err(|e| e.to_string())
+}
+
+/// Starts the field-solver synthesis of rule `index` (its width or spacing, whichever the rule solves).
+pub fn field_synthesis_job(project: &Project, index: usize) -> Result<FieldWork, String> {
+    FieldSynthesis::start(
+        project,
+        rule_at(project, index)?,
+        ohmstack_core::field::FieldOptions::default(),
+    )
+    .map(|j| FieldWork::Synthesis(Box::new(j)))
+    .map_err(|e| e.to_string())
+}
+
+/// The finished work in plain figures (unfinished work reads as an error).
+pub fn field_outcome(work: &FieldWork, unit: LengthUnit) -> Result<FieldOutcome, String> {
+    match work {
+        FieldWork::Check(job) => field_summary(job).map(FieldOutcome::Check),
+        FieldWork::Synthesis(job) => {
+            let r = job
+                .result()
+                .ok_or("the field synthesis has not finished")?
+                .map_err(|e| e.to_string())?;
+            Ok(FieldOutcome::Synthesis(SynthesisSummary {
+                dimension: r.dimension,
+                value_m: r.value_m,
+                value: units::format_length(r.value_m, unit),
+                closed_form: r.closed_form_m.map(|c| units::format_length(c, unit)),
+                change_pct: r.closed_form_m.map(|c| (r.value_m / c - 1.0) * 100.0),
+                field_ohm: r.field_ohm,
+                error_pct: r.error_estimate_pct,
+                closed_form_ohm_at_value: r.closed_form_ohm_at_value,
+                solves: r.solves,
+                converged: r.converged,
+                notes: r.warnings.iter().map(|w| w.message.clone()).collect(),
+            }))
+        }
+    }
 }
 
 /// The finished check in plain figures (an unfinished job reads as an error).
@@ -290,7 +392,7 @@ pub fn field_summary(job: &FieldJob) -> Result<FieldSummary, String> {
     })
 }
 
-/// The potential map of a finished field check, for the pictures panel.
+/// The potential map of a rule's finished field work.
 #[derive(Debug, Clone, PartialEq)]
 pub struct FieldMapView {
     /// The rule's index and name when it was solved.
@@ -306,16 +408,16 @@ pub struct FieldMapView {
     pub serial: u32,
 }
 
-/// Draws the potential of a finished field check of rule `index`.
-pub fn field_map_view(job: &FieldJob, index: usize, serial: u32) -> Result<FieldMapView, String> {
-    let map = job
+/// Draws the potential of rule `index`'s finished field work.
+pub fn field_map_view(work: &FieldWork, index: usize, serial: u32) -> Result<FieldMapView, String> {
+    let map = work
         .potential_map()
         .ok_or("the field solve gave no potential to draw")?;
-    let title = format!("Potential of {} ({})", job.name(), map.drive_label());
+    let title = format!("Potential of {} ({})", work.name(), map.drive_label());
     let svg = plot::potential_map(&map, &title).map_err(|e| e.to_string())?;
     Ok(FieldMapView {
         rule: index,
-        name: job.name().to_string(),
+        name: work.name().to_string(),
         svg: yew::AttrValue::from(svg),
         drive: map.drive_label(),
         solver_nodes: map.solver_nodes,

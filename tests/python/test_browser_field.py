@@ -96,3 +96,34 @@ def test_potential_map_in_the_browser_is_the_cli_picture(driver):
     browser.wait_for(lambda: driver.find_elements(By.CSS_SELECTOR, "[data-testid='field-map-hint']"),
                      timeout=10, what="stale map cleared")
     assert browser.console_errors(driver) == []
+
+
+def test_field_synthesis_in_the_browser_equals_the_cli(driver):
+    """"Solve with field solver" on the radio feed (thick copper in the coplanar gaps): the WASM synthesis finds the
+    native CLI's width, and its potential map arrives in the pictures panel."""
+    driver.get(browser.app_url())
+    browser.wait_ready(driver)
+    demo = run("demo").stdout
+    rules = json.loads(demo)["rules"]
+    index = next(i for i, r in enumerate(rules) if r["structure"] == "coplanar")
+    name = rules[index]["name"]
+    proc = run("field-solve", "-", "--rule", name, "--json", stdin=demo)
+    assert proc.returncode == 0, proc.stderr
+    native = json.loads(proc.stdout)[0]
+    driver.find_element(By.ID, f"rule-{index}-field-solve").click()
+    value = browser.wait_for(
+        lambda: driver.find_elements(By.CSS_SELECTOR, f"[data-testid='rule-{index}-field-solved-value']"),
+        timeout=120, what="field-solved width")[0]
+    z = driver.find_element(By.CSS_SELECTOR, f"[data-testid='rule-{index}-field-solved-z']")
+    assert abs(float(value.get_attribute("data-value")) / native["value_m"] - 1) < 1e-6
+    assert abs(float(z.get_attribute("data-value")) / native["field_ohm"] - 1) < 1e-6
+    text = driver.find_element(By.CSS_SELECTOR, f"[data-testid='rule-{index}-field-solved']").text
+    assert "closed form" in text and "field solves" in text
+    browser.wait_for(
+        lambda: [f for f in driver.find_elements(By.CSS_SELECTOR, "figure[data-testid='field-map']")
+                 if f.get_attribute("data-rule") == name],
+        timeout=10, what="potential map of the synthesis")
+    card = driver.find_element(By.CSS_SELECTOR, f"[data-testid='rule-{index}-field-solved']")
+    driver.execute_script("arguments[0].scrollIntoView({block: 'center'});", card)
+    browser.screenshot(driver, "field-synthesis")
+    assert browser.console_errors(driver) == []

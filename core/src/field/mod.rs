@@ -50,6 +50,7 @@ pub mod grid;
 pub mod map;
 pub mod rules;
 pub mod solve;
+pub mod synth;
 
 use crate::cross_section::CrossSection;
 use crate::error::{Error, Result};

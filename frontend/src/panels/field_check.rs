@@ -1,10 +1,11 @@
-//! "Verify with field solver" for one rule: runs the core's 2D field solve in slices between frames (so the page
-//! stays responsive), shows progress, then the field impedance, its error estimate and the closed form's difference;
-//! the potential map of the solve goes to the pictures panel through `on_map`.
+//! The field solver from a rule card: "Verify with field solver" re-analyses the closed form's dimensions, "Solve
+//! with field solver" finds the width (or spacing) that puts the field impedance on target. Both run the core's 2D
+//! field solve in slices between frames (so the page stays responsive) and show progress; the potential map of the
+//! last solve goes to the pictures panel through `on_map`.
 
-use crate::bridge::{self, FieldJob};
+use crate::bridge::{self, FieldOutcome, FieldWork};
 use ohmstack_core::units::format_sig;
-use ohmstack_core::Project;
+use ohmstack_core::{Project, Solve};
 use std::cell::RefCell;
 use std::rc::Rc;
 use yew::prelude::*;
@@ -24,8 +25,8 @@ pub struct FieldCheckProps {
 #[derive(Clone, PartialEq)]
 enum Status {
     Idle,
-    Running(f64),
-    Done(Result<bridge::FieldSummary, String>),
+    Running(&'static str, f64),
+    Done(Result<FieldOutcome, String>),
 }
 
 type Shared<T> = Rc<RefCell<Option<T>>>;
@@ -36,16 +37,21 @@ struct Sinks {
     status: UseStateHandle<Status>,
     on_map: Callback<bridge::FieldMapView>,
     index: usize,
+    unit: ohmstack_core::units::LengthUnit,
+    what: &'static str,
 }
 
-fn run_slice(job: Shared<FieldJob>, timer: Shared<gloo::timers::callback::Timeout>, sinks: Sinks) {
+fn run_slice(job: Shared<FieldWork>, timer: Shared<gloo::timers::callback::Timeout>, sinks: Sinks) {
     let status = sinks.status.clone();
     let progress = match job.borrow_mut().as_mut() {
         Some(j) => j.step(SLICE_BUDGET),
         None => return,
     };
     if progress.done {
-        let summary = job.borrow().as_ref().map(bridge::field_summary);
+        let outcome = job
+            .borrow()
+            .as_ref()
+            .map(|j| bridge::field_outcome(j, sinks.unit));
         if let Some(Ok(map)) = job
             .borrow()
             .as_ref()
@@ -55,21 +61,68 @@ fn run_slice(job: Shared<FieldJob>, timer: Shared<gloo::timers::callback::Timeou
         }
         *job.borrow_mut() = None;
         status.set(Status::Done(
-            summary.unwrap_or_else(|| Err("the field solve was cancelled".into())),
+            outcome.unwrap_or_else(|| Err("the field solve was cancelled".into())),
         ));
         return;
     }
-    status.set(Status::Running(progress.fraction));
+    status.set(Status::Running(sinks.what, progress.fraction));
     let (j, t) = (job.clone(), timer.clone());
     *timer.borrow_mut() = Some(gloo::timers::callback::Timeout::new(0, move || {
         run_slice(j, t, sinks)
     }));
 }
 
+fn signed(v: f64) -> String {
+    format!("{}{}", if v >= 0.0 { "+" } else { "" }, format_sig(v, 2))
+}
+
+fn outcome_html(i: usize, outcome: &FieldOutcome) -> Html {
+    let map_link = html! {
+        <>{ " · " }<a href="#field-map" data-testid={format!("rule-{i}-field-map-link")}>{ "potential map" }</a></>
+    };
+    match outcome {
+        FieldOutcome::Check(s) => html! {
+            <span class="field-result" data-testid={format!("rule-{i}-field")}>
+                { "Field solve: " }
+                <strong data-testid={format!("rule-{i}-field-z")} data-value={s.field_ohm.to_string()}>{ format!("{:.2} Ω", s.field_ohm) }</strong>
+                { format!(" ± {} % (est.)", format_sig(s.error_pct, 2)) }
+                if let Some(d) = s.difference_pct {
+                    <span class={classes!(s.outside_band.then_some("warn"))}>
+                        { format!(" · closed form {} %{}", signed(d),
+                            s.band_pct.map(|b| format!(" (its band ±{} %)", format_sig(b, 2))).unwrap_or_default()) }
+                    </span>
+                }
+                { for s.notes.iter().map(|n| html! { <span class="warn">{ format!(" · {n}") }</span> }) }
+                { map_link }
+            </span>
+        },
+        FieldOutcome::Synthesis(s) => html! {
+            <span class="field-result" data-testid={format!("rule-{i}-field-solved")}>
+                { format!("Field-solved {}: ", s.dimension) }
+                <strong data-testid={format!("rule-{i}-field-solved-value")} data-value={s.value_m.to_string()}>{ s.value.clone() }</strong>
+                if let (Some(c), Some(d)) = (&s.closed_form, s.change_pct) {
+                    { format!(" (closed form {c}, {} %)", signed(d)) }
+                }
+                { " gives " }
+                <strong data-testid={format!("rule-{i}-field-solved-z")} data-value={s.field_ohm.to_string()}>{ format!("{:.2} Ω", s.field_ohm) }</strong>
+                { format!(" ± {} % (est.) after {} field solves", format_sig(s.error_pct, 2), s.solves) }
+                if let Some(z) = s.closed_form_ohm_at_value {
+                    { format!("; the closed form says {z:.2} Ω there") }
+                }
+                if !s.converged {
+                    <span class="warn">{ " · not converged" }</span>
+                }
+                { for s.notes.iter().map(|n| html! { <span class="warn">{ format!(" · {n}") }</span> }) }
+                { map_link }
+            </span>
+        },
+    }
+}
+
 #[component]
 pub fn FieldCheck(props: &FieldCheckProps) -> Html {
     let status = use_state(|| Status::Idle);
-    let job: Shared<FieldJob> = use_mut_ref(|| None).clone();
+    let job: Shared<FieldWork> = use_mut_ref(|| None).clone();
     let timer: Shared<gloo::timers::callback::Timeout> = use_mut_ref(|| None).clone();
     {
         // Any edit makes an old field result stale: drop it and stop a running solve.
@@ -81,7 +134,7 @@ pub fn FieldCheck(props: &FieldCheckProps) -> Html {
         });
     }
     let i = props.index;
-    let start = {
+    let starter = |what: &'static str, make: fn(&Project, usize) -> Result<FieldWork, String>| {
         let (status, job, timer, project) = (
             status.clone(),
             job.clone(),
@@ -92,47 +145,45 @@ pub fn FieldCheck(props: &FieldCheckProps) -> Html {
             status: status.clone(),
             on_map: props.on_map.clone(),
             index: i,
+            unit: props.project.units,
+            what,
         };
-        Callback::from(move |_: MouseEvent| match bridge::field_job(&project, i) {
+        Callback::from(move |_: MouseEvent| match make(&project, i) {
             Ok(j) => {
                 *job.borrow_mut() = Some(j);
-                status.set(Status::Running(0.0));
+                status.set(Status::Running(what, 0.0));
                 run_slice(job.clone(), timer.clone(), sinks.clone());
             }
             Err(e) => status.set(Status::Done(Err(e))),
         })
     };
+    let verify = starter("solving", bridge::field_job);
+    let solve = starter("solving for the target", bridge::field_synthesis_job);
     let body = match &*status {
         Status::Idle => html! {},
-        Status::Running(f) => html! {
+        Status::Running(what, f) => html! {
             <span class="field-progress" role="status">
                 <progress max="1" value={f.to_string()} aria-label="field solve progress"></progress>
-                { format!(" solving… {:.0} %", f * 100.0) }
+                { format!(" {what}… {:.0} %", f * 100.0) }
             </span>
         },
         Status::Done(Err(e)) => {
             html! { <span class="error" data-testid={format!("rule-{i}-field-error")}>{ e.clone() }</span> }
         }
-        Status::Done(Ok(s)) => html! {
-            <span class="field-result" data-testid={format!("rule-{i}-field")}>
-                { "Field solve: " }
-                <strong data-testid={format!("rule-{i}-field-z")} data-value={s.field_ohm.to_string()}>{ format!("{:.2} Ω", s.field_ohm) }</strong>
-                { format!(" ± {} % (est.)", format_sig(s.error_pct, 2)) }
-                if let Some(d) = s.difference_pct {
-                    <span class={classes!(s.outside_band.then_some("warn"))}>
-                        { format!(" · closed form {}{} %{}", if d >= 0.0 { "+" } else { "" }, format_sig(d, 2),
-                            s.band_pct.map(|b| format!(" (its band ±{} %)", format_sig(b, 2))).unwrap_or_default()) }
-                    </span>
-                }
-                { for s.notes.iter().map(|n| html! { <span class="warn">{ format!(" · {n}") }</span> }) }
-                { " · " }<a href="#field-map" data-testid={format!("rule-{i}-field-map-link")}>{ "potential map" }</a>
-            </span>
-        },
+        Status::Done(Ok(outcome)) => outcome_html(i, outcome),
     };
-    let running = matches!(*status, Status::Running(_));
+    let running = matches!(*status, Status::Running(..));
+    let solves_something = props
+        .project
+        .rules
+        .get(i)
+        .is_some_and(|r| r.solve != Solve::Nothing);
     html! {
         <div class="field-check no-print">
-            <button type="button" id={format!("rule-{i}-field-run")} onclick={start} disabled={running}>{ "Verify with field solver" }</button>
+            <button type="button" id={format!("rule-{i}-field-run")} onclick={verify} disabled={running}>{ "Verify with field solver" }</button>
+            { " " }
+            <button type="button" id={format!("rule-{i}-field-solve")} onclick={solve} disabled={running || !solves_something}
+                title="Find the width (or spacing) that puts the field solver's impedance on target">{ "Solve with field solver" }</button>
             { " " }{ body }
         </div>
     }
