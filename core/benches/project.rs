@@ -92,9 +92,31 @@ fn field_solve(c: &mut Criterion) {
     g.finish();
 }
 
+/// Width synthesis on the field solver for every rule of the demo that solves a dimension.
+fn field_synthesis(c: &mut Criterion) {
+    let p = ohmstack_core::demo::project();
+    let mut g = c.benchmark_group("field_synthesis_demo");
+    for rule in &p.rules {
+        let run = || {
+            let mut s = ohmstack_core::field::synth::FieldSynthesis::start(
+                &p,
+                rule,
+                ohmstack_core::field::FieldOptions::default(),
+            )?;
+            s.run();
+            s.result().expect("finished")
+        };
+        if run().is_err() {
+            continue;
+        }
+        g.bench_function(rule.name.as_str(), |b| b.iter(|| run().unwrap()));
+    }
+    g.finish();
+}
+
 criterion_group! {
     name = benches;
     config = config();
-    targets = monte_carlo, recompute, field_solve
+    targets = monte_carlo, recompute, field_solve, field_synthesis
 }
 criterion_main!(benches);
