@@ -1267,34 +1267,53 @@ fn field_calc(args: &[String]) -> Result<()> {
     Ok(())
 }
 
-fn field_project(args: &[String]) -> Result<()> {
+/// The inputs of `field` and `field-solve`: the project, the rules chosen by `--rule` (for a synthesis, without
+/// `--rule`, only those that solve a dimension), the `--map` target (one rule only) and the solver options.
+type FieldInputs = (Project, Vec<usize>, Option<MapTarget>, FieldOptions, bool);
+
+fn field_inputs(cmd: &str, args: &[String], solving: bool) -> Result<FieldInputs> {
     let (mut map, json, positional) = flags(args)?;
     let options = field_options(&mut map)?;
     let only = map.remove("rule");
     let map_path = map.remove("map").map(|p| map_target(&p)).transpose()?;
     if let Some(k) = map.keys().next() {
-        bail!("--{k}: not an option of field");
+        bail!("--{k}: not an option of {cmd}");
     }
     let [path] = positional.as_slice() else {
-        bail!("field takes one FILE (or - for stdin)")
+        bail!("{cmd} takes one FILE (or - for stdin)")
     };
     let project = Project::from_json(&read_input(path)?)?;
-    let rules: Vec<_> = project
-        .rules
-        .iter()
-        .filter(|r| only.as_deref().is_none_or(|n| r.name == n))
+    let rules: Vec<usize> = (0..project.rules.len())
+        .filter(|&i| {
+            let r = &project.rules[i];
+            match only.as_deref() {
+                Some(n) => r.name == n,
+                None => !solving || r.solve != ohmstack_core::project::Solve::Nothing,
+            }
+        })
         .collect();
     if rules.is_empty() {
         bail!(
-            "--rule: no rule named {:?}",
-            only.as_deref().unwrap_or_default()
+            "--rule: no rule named {:?}{}",
+            only.as_deref().unwrap_or_default(),
+            if solving {
+                " that solves a dimension"
+            } else {
+                ""
+            }
         );
     }
     if map_path.is_some() && rules.len() > 1 {
         bail!("--map: pictures one rule; name it with --rule NAME");
     }
+    Ok((project, rules, map_path, options, json))
+}
+
+fn field_project(args: &[String]) -> Result<()> {
+    let (project, rules, map_path, options, json) = field_inputs("field", args, false)?;
     let mut out = Vec::new();
-    for rule in rules {
+    for &i in &rules {
+        let rule = &project.rules[i];
         let started = Instant::now();
         let mut job = None;
         let check = RuleFieldJob::start(&project, rule, options).and_then(|mut j| {
@@ -1371,34 +1390,10 @@ fn field_project(args: &[String]) -> Result<()> {
 }
 
 fn field_solve(args: &[String]) -> Result<()> {
-    let (mut map, json, positional) = flags(args)?;
-    let options = field_options(&mut map)?;
-    let only = map.remove("rule");
-    let map_path = map.remove("map").map(|p| map_target(&p)).transpose()?;
-    if let Some(k) = map.keys().next() {
-        bail!("--{k}: not an option of field-solve");
-    }
-    let [path] = positional.as_slice() else {
-        bail!("field-solve takes one FILE (or - for stdin)")
-    };
-    let project = Project::from_json(&read_input(path)?)?;
-    let rules: Vec<_> = project
-        .rules
-        .iter()
-        .filter(|r| only.as_deref().is_none_or(|n| r.name == n))
-        .filter(|r| only.is_some() || r.solve != ohmstack_core::project::Solve::Nothing)
-        .collect();
-    if rules.is_empty() {
-        bail!(
-            "--rule: no rule named {:?} that solves a dimension",
-            only.as_deref().unwrap_or_default()
-        );
-    }
-    if map_path.is_some() && rules.len() > 1 {
-        bail!("--map: pictures one rule; name it with --rule NAME");
-    }
+    let (project, rules, map_path, options, json) = field_inputs("field-solve", args, true)?;
     let mut out = Vec::new();
-    for rule in rules {
+    for &i in &rules {
+        let rule = &project.rules[i];
         let started = Instant::now();
         let mut job = None;
         let result = FieldSynthesis::start(&project, rule, options).and_then(|mut j| {

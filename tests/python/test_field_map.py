@@ -39,8 +39,8 @@ def nodes(m, every_x, every_y):
 
 
 def stripline_potential(w, b):
-    """Exact potential of a zero-thickness strip of width w centred between planes at y = 0 and y = b (1 V)."""
-    mp.mp.dps = 15
+    """Exact potential of a zero-thickness strip of width w centred between planes at y = 0 and y = b (1 V).
+    Call it inside `mp.workdps(...)`: other tests set mpmath's global precision, and this one must not."""
     a = mp.e ** (mp.pi * w / b)
     p, q = 1 / a, a
 
@@ -73,9 +73,10 @@ def test_exact_potential_of_a_thin_centred_stripline():
     m = solve_map("stripline", "--width", "0.2mm", "--height", "0.2mm", "--thickness", "0", "--dk", "4")
     assert m["drive"] == "single"
     # The strip's own nodes carry the drive exactly; the planes are at 0.
-    phi = stripline_potential(w, 2 * h)
-    assert phi(0.0, h) == 1.0 and abs(phi(0.09 * MM, h) - 1.0) < 1e-12
-    errors = [value - phi(x, y) for x, y, value in nodes(m, 4, 3)]
+    with mp.workdps(15):
+        phi = stripline_potential(w, 2 * h)
+        assert phi(0.0, h) == 1.0 and abs(phi(0.09 * MM, h) - 1.0) < 1e-12
+        errors = [value - phi(x, y) for x, y, value in nodes(m, 4, 3)]
     worst = max(abs(e) for e in errors)
     rms = math.sqrt(sum(e * e for e in errors) / len(errors))
     print(f"stripline t=0: {len(errors)} nodes, max |Δφ| {worst:.2e} V, rms {rms:.2e} V")

@@ -178,22 +178,18 @@ impl FieldSolve {
         }
     }
 
-    /// Vertical edges of copper and interfaces inside the window (x ≥ 0), to place display columns on.
+    /// Vertical edges of copper and interfaces inside the window (x > 0), to place display columns on.
     fn edges_x(&self, w: &Window) -> Vec<f64> {
-        let g = &self.geometry;
-        let shapes = g
-            .conductors
-            .iter()
-            .map(|c| c.shape)
-            .chain(g.regions.iter().map(|r| r.shape));
-        shapes
-            .flat_map(|s| [s.x0l, s.x0r, s.x1l, s.x1r])
-            .filter(|&x| x > 0.0 && x < w.x_half)
-            .collect()
+        self.edges(|s| vec![s.x0l, s.x0r, s.x1l, s.x1r], 0.0, w.x_half)
     }
 
     /// Horizontal edges of copper and interfaces inside the window.
     fn edges_y(&self, w: &Window) -> Vec<f64> {
+        self.edges(|s| vec![s.y0, s.y1], w.y_lo, w.y_hi)
+    }
+
+    /// The coordinates `of` every copper and dielectric shape that lie strictly between `lo` and `hi`.
+    fn edges(&self, of: impl Fn(&Trapezoid) -> Vec<f64>, lo: f64, hi: f64) -> Vec<f64> {
         let g = &self.geometry;
         let shapes = g
             .conductors
@@ -201,8 +197,8 @@ impl FieldSolve {
             .map(|c| c.shape)
             .chain(g.regions.iter().map(|r| r.shape));
         shapes
-            .flat_map(|s| [s.y0, s.y1])
-            .filter(|&y| y > w.y_lo && y < w.y_hi)
+            .flat_map(|s| of(&s))
+            .filter(|&v| v > lo && v < hi)
             .collect()
     }
 

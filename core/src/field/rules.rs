@@ -50,30 +50,8 @@ impl RuleFieldJob {
     ) -> Result<RuleFieldJob> {
         rule.validate(&project.stackup)?;
         let cs = cross_section::resolve(&project.stackup, rule)?;
-        let mut notes = Vec::new();
-        let (dims, closed) = match analyze_rule(project, rule) {
-            Ok(r) => (
-                Dims {
-                    w: r.width_m,
-                    s: r.spacing_m,
-                    gap: r.gap_m,
-                },
-                Some((r.method, r.impedance_ohm)),
-            ),
-            Err(e) => {
-                notes.push(Warning::new(format!(
-                    "no closed-form result ({e}); the field solve uses the rule's dimensions as given"
-                )));
-                (
-                    Dims {
-                        w: rule.width_m,
-                        s: rule.spacing_m,
-                        gap: rule.gap_m,
-                    },
-                    None,
-                )
-            }
-        };
+        let (dims, closed, note) = starting_dims(project, rule);
+        let mut notes: Vec<Warning> = note.into_iter().collect();
         let etch = project.fab.etch_factor;
         if etch.is_some() && closed.is_some() {
             notes.push(Warning::new(
@@ -134,6 +112,36 @@ impl RuleFieldJob {
             comparison,
             field,
         }))
+    }
+}
+
+/// Where a field solve of `rule` starts: the closed form's dimensions and its (method, impedance), or, when the
+/// closed form fails, the rule's own dimensions and a note saying so.
+pub(crate) fn starting_dims(
+    project: &Project,
+    rule: &ImpedanceRule,
+) -> (Dims, Option<(&'static str, f64)>, Option<Warning>) {
+    match analyze_rule(project, rule) {
+        Ok(r) => (
+            Dims {
+                w: r.width_m,
+                s: r.spacing_m,
+                gap: r.gap_m,
+            },
+            Some((r.method, r.impedance_ohm)),
+            None,
+        ),
+        Err(e) => (
+            Dims {
+                w: rule.width_m,
+                s: rule.spacing_m,
+                gap: rule.gap_m,
+            },
+            None,
+            Some(Warning::new(format!(
+                "no closed-form result ({e}); the field solve starts from the rule's dimensions as given"
+            ))),
+        ),
     }
 }
 

@@ -12,7 +12,6 @@ use super::{build, FieldOptions, FieldResult, FieldSolve, PotentialMap, Progress
 use crate::cross_section::{self, CrossSection};
 use crate::error::{Error, Result};
 use crate::models::{self, Dims};
-use crate::plan::analyze_rule;
 use crate::project::{ImpedanceRule, Project, Solve, Structure};
 use crate::validity::Warning;
 use serde::Serialize;
@@ -79,30 +78,9 @@ impl FieldSynthesis {
     ) -> Result<FieldSynthesis> {
         rule.validate(&project.stackup)?;
         let cs = cross_section::resolve(&project.stackup, rule)?;
-        let mut warnings = Vec::new();
-        let (base, closed) = match analyze_rule(project, rule) {
-            Ok(r) => (
-                Dims {
-                    w: r.width_m,
-                    s: r.spacing_m,
-                    gap: r.gap_m,
-                },
-                true,
-            ),
-            Err(e) => {
-                warnings.push(Warning::new(format!(
-                    "no closed-form solution ({e}); the field synthesis starts from the rule's dimensions"
-                )));
-                (
-                    Dims {
-                        w: rule.width_m,
-                        s: rule.spacing_m,
-                        gap: rule.gap_m,
-                    },
-                    false,
-                )
-            }
-        };
+        let (base, closed, note) = super::rules::starting_dims(project, rule);
+        let closed = closed.is_some();
+        let warnings: Vec<Warning> = note.into_iter().collect();
         let (which, lower) = match rule.solve {
             Solve::Width => (Solve::Width, project.fab.min_trace_m),
             Solve::Spacing => (Solve::Spacing, project.fab.min_space_m),
