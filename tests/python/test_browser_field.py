@@ -50,6 +50,14 @@ def test_an_edit_clears_a_stale_field_result(driver):
     assert browser.console_errors(driver) == []
 
 
+def wait_for_map(driver, rule_name, timeout):
+    """The pictures panel's potential-map figure once it shows the map of `rule_name`."""
+    return browser.wait_for(
+        lambda: [f for f in driver.find_elements(By.CSS_SELECTOR, "figure[data-testid='field-map']")
+                 if f.get_attribute("data-rule") == rule_name],
+        timeout=timeout, what=f"potential map of {rule_name}")[0]
+
+
 NUMBER = re.compile(r"-?\d+(?:\.\d+)?")
 FILL = re.compile(r'fill="(#[0-9a-f]{6})"')
 
@@ -67,10 +75,7 @@ def test_potential_map_in_the_browser_is_the_cli_picture(driver):
     hint = driver.find_element(By.CSS_SELECTOR, "[data-testid='field-map-hint']").text
     assert "Verify with field solver" in hint
     driver.find_element(By.ID, f"rule-{index}-field-run").click()
-    figure = browser.wait_for(
-        lambda: [f for f in driver.find_elements(By.CSS_SELECTOR, "figure[data-testid='field-map']")
-                 if f.get_attribute("data-rule") == name],
-        timeout=90, what="potential map")[0]
+    figure = wait_for_map(driver, name, timeout=90)
     assert figure.get_attribute("data-drive").startswith("differential")
     # The pictures panel switched to the solved rule, and the card links to the map.
     assert driver.find_element(By.ID, "picture-rule").get_attribute("value") == str(index)
@@ -119,10 +124,7 @@ def test_field_synthesis_in_the_browser_equals_the_cli(driver):
     assert abs(float(z.get_attribute("data-value")) / native["field_ohm"] - 1) < 1e-6
     text = driver.find_element(By.CSS_SELECTOR, f"[data-testid='rule-{index}-field-solved']").text
     assert "closed form" in text and "field solves" in text
-    browser.wait_for(
-        lambda: [f for f in driver.find_elements(By.CSS_SELECTOR, "figure[data-testid='field-map']")
-                 if f.get_attribute("data-rule") == name],
-        timeout=10, what="potential map of the synthesis")
+    wait_for_map(driver, name, timeout=10)
     card = driver.find_element(By.CSS_SELECTOR, f"[data-testid='rule-{index}-field-solved']")
     driver.execute_script("arguments[0].scrollIntoView({block: 'center'});", card)
     browser.screenshot(driver, "field-synthesis")
