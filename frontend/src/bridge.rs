@@ -145,43 +145,20 @@ pub fn structures_for(stackup: &Stackup, layer: &str) -> Vec<Structure> {
 
 /// Loss at the analysis frequency, when the core provides it: (frequency Hz, dB/in, dB/cm) of the signal mode.
 pub fn loss_at(result: &RuleResult) -> Option<(f64, f64, f64)> {
-    loss_in(&serde_json::to_value(result).ok()?)
+    let loss = result.loss.as_ref()?;
+    let mode = loss.line.as_ref().or(loss.odd.as_ref())?;
+    Some((loss.freq_hz, mode.total.db_per_in, mode.total.db_per_cm))
 }
 
-/// [`loss_at`] on the serialised result (read by field name so the app builds with or without the loss module).
-fn loss_in(v: &serde_json::Value) -> Option<(f64, f64, f64)> {
-    let loss = v.get("loss")?;
-    let mode = loss.get("line").or_else(|| loss.get("odd"))?;
-    let total = mode.get("total")?;
-    Some((
-        loss.get("freq_hz")?.as_f64()?,
-        total.get("db_per_in")?.as_f64()?,
-        total.get("db_per_cm")?.as_f64()?,
-    ))
-}
-
-/// The tolerance spread, when the core provides it: (min Ω, max Ω, yield % if sampled).
+/// The tolerance spread, when the core provides it: (min Ω, max Ω, yield % if sampled), from the Monte Carlo when
+/// it ran, else from the corners.
 pub fn spread_of(result: &RuleResult) -> Option<(f64, f64, Option<f64>)> {
-    spread_in(&serde_json::to_value(result).ok()?)
-}
-
-/// [`spread_of`] on the serialised result.
-fn spread_in(v: &serde_json::Value) -> Option<(f64, f64, Option<f64>)> {
-    let spread = v.get("spread")?;
-    if let Some(mc) = spread.get("monte_carlo") {
-        if let (Some(lo), Some(hi)) = (
-            mc.get("min_ohm").and_then(|x| x.as_f64()),
-            mc.get("max_ohm").and_then(|x| x.as_f64()),
-        ) {
-            return Some((lo, hi, mc.get("yield_pct").and_then(|x| x.as_f64())));
-        }
+    let s = result.spread.as_ref()?;
+    let mc = &s.monte_carlo;
+    if mc.samples > 0 && mc.min_ohm.is_finite() && mc.max_ohm.is_finite() {
+        return Some((mc.min_ohm, mc.max_ohm, Some(mc.yield_pct)));
     }
-    let corners = spread.get("corners")?;
-    Some((
-        corners.get("min_ohm")?.as_f64()?,
-        corners.get("max_ohm")?.as_f64()?,
-        None,
-    ))
+    Some((s.corners.min_ohm, s.corners.max_ohm, None))
 }
 
 /// Common-mode impedance of a pair result, Ω.
@@ -217,22 +194,26 @@ mod tests {
 
     #[test]
     fn loss_and_spread_are_read_when_present() {
-        // The shapes the loss and spread modules serialise (LossAt.line/odd.total, SpreadSummary.monte_carlo).
-        let v = serde_json::json!({
-            "loss": {"freq_hz": 2e9, "odd": {"total": {"db_per_m": 10.0, "db_per_cm": 0.1, "db_per_in": 0.254}}},
-            "spread": {"corners": {"min_ohm": 45.0, "max_ohm": 55.0},
-                       "monte_carlo": {"min_ohm": 46.0, "max_ohm": 54.0, "yield_pct": 97.5}}
-        });
-        assert_eq!(loss_in(&v), Some((2e9, 0.254, 0.1)));
-        assert_eq!(spread_in(&v), Some((46.0, 54.0, Some(97.5))));
-        let corners_only =
-            serde_json::json!({"spread": {"corners": {"min_ohm": 45.0, "max_ohm": 55.0}}});
-        assert_eq!(spread_in(&corners_only), Some((45.0, 55.0, None)));
-        // The app plans with loss and spread: the demo's first rule carries both.
+        // The app plans with loss and spread: every demo rule carries both, and the figures are the core's.
         let p = ohmstack_core::demo::project();
         let plan = analyse(&p).unwrap();
-        let r = plan.rules[0].ok().unwrap();
-        assert!(loss_at(r).is_some() && spread_of(r).is_some());
+        for outcome in &plan.rules {
+            let r = outcome.ok().unwrap();
+            let (f, db_in, db_cm) = loss_at(r).unwrap();
+            assert_eq!(f, p.analysis_freq_hz);
+            // 1 in = 2.54 cm exactly.
+            assert!((db_in / db_cm - 2.54).abs() < 1e-12);
+            let (lo, hi, yield_pct) = spread_of(r).unwrap();
+            let mc = &r.spread.as_ref().unwrap().monte_carlo;
+            assert_eq!(
+                (lo, hi, yield_pct),
+                (mc.min_ohm, mc.max_ohm, Some(mc.yield_pct))
+            );
+            assert!(lo < r.impedance_ohm && r.impedance_ohm < hi);
+        }
+        // Without a spread (the quick plan) there is none to read.
+        let quick = analyse_quick(&p).unwrap();
+        assert!(spread_of(quick.rules[0].ok().unwrap()).is_none());
     }
 
     #[test]
