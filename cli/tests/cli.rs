@@ -1,26 +1,8 @@
 //! The `ohmstack` binary end to end: demo → analyze, calc with units, batch, and bad input giving one-line
 //! errors that name the field (never a panic).
 
-use std::io::Write;
-use std::process::{Command, Stdio};
-
-fn ohmstack(args: &[&str], stdin: &str) -> (i32, String, String) {
-    let mut child = Command::new(env!("CARGO_BIN_EXE_ohmstack"))
-        .args(args)
-        .stdin(Stdio::piped())
-        .stdout(Stdio::piped())
-        .stderr(Stdio::piped())
-        .spawn()
-        .expect("spawn ohmstack");
-    // The binary may reject its arguments before reading stdin; a closed pipe is then expected, not a failure.
-    let _ = child.stdin.take().unwrap().write_all(stdin.as_bytes());
-    let out = child.wait_with_output().unwrap();
-    (
-        out.status.code().unwrap_or(-1),
-        String::from_utf8_lossy(&out.stdout).into(),
-        String::from_utf8_lossy(&out.stderr).into(),
-    )
-}
+mod common;
+use common::ohmstack;
 
 #[test]
 fn demo_feeds_analyze() {
@@ -286,7 +268,7 @@ fn demo() -> String {
 fn loss_at_one_frequency_and_over_a_sweep() {
     let (code, out, err) = ohmstack(
         &["loss", "-", "--rule", TOP, "--freq", "5GHz", "--json"],
-        &demo(),
+        demo(),
     );
     assert_eq!(code, 0, "{err}");
     let v: serde_json::Value = serde_json::from_str(&out).unwrap();
@@ -304,11 +286,11 @@ fn loss_at_one_frequency_and_over_a_sweep() {
     let db_in = line["total"]["db_per_in"].as_f64().unwrap();
     assert!((db_in - t * 0.0254).abs() < 1e-12);
     // The same figure is in the project's analysis at its analysis frequency (1 GHz for the demo).
-    let (_, plan, _) = ohmstack(&["analyze", "-", "--json"], &demo());
+    let (_, plan, _) = ohmstack(&["analyze", "-", "--json"], demo());
     let plan: serde_json::Value = serde_json::from_str(&plan).unwrap();
     assert_eq!(plan["rules"][0]["loss"]["freq_hz"].as_f64().unwrap(), 1e9);
 
-    let (code, out, err) = ohmstack(&["loss", "-", "--rule", TOP, "--json"], &demo());
+    let (code, out, err) = ohmstack(&["loss", "-", "--rule", TOP, "--json"], demo());
     assert_eq!(code, 0, "{err}");
     let v: serde_json::Value = serde_json::from_str(&out).unwrap();
     let pts = v["points"].as_array().unwrap();
@@ -319,7 +301,7 @@ fn loss_at_one_frequency_and_over_a_sweep() {
         &[
             "loss", "-", "--rule", TOP, "--from", "1GHz", "--to", "10GHz", "--points", "3",
         ],
-        &demo(),
+        demo(),
     );
     assert_eq!(code, 0, "{err}");
     assert!(table.contains("10 GHz"), "{table}");
@@ -338,7 +320,7 @@ fn touchstone_to_stdout_and_to_a_file() {
             "--points",
             "7",
         ],
-        &demo(),
+        demo(),
     );
     assert_eq!(code, 0, "{err}");
     assert!(out.lines().any(|l| l == "# Hz S RI R 50"), "{out}");
@@ -363,7 +345,7 @@ fn touchstone_to_stdout_and_to_a_file() {
             "-o",
             p,
         ],
-        &demo(),
+        demo(),
     );
     assert_eq!(code, 0, "{err}");
     let text = std::fs::read_to_string(&path).unwrap();
@@ -456,7 +438,7 @@ fn loss_and_touchstone_errors_name_the_field() {
     let mut v: serde_json::Value = serde_json::from_str(&demo).unwrap();
     v["stackup"][2]["roughness"] =
         serde_json::json!({"model": "hammerstad_groiss", "rms_m": -1e-6});
-    let (code, _, err) = ohmstack(&["loss", "-", "--rule", TOP], &v.to_string());
+    let (code, _, err) = ohmstack(&["loss", "-", "--rule", TOP], v.to_string());
     assert_ne!(code, 0);
     assert!(err.contains("roughness"), "{err}");
 }

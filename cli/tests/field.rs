@@ -1,31 +1,10 @@
 //! `ohmstack field` and `ohmstack field-calc` end to end: the field solve of a standalone structure against Cohn's
 //! exact stripline, a project's rules compared with their closed forms, and bad input named in one-line errors.
 
-use std::f64::consts::PI;
-use std::io::Write;
-use std::process::{Command, Stdio};
+mod common;
+use common::ohmstack;
 
-fn ohmstack(args: &[&str], stdin: &str) -> (i32, String, String) {
-    let mut child = Command::new(env!("CARGO_BIN_EXE_ohmstack"))
-        .args(args)
-        .stdin(Stdio::piped())
-        .stdout(Stdio::piped())
-        .stderr(Stdio::piped())
-        .spawn()
-        .expect("spawn ohmstack");
-    child
-        .stdin
-        .take()
-        .unwrap()
-        .write_all(stdin.as_bytes())
-        .unwrap();
-    let out = child.wait_with_output().unwrap();
-    (
-        out.status.code().unwrap_or(-1),
-        String::from_utf8_lossy(&out.stdout).into(),
-        String::from_utf8_lossy(&out.stderr).into(),
-    )
-}
+use std::f64::consts::PI;
 
 /// K(k) from the complementary modulus by the arithmetic–geometric mean: K = π / (2·AGM(1, k′)).
 fn ellip_k(kp: f64) -> f64 {

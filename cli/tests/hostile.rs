@@ -2,30 +2,10 @@
 //! binary garbage and 10 MB on stdin. Every case must exit non-zero with exactly one line of error text and no
 //! panic message (`batch` reports bad lines in its JSON output instead, and is checked for that).
 
+mod common;
+use common::ohmstack;
 use std::io::Write;
 use std::process::{Command, Stdio};
-
-fn ohmstack(args: &[&str], stdin: Vec<u8>) -> (i32, String, String) {
-    let mut child = Command::new(env!("CARGO_BIN_EXE_ohmstack"))
-        .args(args)
-        .stdin(Stdio::piped())
-        .stdout(Stdio::piped())
-        .stderr(Stdio::piped())
-        .spawn()
-        .expect("spawn ohmstack");
-    // Write from a thread: the binary may stop reading early (size cap, bad argument), and the pipes must drain.
-    let mut pipe = child.stdin.take().unwrap();
-    let writer = std::thread::spawn(move || {
-        let _ = pipe.write_all(&stdin);
-    });
-    let out = child.wait_with_output().unwrap();
-    let _ = writer.join();
-    (
-        out.status.code().unwrap_or(-1),
-        String::from_utf8_lossy(&out.stdout).into(),
-        String::from_utf8_lossy(&out.stderr).into(),
-    )
-}
 
 fn demo() -> Vec<u8> {
     let (code, json, _) = ohmstack(&["demo"], Vec::new());
@@ -286,7 +266,7 @@ fn batch_reports_bad_lines_and_fails_on_binary_stdin() {
     // Text lines that are not cases each get an error object; the run itself succeeds.
     let lines = "null\n{}\n{\"structure\":\"microstrip\",\"width\":\"NaN\",\"height\":\"1e999\",\"dk\":4}\n\
                  {\"structure\":\"microstrip\",\"width\":1e308,\"height\":1e-320,\"dk\":\"inf\"}\n[[[[\n";
-    let (code, out, err) = ohmstack(&["batch"], lines.as_bytes().to_vec());
+    let (code, out, err) = ohmstack(&["batch"], lines.as_bytes());
     assert_eq!(code, 0, "{err}");
     assert!(!err.contains("panicked"), "{err}");
     let rows: Vec<serde_json::Value> = out

@@ -1,35 +1,13 @@
 //! The `share`, `notes` and `draw` commands end to end: link round trips through the binary, the golden links,
 //! hostile links giving one-line errors (never a panic), fab notes in both formats and SVG drawings.
 
-use std::io::Write;
-use std::process::{Command, Stdio};
+mod common;
+use common::ohmstack;
 
 const FIXTURE: &str = concat!(
     env!("CARGO_MANIFEST_DIR"),
     "/../tests/fixtures/eight_layer_ten_rules.json"
 );
-
-fn ohmstack(args: &[&str], stdin: &str) -> (i32, String, String) {
-    let mut child = Command::new(env!("CARGO_BIN_EXE_ohmstack"))
-        .args(args)
-        .stdin(Stdio::piped())
-        .stdout(Stdio::piped())
-        .stderr(Stdio::piped())
-        .spawn()
-        .expect("spawn ohmstack");
-    child
-        .stdin
-        .take()
-        .unwrap()
-        .write_all(stdin.as_bytes())
-        .unwrap();
-    let out = child.wait_with_output().unwrap();
-    (
-        out.status.code().unwrap_or(-1),
-        String::from_utf8_lossy(&out.stdout).into(),
-        String::from_utf8_lossy(&out.stderr).into(),
-    )
-}
 
 #[test]
 fn share_encode_decode_round_trips() {
@@ -40,10 +18,7 @@ fn share_encode_decode_round_trips() {
     let (code, back, err) = ohmstack(&["share", "decode", link.trim()], "");
     assert_eq!(code, 0, "{err}");
     assert_eq!(back, demo);
-    let (code, back, _) = ohmstack(
-        &["share", "decode", "-"],
-        &format!("https://x.test/#{link}"),
-    );
+    let (code, back, _) = ohmstack(&["share", "decode", "-"], format!("https://x.test/#{link}"));
     assert_eq!(code, 0);
     assert_eq!(back, demo);
 }
@@ -107,7 +82,7 @@ fn draw_writes_svg() {
     let out_s = out.to_str().unwrap();
     let (code, _, err) = ohmstack(
         &["draw", "-", "-o", out_s],
-        &std::fs::read_to_string(FIXTURE).unwrap(),
+        std::fs::read_to_string(FIXTURE).unwrap(),
     );
     assert_eq!(code, 0, "{err}");
     let written = std::fs::read_to_string(&out).unwrap();
