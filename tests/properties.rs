@@ -197,6 +197,7 @@ fn rule(stack: &Stackup, i: usize) -> impl Strategy<Value = ImpedanceRule> {
                     },
                     tolerance_pct: tol,
                     solve,
+                    model: Default::default(),
                     width_m: w,
                     spacing_m: is_edge.then_some(s),
                     gap_m: matches!(structure, Structure::Coplanar | Structure::CoplanarPair)

@@ -457,7 +457,7 @@ fn rule_model(
                 .join(", ")
         );
     };
-    let result = ohmstack_core::plan::analyze_rule(&project, rule)?;
+    let result = ohmstack_core::plan::evaluate_rule(&project, rule)?;
     let dims = Dims {
         w: result.width_m,
         s: result.spacing_m,
@@ -754,11 +754,11 @@ fn spread(args: &[String]) -> Result<()> {
     };
     let mut out = Vec::new();
     for rule in rules {
-        let result = ohmstack_core::plan::analyze_rule(&project, rule).and_then(|r| {
+        let result = ohmstack_core::plan::evaluate_rule(&project, rule).and_then(|r| {
             let s = if use_field {
                 spread::run_with_model(&project, rule, &r, &opts, &field_model)?
             } else {
-                spread::run(&project, rule, &r, &opts)?
+                spread::run_for_result(&project, rule, &r, &opts)?
             };
             Ok((r, s))
         });

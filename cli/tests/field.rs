@@ -217,3 +217,43 @@ fn field_solve_puts_the_field_impedance_on_target() {
     assert_eq!(map["drive"], "single");
     std::fs::remove_dir_all(&dir).ok();
 }
+
+#[test]
+fn a_field_solver_rule_flows_into_analyze_and_notes() {
+    let (_, demo, _) = ohmstack(&["demo"], "");
+    let mut project: serde_json::Value = serde_json::from_str(&demo).unwrap();
+    let rule = "Radio feed 50 Ω";
+    for r in project["rules"].as_array_mut().unwrap() {
+        if r["name"] == rule {
+            r["model"] = "field_solver".into();
+        }
+    }
+    let text = project.to_string();
+    let (code, out, err) = ohmstack(&["field-solve", "-", "--rule", rule, "--json"], &text);
+    assert_eq!(code, 0, "{err}");
+    let solved: serde_json::Value = serde_json::from_str(&out).unwrap();
+    let width = solved[0]["value_m"].as_f64().unwrap();
+    let (code, out, err) = ohmstack(&["analyze", "-", "--json"], &text);
+    assert_eq!(code, 0, "{err}");
+    let plan: serde_json::Value = serde_json::from_str(&out).unwrap();
+    let row = plan["rules"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|r| r["name"] == rule)
+        .unwrap();
+    assert_eq!(row["width_m"].as_f64().unwrap(), width);
+    assert!(row["method"]
+        .as_str()
+        .unwrap()
+        .starts_with("2D field solver"));
+    assert!((row["impedance_ohm"].as_f64().unwrap() / 50.0 - 1.0).abs() < 1e-3);
+    // The CSV fab notes list the field-solved width (in the project's µm).
+    let (code, csv, err) = ohmstack(&["notes", "-", "--format", "csv"], &text);
+    assert_eq!(code, 0, "{err}");
+    let line = csv.lines().find(|l| l.contains(rule)).unwrap();
+    assert!(
+        line.contains(&format!("{:.1}", width * 1e6)),
+        "{line} vs {width}"
+    );
+}

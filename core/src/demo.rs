@@ -40,6 +40,7 @@ fn rule(
         target_ohm: target,
         tolerance_pct: 10.0,
         solve: Solve::Width,
+        model: Default::default(),
         width_m: width_um * 1e-6,
         spacing_m: None,
         gap_m: None,

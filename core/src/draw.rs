@@ -10,7 +10,7 @@
 
 use crate::cross_section::Medium;
 use crate::error::{Error, Result};
-use crate::plan::analyze_rule;
+use crate::plan::evaluate_rule;
 use crate::plot::{num, xml_escape};
 use crate::project::{Project, Structure};
 use crate::stackup::{CopperRole, Layer};
@@ -96,7 +96,7 @@ pub fn cross_section_svg(project: &Project, rule_idx: Option<usize>) -> Result<S
     );
 
     // Resolve the selected rule first: its layers are drawn as dielectric with traces, its planes highlighted.
-    let selected = rule.map(|r| (r, analyze_rule(project, r)));
+    let selected = rule.map(|r| (r, evaluate_rule(project, r)));
     let trace_layers: Vec<usize> = match selected {
         Some((r, _)) => std::iter::once(r.layer.as_str())
             .chain(r.partner_layer.as_deref())

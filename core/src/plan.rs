@@ -5,7 +5,7 @@ use crate::cross_section::{self, CrossSection};
 use crate::error::Result;
 use crate::lines::{reflection, return_loss_db, SingleLine};
 use crate::models::{self, Analysis, Dims};
-use crate::project::{ImpedanceRule, Project, Solve};
+use crate::project::{ImpedanceRule, Project, RuleModel, Solve};
 use crate::spread::{self, SampleModel, SpreadOptions, SpreadSummary};
 use crate::stackup::Layer;
 use crate::synth::{self, Bracket};
@@ -164,7 +164,7 @@ pub fn plan_with(project: &Project, options: &PlanOptions) -> Result<Plan> {
         .rules
         .iter()
         .enumerate()
-        .map(|(i, rule)| match analyze_rule(project, rule) {
+        .map(|(i, rule)| match evaluate_rule(project, rule) {
             Ok(mut r) => {
                 if options.spread_samples > 0 {
                     let opts = SpreadOptions {
@@ -173,7 +173,7 @@ pub fn plan_with(project: &Project, options: &PlanOptions) -> Result<Plan> {
                         centre: true,
                         model: options.spread_model,
                     };
-                    match spread::run(project, rule, &r, &opts) {
+                    match spread::run_for_result(project, rule, &r, &opts) {
                         Ok(s) => r.spread = Some(s),
                         Err(e) => r
                             .warnings
@@ -198,7 +198,15 @@ pub fn plan_with(project: &Project, options: &PlanOptions) -> Result<Plan> {
     })
 }
 
-/// Solves and analyses one rule.
+/// Solves and analyses one rule with its own model (see [`RuleModel`]): the closed form, or the 2D field solver.
+pub fn evaluate_rule(project: &Project, rule: &ImpedanceRule) -> Result<RuleResult> {
+    match rule.model {
+        RuleModel::ClosedForm => analyze_rule(project, rule),
+        RuleModel::FieldSolver => crate::field::synth::rule_result(project, rule),
+    }
+}
+
+/// Solves and analyses one rule by the closed form (whatever the rule's model; the field solver starts from this).
 pub fn analyze_rule(project: &Project, rule: &ImpedanceRule) -> Result<RuleResult> {
     rule.validate(&project.stackup)?;
     let cs = cross_section::resolve(&project.stackup, rule)?;
@@ -209,15 +217,37 @@ pub fn analyze_rule(project: &Project, rule: &ImpedanceRule) -> Result<RuleResul
     };
     let solved = solve_dims(project, rule, &cs, &mut dims)?;
     let evaluated = models::evaluate(&cs, rule.structure, &dims)?;
-    let signal: SingleLine = match &evaluated.analysis {
+    Ok(rule_figures(
+        project,
+        rule,
+        cs,
+        dims,
+        solved,
+        evaluated.method,
+        evaluated.analysis,
+    ))
+}
+
+/// The figures of a rule's line from its analysis (closed form or field solver): deviation, reflection, the signal
+/// mode's per-length figures, loss at the analysis frequency, and the warnings of all of them.
+pub(crate) fn rule_figures(
+    project: &Project,
+    rule: &ImpedanceRule,
+    cs: CrossSection,
+    dims: Dims,
+    solved: Option<&'static str>,
+    method: &'static str,
+    analysis: Analysis,
+) -> RuleResult {
+    let signal: SingleLine = match &analysis {
         Analysis::Single(line) => line.clone(),
         Analysis::Pair(pair) => pair.odd(),
     };
-    let z = evaluated.analysis.controlled();
+    let z = analysis.controlled();
     let gamma = reflection(z, rule.target_ohm);
     let deviation_pct = (z - rule.target_ohm) / rule.target_ohm * 100.0;
     let mut warnings = cs.warnings.clone();
-    warnings.extend(evaluated.analysis.warnings().iter().cloned());
+    warnings.extend(analysis.warnings().iter().cloned());
     let loss = match crate::loss::for_rule(project, rule, &cs, &dims)
         .and_then(|m| m.at(project.analysis_freq_hz))
     {
@@ -230,12 +260,12 @@ pub fn analyze_rule(project: &Project, rule: &ImpedanceRule) -> Result<RuleResul
             None
         }
     };
-    Ok(RuleResult {
+    RuleResult {
         name: rule.name.clone(),
         layer: rule.layer.clone(),
         family: cs.family_for(rule.structure),
         structure: rule.structure.label(),
-        method: evaluated.method,
+        method,
         references: cs.references.clone(),
         width_m: dims.w,
         spacing_m: dims.s,
@@ -253,12 +283,12 @@ pub fn analyze_rule(project: &Project, rule: &ImpedanceRule) -> Result<RuleResul
         delay_s_per_m: signal.delay_per_m(),
         inductance_per_m: signal.inductance_per_m(),
         capacitance_per_m: signal.capacitance_per_m(),
-        analysis: evaluated.analysis,
+        analysis,
         loss,
         cross_section: cs,
         warnings,
         spread: None,
-    })
+    }
 }
 
 /// Runs synthesis for the rule's free dimension, writing the solution into `dims`.

@@ -8,7 +8,7 @@
 
 use crate::error::{Error, Result};
 use crate::models::{self, Dims};
-use crate::plan::analyze_rule;
+use crate::plan::evaluate_rule;
 use crate::project::Project;
 use crate::units::format_sig;
 use std::fmt::Write as _;
@@ -820,20 +820,29 @@ pub fn z_vs_width(project: &Project, rule_idx: usize, points: usize) -> Result<V
             project.rules.len()
         ),
     })?;
-    let res = analyze_rule(project, rule)?;
+    let res = evaluate_rule(project, rule)?;
     let n = points.clamp(2, 1000);
     let base = Dims {
         w: res.width_m,
         s: res.spacing_m,
         gap: res.gap_m,
     };
+    let closed = |w: f64| {
+        models::evaluate(&res.cross_section, rule.structure, &Dims { w, ..base })
+            .ok()
+            .map(|e| e.analysis.controlled())
+    };
+    // A field-solver rule: the closed form's curve scaled to the field solver's value at the solution.
+    let factor = match rule.model {
+        crate::project::RuleModel::FieldSolver => closed(res.width_m)
+            .map(|z| res.impedance_ohm / z)
+            .unwrap_or(1.0),
+        crate::project::RuleModel::ClosedForm => 1.0,
+    };
     Ok((0..n)
         .filter_map(|k| {
             let w = res.width_m * (0.7 + 0.6 * k as f64 / (n - 1) as f64);
-            let z = models::evaluate(&res.cross_section, rule.structure, &Dims { w, ..base })
-                .ok()?
-                .analysis
-                .controlled();
+            let z = factor * closed(w)?;
             z.is_finite().then_some((w, z))
         })
         .collect())

@@ -68,6 +68,25 @@ pub enum Solve {
     Nothing,
 }
 
+/// What computes a rule's figures.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize, Default)]
+#[serde(rename_all = "snake_case")]
+pub enum RuleModel {
+    /// The published closed-form model of the structure (fast; the default).
+    #[default]
+    ClosedForm,
+    /// The 2D field solver: the free dimension is solved on it, starting from the closed form's answer (for where
+    /// the closed form is flagged: thick copper in coplanar gaps, solder mask, etched traces).
+    FieldSolver,
+}
+
+impl RuleModel {
+    /// Whether this is the default (left out of saved files, so older files and links read the same).
+    pub fn is_closed_form(&self) -> bool {
+        *self == RuleModel::ClosedForm
+    }
+}
+
 /// One controlled-impedance net class.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields)]
@@ -83,6 +102,9 @@ pub struct ImpedanceRule {
     pub tolerance_pct: f64,
     #[serde(default)]
     pub solve: Solve,
+    /// What computes the figures.
+    #[serde(default, skip_serializing_if = "RuleModel::is_closed_form")]
+    pub model: RuleModel,
     /// Trace width at the base of the trace, m (the starting value when solving for width).
     pub width_m: f64,
     /// Edge-to-edge spacing of a pair, m.

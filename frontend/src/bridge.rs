@@ -106,6 +106,7 @@ fn probe(layer: &str, structure: Structure, partner: Option<&str>) -> ImpedanceR
         target_ohm: 50.0,
         tolerance_pct: 10.0,
         solve: Solve::Nothing,
+        model: Default::default(),
         width_m: 100e-6,
         spacing_m: Some(100e-6),
         gap_m: Some(100e-6),
@@ -562,7 +563,7 @@ fn solved_rule(
         .rules
         .get(idx)
         .ok_or_else(|| format!("rule {idx} does not exist"))?;
-    let r = ohmstack_core::plan::analyze_rule(project, rule).map_err(|e| e.to_string())?;
+    let r = ohmstack_core::plan::evaluate_rule(project, rule).map_err(|e| e.to_string())?;
     let dims = Dims {
         w: r.width_m,
         s: r.spacing_m,
@@ -682,7 +683,7 @@ pub fn spread_view(project: &Project, idx: usize) -> Result<SpreadView, String> 
         centre: false,
         model: SampleModel::Quadratic,
     };
-    let summary = spread::run(project, rule, &r, &opts).map_err(|e| e.to_string())?;
+    let summary = spread::run_for_result(project, rule, &r, &opts).map_err(|e| e.to_string())?;
     // The summary keeps 32 bin counts only; the plot bins raw samples over the window too, so the samples are
     // drawn again exactly as `spread::run_with_model` draws them (same setup, surface, seed and deviates).
     let dims = Dims {
@@ -692,7 +693,7 @@ pub fn spread_view(project: &Project, idx: usize) -> Result<SpreadView, String> 
     };
     let err = |e: ohmstack_core::Error| e.to_string();
     let setup = spread::Setup::new(project, rule, &r.cross_section, &dims).map_err(err)?;
-    let closed = spread::ClosedForm;
+    let closed = spread::result_model(rule, &r).map_err(err)?;
     let model: &dyn ImpedanceModel = &closed;
     let mut ev = setup.evaluator(model);
     let mut direct = |d: &[f64]| ev.z(d);

@@ -7,7 +7,7 @@
 use crate::bridge;
 use ohmstack_core::error;
 use ohmstack_core::material::{self, PresetUse};
-use ohmstack_core::project::{ImpedanceRule, Solve, Structure};
+use ohmstack_core::project::{ImpedanceRule, RuleModel, Solve, Structure};
 use ohmstack_core::stackup::{Copper, CopperRole, Dielectric};
 use ohmstack_core::units::{LengthUnit, OZ_COPPER};
 use ohmstack_core::{Layer, Project};
@@ -191,6 +191,7 @@ pub enum Action {
     SetRuleLayer(usize, String),
     SetRuleStructure(usize, Structure),
     SetRuleSolve(usize, Solve),
+    SetRuleModel(usize, RuleModel),
     SetRulePartner(usize, String),
     Undo,
     Redo,
@@ -615,6 +616,7 @@ impl State {
                     target_ohm: 50.0,
                     tolerance_pct: 10.0,
                     solve: Solve::Width,
+                    model: Default::default(),
                     width_m: 150e-6,
                     spacing_m: None,
                     gap_m: None,
@@ -648,6 +650,9 @@ impl State {
                     return;
                 }
                 r.solve = solve;
+            }
+            Action::SetRuleModel(i, model) if i < n => {
+                p.rules[i].model = model;
             }
             Action::SetRulePartner(i, partner) if i < n => {
                 p.rules[i].partner_layer = Some(partner);
@@ -708,6 +713,7 @@ impl Reducible for State {
             | Action::SetRuleLayer(..)
             | Action::SetRuleStructure(..)
             | Action::SetRuleSolve(..)
+            | Action::SetRuleModel(..)
             | Action::SetRulePartner(..)) => s.rule_action(a),
             Action::Undo => s.step(true),
             Action::Redo => s.step(false),

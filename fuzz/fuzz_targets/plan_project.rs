@@ -25,6 +25,7 @@ fuzz_target!(|data: &[u8]| {
             target_ohm: 100.0,
             tolerance_pct: 10.0,
             solve: Solve::Width,
+            model: Default::default(),
             width_m: 120e-6,
             spacing_m: None,
             gap_m: None,

@@ -129,3 +129,32 @@ def test_field_synthesis_in_the_browser_equals_the_cli(driver):
     driver.execute_script("arguments[0].scrollIntoView({block: 'center'});", card)
     browser.screenshot(driver, "field-synthesis")
     assert browser.console_errors(driver) == []
+
+
+def test_field_solver_model_in_the_browser_equals_the_cli(driver):
+    """Choosing the 2D field solver as a rule's model: once typing settles, the card shows the field-solved width
+    and impedance of `ohmstack analyze` on the same project, and the fab notes list that width."""
+    from selenium.webdriver.support.ui import Select
+
+    driver.get(browser.app_url())
+    browser.wait_ready(driver)
+    project = json.loads(run("demo").stdout)
+    index = next(i for i, r in enumerate(project["rules"]) if r["structure"] == "coplanar")
+    project["rules"][index]["model"] = "field_solver"
+    proc = run("analyze", "-", "--json", stdin=json.dumps(project))
+    assert proc.returncode == 0, proc.stderr
+    native = json.loads(proc.stdout)["rules"][index]
+    assert native["method"].startswith("2D field solver")
+    Select(driver.find_element(By.ID, f"rule-{index}-model")).select_by_value("field_solver")
+
+    def shown(key):
+        el = driver.find_element(By.CSS_SELECTOR, f"[data-testid='rule-{index}-{key}']")
+        return float(el.get_attribute("data-value"))
+
+    browser.wait_for(lambda: driver.find_element(By.ID, "app").get_attribute("data-settled") == "true"
+                     and abs(shown("width") / native["width_m"] - 1) < 1e-6, timeout=60,
+                     what="field-solved width on the card")
+    assert abs(shown("impedance") / native["impedance_ohm"] - 1) < 1e-6
+    notes = driver.find_element(By.CSS_SELECTOR, "[data-testid='fab-notes']").text
+    assert f"{native['width_m'] * 1e6:.1f}" in notes
+    assert browser.console_errors(driver) == []

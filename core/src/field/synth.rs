@@ -31,6 +31,10 @@ pub struct FieldSynthesisResult {
     pub dimension: &'static str,
     /// The field-solved dimension, m.
     pub value_m: f64,
+    /// All dimensions of the solved line, m.
+    pub width_m: f64,
+    pub spacing_m: Option<f64>,
+    pub gap_m: Option<f64>,
     /// The closed form's solution it started from, m (`None` when the closed form failed).
     pub closed_form_m: Option<f64>,
     pub target_ohm: f64,
@@ -286,10 +290,14 @@ impl FieldSynthesis {
         let outcome = solve.result().expect("finished").map(|field| {
             let mut warnings = self.warnings.clone();
             warnings.extend(field.warnings.iter().cloned());
+            let dims = self.dims_at(*value);
             FieldSynthesisResult {
                 name: self.name.clone(),
                 dimension: self.dimension_name(),
                 value_m: *value,
+                width_m: dims.w,
+                spacing_m: dims.s,
+                gap_m: dims.gap,
                 closed_form_m: self.closed,
                 target_ohm: self.target,
                 field_ohm: field.controlled_ohm,
@@ -339,6 +347,108 @@ impl FieldSynthesis {
     pub fn name(&self) -> &str {
         &self.name
     }
+}
+
+/// The method a field-solver rule reports.
+pub const FIELD_METHOD: &str = "2D field solver (finite volumes, extrapolated)";
+
+/// Field results kept per (stack, fabrication limits, rule): a field-solver rule is planned, drawn, plotted and put
+/// in the fab notes from one synthesis, not one each. Small: a project has a few such rules.
+const CACHE_SIZE: usize = 16;
+
+thread_local! {
+    static CACHE: std::cell::RefCell<Vec<(String, crate::plan::RuleResult)>> =
+        const { std::cell::RefCell::new(Vec::new()) };
+}
+
+/// The figures of a field-solver rule: its free dimension solved on the field solver (or its dimensions as given
+/// when it solves nothing), impedance, εeff and the mode figures from the field solve; loss from the closed-form
+/// loss models at those dimensions.
+pub fn rule_result(project: &Project, rule: &ImpedanceRule) -> Result<crate::plan::RuleResult> {
+    rule.validate(&project.stackup)?;
+    // Everything the result depends on: the stack, the fabrication limits and etch, the frequency, the rule.
+    let key = serde_json::to_string(&(
+        &project.stackup,
+        &project.fab,
+        project.analysis_freq_hz,
+        project.units,
+        rule,
+    ))
+    .map_err(|e| Error::Invalid {
+        field: "project".into(),
+        reason: e.to_string(),
+    })?;
+    if let Some(hit) = CACHE.with(|c| {
+        c.borrow()
+            .iter()
+            .find(|(k, _)| *k == key)
+            .map(|(_, r)| r.clone())
+    }) {
+        return Ok(hit);
+    }
+    let result = compute_rule_result(project, rule)?;
+    CACHE.with(|c| {
+        let mut c = c.borrow_mut();
+        if c.len() >= CACHE_SIZE {
+            c.remove(0);
+        }
+        c.push((key, result.clone()));
+    });
+    Ok(result)
+}
+
+fn compute_rule_result(project: &Project, rule: &ImpedanceRule) -> Result<crate::plan::RuleResult> {
+    let cs = cross_section::resolve(&project.stackup, rule)?;
+    let options = FieldOptions::default();
+    let mut notes = Vec::new();
+    let (dims, solved, field) = if rule.solve == Solve::Nothing {
+        let dims = Dims {
+            w: rule.width_m,
+            s: rule.spacing_m,
+            gap: rule.gap_m,
+        };
+        let field = super::solve_cross_section(
+            &cs,
+            rule.structure,
+            &dims,
+            project.fab.etch_factor,
+            options,
+        )?;
+        (dims, None, field)
+    } else {
+        let mut s = FieldSynthesis::start(project, rule, options)?;
+        s.run();
+        let r = s.result().ok_or_else(|| Error::Invalid {
+            field: "field".into(),
+            reason: "the field synthesis did not finish".into(),
+        })??;
+        notes.extend(r.warnings.iter().cloned());
+        let dims = Dims {
+            w: r.width_m,
+            s: r.spacing_m,
+            gap: r.gap_m,
+        };
+        (dims, Some(r.dimension), r.field)
+    };
+    notes.push(Warning::new(format!(
+        "figures from the 2D field solver (estimated error {} %); loss from the closed-form models at these dimensions",
+        crate::units::format_sig(field.error_estimate_pct, 2)
+    )));
+    let mut result = crate::plan::rule_figures(
+        project,
+        rule,
+        cs,
+        dims,
+        solved,
+        FIELD_METHOD,
+        field.analysis,
+    );
+    for n in notes {
+        if !result.warnings.contains(&n) {
+            result.warnings.push(n);
+        }
+    }
+    Ok(result)
 }
 
 #[cfg(test)]
@@ -413,6 +523,59 @@ mod tests {
             r.converged && (r.field_ohm / 90.0 - 1.0).abs() < TOLERANCE,
             "{r:?}"
         );
+    }
+
+    #[test]
+    fn a_field_solver_rule_is_planned_from_the_synthesis() {
+        let mut p = crate::demo::project();
+        let i = p
+            .rules
+            .iter()
+            .position(|r| r.name == "Radio feed 50 Ω")
+            .unwrap();
+        p.rules[i].model = crate::project::RuleModel::FieldSolver;
+        let direct = synth(&p, "Radio feed 50 Ω");
+        let plan = crate::plan_with(&p, &crate::PlanOptions::with_spread()).unwrap();
+        let r = plan.rules[i].ok().unwrap();
+        assert_eq!(r.method, FIELD_METHOD);
+        assert_eq!(r.width_m, direct.value_m);
+        assert_eq!(r.impedance_ohm, direct.field_ohm);
+        assert!(r.deviation_pct.abs() < 0.1 && r.within_tolerance);
+        assert!(r
+            .warnings
+            .iter()
+            .any(|w| w.message.contains("2D field solver")));
+        // No closed-form thickness warning: the field solver is what decides this rule now.
+        assert!(!r
+            .warnings
+            .iter()
+            .any(|w| w.message.contains("thickness correction")));
+        // The spread is centred on the field solver's nominal, with the closed form's sensitivities.
+        let s = r.spread.as_ref().unwrap();
+        assert!((s.nominal_ohm - r.impedance_ohm).abs() < 1e-9 * r.impedance_ohm);
+        assert!(s.warnings.iter().any(|w| w.message.contains("scaled")));
+        // Other rules are untouched, and a second plan gives the same figures (from the cache).
+        let closed = crate::plan(&crate::demo::project()).unwrap();
+        assert_eq!(
+            plan.rules[0].ok().unwrap().width_m,
+            closed.rules[0].ok().unwrap().width_m
+        );
+        let again = crate::plan_with(&p, &crate::PlanOptions::with_spread()).unwrap();
+        assert_eq!(again.rules[i], plan.rules[i]);
+        // Saved files name the model only when it is not the default.
+        let json = p.to_json();
+        assert_eq!(json.matches("\"model\"").count(), 1);
+        assert!(json.contains("\"field_solver\""));
+        assert_eq!(Project::from_json(&json).unwrap(), p);
+        assert!(!crate::demo::project().to_json().contains("\"model\""));
+        // The fab notes carry the field-solved width.
+        let notes = crate::report::fab_notes(&p, &plan);
+        let row = notes
+            .impedance
+            .iter()
+            .find(|row| row.net_class == "Radio feed 50 Ω")
+            .unwrap();
+        assert_eq!(row.width_m, direct.value_m);
     }
 
     #[test]

@@ -1201,14 +1201,64 @@ pub fn run(
     run_with_model(project, rule, result, opts, &ClosedForm)
 }
 
+/// The closed form times a constant: calibrated to the field solver at a rule's nominal line, so the spread of a
+/// field-solver rule keeps the closed form's sensitivities around the field solver's nominal impedance.
+#[derive(Debug, Clone, Copy)]
+pub struct ScaledClosedForm {
+    pub factor: f64,
+}
+
+impl ImpedanceModel for ScaledClosedForm {
+    fn impedance(&self, cs: &CrossSection, structure: Structure, dims: &Dims) -> Result<f64> {
+        ClosedForm
+            .impedance(cs, structure, dims)
+            .map(|z| self.factor * z)
+    }
+}
+
+/// The model a planned rule's spread samples: the closed form (factor 1) for a closed-form rule; for a
+/// field-solver rule the closed form scaled to the field solver's nominal.
+pub fn result_model(rule: &ImpedanceRule, result: &RuleResult) -> Result<ScaledClosedForm> {
+    if rule.model == crate::project::RuleModel::ClosedForm {
+        return Ok(ScaledClosedForm { factor: 1.0 });
+    }
+    let dims = Dims {
+        w: result.width_m,
+        s: result.spacing_m,
+        gap: result.gap_m,
+    };
+    let closed = ClosedForm.impedance(&result.cross_section, rule.structure, &dims)?;
+    Ok(ScaledClosedForm {
+        factor: result.impedance_ohm / closed,
+    })
+}
+
+/// The spread of a planned rule with [`result_model`] (a note says when it is scaled).
+pub fn run_for_result(
+    project: &Project,
+    rule: &ImpedanceRule,
+    result: &RuleResult,
+    opts: &SpreadOptions,
+) -> Result<SpreadSummary> {
+    let model = result_model(rule, result)?;
+    let mut s = run_with_model(project, rule, result, opts, &model)?;
+    if rule.model != crate::project::RuleModel::ClosedForm {
+        s.warnings.push(Warning::new(format!(
+            "spread from the closed form's sensitivities, scaled by {} to the field solver's nominal",
+            format_sig(model.factor, 4)
+        )));
+    }
+    Ok(s)
+}
+
 /// Analyses `rule` (synthesis included) and runs its spread.
 pub fn run_rule(
     project: &Project,
     rule: &ImpedanceRule,
     opts: &SpreadOptions,
 ) -> Result<SpreadSummary> {
-    let result = crate::plan::analyze_rule(project, rule)?;
-    run(project, rule, &result, opts)
+    let result = crate::plan::evaluate_rule(project, rule)?;
+    run_for_result(project, rule, &result, opts)
 }
 
 /// Runs the whole spread with any impedance model (the hook for a field-solver response surface).

@@ -35,6 +35,7 @@ fn rule(layer: &str, target: f64) -> ImpedanceRule {
         target_ohm: target,
         tolerance_pct: 10.0,
         solve: Solve::Width,
+        model: Default::default(),
         width_m: 300e-6,
         spacing_m: None,
         gap_m: None,

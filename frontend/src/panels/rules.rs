@@ -3,7 +3,7 @@
 use crate::bridge;
 use crate::state::{Action, Draft, Field, RuleField};
 use crate::widgets::{Select, TextField};
-use ohmstack_core::project::{Solve, Structure};
+use ohmstack_core::project::{RuleModel, Solve, Structure};
 use ohmstack_core::units::format_sig;
 use ohmstack_core::{Plan, Project, RuleOutcome, RuleResult};
 use std::collections::BTreeMap;
@@ -186,6 +186,18 @@ pub fn Rules(props: &RulesProps) -> Html {
                 d.emit(Action::SetRuleSolve(i, s))
             })
         };
+        let on_model = {
+            let d = d.clone();
+            Callback::from(move |v: String| {
+                let m = if v == "field_solver" { RuleModel::FieldSolver } else { RuleModel::ClosedForm };
+                d.emit(Action::SetRuleModel(i, m))
+            })
+        };
+        let model_options: Vec<(AttrValue, AttrValue)> = vec![
+            ("closed_form".into(), "closed form".into()),
+            ("field_solver".into(), "2D field solver".into()),
+        ];
+        let model_key = if rule.model == RuleModel::FieldSolver { "field_solver" } else { "closed_form" };
         let on_partner = { let d = d.clone(); Callback::from(move |v: String| d.emit(Action::SetRulePartner(i, v))) };
         let len = |f: RuleField, label: &str, m: f64| html! {
             <TextField field={Field::Rule(i, f)} label={format!("{label} ({})", unit.symbol())} size="narrow"
@@ -231,6 +243,7 @@ pub fn Rules(props: &RulesProps) -> Html {
                     <TextField field={Field::Rule(i, RuleField::Tolerance)} label="± (%)" size="narrow"
                         value={format_sig(rule.tolerance_pct, 6)} draft={draft(Field::Rule(i, RuleField::Tolerance))} dispatch={d.clone()} />
                     <Select id={format!("rule-{i}-solve")} label="Solve for" options={solve_options} selected={solve_key(rule.solve)} onchange={on_solve} />
+                    <Select id={format!("rule-{i}-model")} label="Model" options={model_options} selected={model_key} onchange={on_model} />
                     { len(RuleField::Width, width_label, rule.width_m) }
                     if let (Some(s), true) = (rule.spacing_m, matches!(rule.structure, Structure::EdgePair | Structure::CoplanarPair)) {
                         { len(RuleField::Spacing, spacing_label, s) }
