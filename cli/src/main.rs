@@ -50,8 +50,8 @@ usage:
   ohmstack field-solve FILE|- [--rule NAME] [--tolerance PCT] [--map out.svg|out.json] [--json]
                                         solve each rule's width (or spacing) with the 2D field solver,
                                         starting from the closed form's solution
-    --map writes the solution's potential: an SVG picture, or the sampled values as JSON (field needs
-    one rule for it: --rule NAME)
+    --map writes the solution's potential: an SVG picture, or the sampled values as JSON (field and
+    field-solve need one rule for it: --rule NAME)
   ohmstack share encode FILE|-          print the share link (v1.…) of a project
   ohmstack share decode LINK|-          print the project JSON a share link holds (a whole URL is fine)
   ohmstack notes FILE|- [--format md|csv]
