@@ -224,6 +224,23 @@ pub fn broadside_modes(
     h_below: f64,
     er: f64,
 ) -> Result<(f64, f64, bool)> {
+    broadside_modes_with(w, h_above, s, h_below, er, true)
+}
+
+/// Beyond this many plane spacings of width a strip's two edges no longer see each other (their fields decay as
+/// exp(−π·x/b) along the strip: exp(−6π) ≈ 7e-9), so the capacitances grow exactly by the parallel-plate slope:
+/// wider broadside strips are solved at this width and extended, which keeps the moment solver at its smallest
+/// grid (synthesis brackets start at very wide strips).
+pub const BROADSIDE_SATURATION_WIDTH_OVER_B: f64 = 6.0;
+
+fn broadside_modes_with(
+    w: f64,
+    h_above: f64,
+    s: f64,
+    h_below: f64,
+    er: f64,
+    saturate: bool,
+) -> Result<(f64, f64, bool)> {
     let b = h_above + s + h_below;
     let strips_of = |w: f64| {
         [
@@ -239,18 +256,24 @@ pub fn broadside_modes(
             },
         ]
     };
-    let (c, extrapolated) = if strip_moments::resolvable(b, &strips_of(w)) {
+    let resolvable = strip_moments::resolvable(b, &strips_of(w));
+    let saturated = saturate && w > BROADSIDE_SATURATION_WIDTH_OVER_B * b;
+    let (c, extrapolated) = if resolvable && !saturated {
         (strip_moments::capacitance(b, &strips_of(w))?, false)
     } else {
         let gap = h_above.min(s).min(h_below);
-        let w0 = 0.999 * gap * strip_moments::MAX_WIDTH_OVER_GAP;
+        let mut w0 = 0.999 * gap * strip_moments::MAX_WIDTH_OVER_GAP;
+        if saturate {
+            w0 = w0.min(BROADSIDE_SATURATION_WIDTH_OVER_B * b);
+        }
         let mut c = strip_moments::capacitance(b, &strips_of(w0))?;
         let extra = w - w0;
         c[0][0] += extra * (1.0 / h_below + 1.0 / s);
         c[1][1] += extra * (1.0 / h_above + 1.0 / s);
         c[0][1] -= extra / s;
         c[1][0] -= extra / s;
-        (c, true)
+        // Only an unresolvable width is an approximation worth a warning; saturation is exact to 1e-8.
+        (c, !resolvable)
     };
     let (ze, zo) = strip_moments::pair_modes(&c);
     if !(ze.is_finite() && zo.is_finite() && ze > 0.0 && zo > 0.0) {
@@ -454,6 +477,41 @@ mod tests {
             );
         }
         assert!(last_split < 0.03, "{last_split}");
+    }
+
+    #[test]
+    fn wide_broadside_strips_saturate_exactly() {
+        // Beyond 6 plane spacings the parallel-plate extension matches a reference moment solve with 40 basis terms
+        // per strip to 1e-7 (the 16-term solve the models use drifts to ~5e-7 at 14 b: its basis, not the
+        // extension, limits it there), and is continuous at the switch.
+        let (h1, s, h2) = (1e-4, 1.2e-4, 1.5e-4);
+        let b = h1 + s + h2;
+        for k in [6.5, 9.0, 14.0] {
+            let w = k * b;
+            let (e, o, x) = broadside_modes(w, h1, s, h2, 1.0).unwrap();
+            assert!(!x);
+            let strips = [
+                Strip { x: 0.0, w, y: h2 },
+                Strip {
+                    x: 0.0,
+                    w,
+                    y: h2 + s,
+                },
+            ];
+            let (er, or) = strip_moments::pair_modes(
+                &strip_moments::capacitance_reference(b, &strips).unwrap(),
+            );
+            assert!(
+                rel(e, er) < 1e-7 && rel(o, or) < 1e-7,
+                "{k}: {e} {er} {o} {or}"
+            );
+            let (ef, of, _) = broadside_modes_with(w, h1, s, h2, 1.0, false).unwrap();
+            assert!(rel(e, er) <= rel(ef, er) + 1e-12 && rel(o, or) <= rel(of, or) + 1e-12);
+        }
+        let w_sat = BROADSIDE_SATURATION_WIDTH_OVER_B * b;
+        let below = broadside_modes(w_sat * (1.0 - 1e-9), h1, s, h2, 1.0).unwrap();
+        let above = broadside_modes(w_sat * (1.0 + 1e-9), h1, s, h2, 1.0).unwrap();
+        assert!(rel(below.0, above.0) < 1e-8 && rel(below.1, above.1) < 1e-8);
     }
 
     #[test]

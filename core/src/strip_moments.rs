@@ -100,11 +100,24 @@ pub fn resolvable(b: f64, strips: &[Strip]) -> bool {
 
 /// Capacitance matrix C/ε (dimensionless, per unit length) of `strips` between planes `b` apart.
 pub fn capacitance(b: f64, strips: &[Strip]) -> Result<Vec<Vec<f64>>> {
-    capacitance_resolved(b, strips, DEFAULT_RESOLUTION)
+    capacitance_resolved(b, strips, DEFAULT_RESOLUTION, N_BASIS)
 }
 
-/// [`capacitance`] with `resolution` quadrature nodes per unit of (strip width / nearest distance).
-fn capacitance_resolved(b: f64, strips: &[Strip], resolution: f64) -> Result<Vec<Vec<f64>>> {
+/// [`capacitance`] with 40 Chebyshev terms per strip: a reference for wide strips (many plane spacings wide),
+/// whose flat middle and edge layers 16 terms resolve to only about 1e-7.
+#[cfg(test)]
+pub(crate) fn capacitance_reference(b: f64, strips: &[Strip]) -> Result<Vec<Vec<f64>>> {
+    capacitance_resolved(b, strips, DEFAULT_RESOLUTION, 40)
+}
+
+/// [`capacitance`] with `resolution` quadrature nodes per unit of (strip width / nearest distance) and `n_basis`
+/// Chebyshev terms per strip.
+fn capacitance_resolved(
+    b: f64,
+    strips: &[Strip],
+    resolution: f64,
+    n_basis: usize,
+) -> Result<Vec<Vec<f64>>> {
     let n_s = strips.len();
     for s in strips {
         if !(s.w > 0.0 && s.y > 0.0 && s.y < b && s.x.is_finite()) {
@@ -116,7 +129,7 @@ fn capacitance_resolved(b: f64, strips: &[Strip], resolution: f64) -> Result<Vec
     }
     // Resolution: the smooth kernels vary on the scale of the nearest plane or neighbouring strip.
     let scale = closeness(b, strips);
-    let m = ((resolution / scale.max(1e-9)).ceil() as usize).clamp(4 * N_BASIS, MAX_NODES);
+    let m = ((resolution / scale.max(1e-9)).ceil() as usize).clamp(4 * n_basis, MAX_NODES);
     let nodes: Vec<f64> = (0..m)
         .map(|k| ((2 * k + 1) as f64 * PI / (2 * m) as f64).cos())
         .collect();
@@ -125,10 +138,10 @@ fn capacitance_resolved(b: f64, strips: &[Strip], resolution: f64) -> Result<Vec
     let cheb: Vec<Vec<f64>> = (0..m)
         .map(|k| {
             let phi = (2 * k + 1) as f64 * PI / (2 * m) as f64;
-            (0..N_BASIS).map(|n| (n as f64 * phi).cos()).collect()
+            (0..n_basis).map(|n| (n as f64 * phi).cos()).collect()
         })
         .collect();
-    let dim = n_s * N_BASIS;
+    let dim = n_s * n_basis;
     let mut a = vec![vec![0.0; dim]; dim];
     let xs: Vec<Vec<f64>> = strips
         .iter()
@@ -137,7 +150,7 @@ fn capacitance_resolved(b: f64, strips: &[Strip], resolution: f64) -> Result<Vec
     // cheb_flat[l·N + n] = T_n(v_l).
     let cheb_flat: Vec<f64> = cheb.iter().flatten().copied().collect();
     let mut kmat = vec![0.0; m * m];
-    let mut half = vec![0.0; m * N_BASIS];
+    let mut half = vec![0.0; m * n_basis];
     for (i, si) in strips.iter().enumerate() {
         for (j, sj) in strips.iter().enumerate() {
             let same = i == j;
@@ -145,19 +158,19 @@ fn capacitance_resolved(b: f64, strips: &[Strip], resolution: f64) -> Result<Vec
             // half[k][n] = Σ_l w·K(k, l)·T_n(v_l); then A[m][n] = Σ_k w·T_m(u_k)·half[k][n].
             half.iter_mut().for_each(|h| *h = 0.0);
             for k in 0..m {
-                let hrow = &mut half[k * N_BASIS..(k + 1) * N_BASIS];
+                let hrow = &mut half[k * n_basis..(k + 1) * n_basis];
                 for (l, &kv) in kmat[k * m..(k + 1) * m].iter().enumerate() {
-                    let crow = &cheb_flat[l * N_BASIS..(l + 1) * N_BASIS];
+                    let crow = &cheb_flat[l * n_basis..(l + 1) * n_basis];
                     for (h, &c) in hrow.iter_mut().zip(crow) {
                         *h += kv * c;
                     }
                 }
             }
             for k in 0..m {
-                let hrow = &half[k * N_BASIS..(k + 1) * N_BASIS];
-                let crow = &cheb_flat[k * N_BASIS..(k + 1) * N_BASIS];
+                let hrow = &half[k * n_basis..(k + 1) * n_basis];
+                let crow = &cheb_flat[k * n_basis..(k + 1) * n_basis];
                 for (mm, &cm) in crow.iter().enumerate() {
-                    let arow = &mut a[i * N_BASIS + mm][j * N_BASIS..(j + 1) * N_BASIS];
+                    let arow = &mut a[i * n_basis + mm][j * n_basis..(j + 1) * n_basis];
                     for (av, &hv) in arow.iter_mut().zip(hrow) {
                         *av += weight * weight * cm * hv;
                     }
@@ -165,9 +178,9 @@ fn capacitance_resolved(b: f64, strips: &[Strip], resolution: f64) -> Result<Vec
             }
             if same {
                 // −2·∫∫ ln|u − u′| Tm Tn /√·√ = 2π²·ln2 (m = n = 0), π²/n (m = n ≥ 1).
-                a[i * N_BASIS][j * N_BASIS] += 2.0 * PI * PI * LN_2;
-                for n in 1..N_BASIS {
-                    a[i * N_BASIS + n][j * N_BASIS + n] += PI * PI / n as f64;
+                a[i * n_basis][j * n_basis] += 2.0 * PI * PI * LN_2;
+                for n in 1..n_basis {
+                    a[i * n_basis + n][j * n_basis + n] += PI * PI / n as f64;
                 }
             }
         }
@@ -176,10 +189,10 @@ fn capacitance_resolved(b: f64, strips: &[Strip], resolution: f64) -> Result<Vec
     let mut c = vec![vec![0.0; n_s]; n_s];
     for j in 0..n_s {
         let mut rhs = vec![0.0; dim];
-        rhs[j * N_BASIS] = 4.0 * PI * PI;
+        rhs[j * n_basis] = 4.0 * PI * PI;
         let x = solve_dense(a.clone(), rhs)?;
         for i in 0..n_s {
-            c[i][j] = PI * x[i * N_BASIS];
+            c[i][j] = PI * x[i * n_basis];
         }
     }
     Ok(c)
@@ -315,8 +328,8 @@ mod tests {
             ),
         ];
         for (b, strips) in &cases {
-            let a = capacitance_resolved(*b, strips, 8.0).unwrap();
-            let c = capacitance_resolved(*b, strips, 32.0).unwrap();
+            let a = capacitance_resolved(*b, strips, 8.0, N_BASIS).unwrap();
+            let c = capacitance_resolved(*b, strips, 32.0, N_BASIS).unwrap();
             for i in 0..strips.len() {
                 for j in 0..strips.len() {
                     assert!(rel(a[i][j], c[i][j]) < 1e-9, "{strips:?}: {a:?} vs {c:?}");
