@@ -216,7 +216,9 @@ pub fn broadside_zero_thickness(
 
 /// [`broadside_zero_thickness`] plus whether the width had to be extrapolated: strips wider than
 /// [`strip_moments::MAX_WIDTH_OVER_GAP`] × their nearest gap are solved at that width and extended with the exact
-/// parallel-plate slope of each capacitance (exact once the width also exceeds a few times every gap).
+/// parallel-plate slope of each capacitance (exact once the width also exceeds a few times every gap). Strips
+/// wider than [`BROADSIDE_SATURATION_WIDTH_OVER_B`] plane spacings are extended the same way from that width
+/// (exact to 1e-7 there; not flagged).
 pub fn broadside_modes(
     w: f64,
     h_above: f64,
