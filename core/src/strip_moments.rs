@@ -50,11 +50,14 @@ fn kernel_block(
     let scale = PI / (2.0 * b);
     let ln_alpha = (PI * si.w / (4.0 * b)).ln();
     let half_w = 0.5 * si.w;
+    let n = xj.len();
     for (k, &x) in xi.iter().enumerate() {
-        let row = &mut out[k * xj.len()..(k + 1) * xj.len()];
-        for (slot, &xp) in row.iter_mut().zip(xj) {
+        // The self kernel depends on |x − x′| only (sinh is odd, the rest even): fill the upper triangle and mirror
+        // it, which is bitwise the same as evaluating every entry.
+        let first = if same { k } else { 0 };
+        for (l, &xp) in xj.iter().enumerate().skip(first) {
             let d = scale * (x - xp);
-            *slot = if same {
+            let value = if same {
                 // ln(sinh²Δ + sin²θ) − 2·ln|sinh Δ| + 2·ln|u − u′|; the −2·ln|u − u′| is integrated analytically.
                 if d.abs() < 1.0 {
                     let sh = d.sinh();
@@ -70,6 +73,10 @@ fn kernel_block(
             } else {
                 0.0
             };
+            out[k * n + l] = value;
+            if same {
+                out[l * n + k] = value;
+            }
         }
     }
 }
@@ -153,6 +160,15 @@ fn capacitance_resolved(
     let mut half = vec![0.0; m * n_basis];
     for (i, si) in strips.iter().enumerate() {
         for (j, sj) in strips.iter().enumerate() {
+            if j < i {
+                // The kernel is symmetric between strips (K_ij(x, x′) = K_ji(x′, x)), so A_ij is A_ji transposed.
+                for r in 0..n_basis {
+                    for c in 0..n_basis {
+                        a[i * n_basis + r][j * n_basis + c] = a[j * n_basis + c][i * n_basis + r];
+                    }
+                }
+                continue;
+            }
             let same = i == j;
             kernel_block(b, si, &xs[i], sj, &xs[j], same, &mut kmat);
             // half[k][n] = Σ_l w·K(k, l)·T_n(v_l); then A[m][n] = Σ_k w·T_m(u_k)·half[k][n].
