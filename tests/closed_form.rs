@@ -1,7 +1,7 @@
 //! Closed forms against exact or limiting results computed here, each with its source named.
 
-use ohmstack_core::microstrip::Microstrip;
-use ohmstack_core::units::ETA0;
+use ohmstack_core::base::units::ETA0;
+use ohmstack_core::closed_form::microstrip::Microstrip;
 
 #[test]
 fn microstrip_tends_to_parallel_plate_for_very_wide_strips() {

@@ -4,18 +4,20 @@
 //!
 //! Case counts are kept small (see each `ProptestConfig`) so the whole suite runs in seconds in a debug build.
 
-use ohmstack_core::case::LineCase;
-use ohmstack_core::cross_section::{Cover, CrossSection, Medium};
-use ohmstack_core::loss::LossOptions;
-use ohmstack_core::models::{self, Dims};
-use ohmstack_core::project::{Fab, SCHEMA_VERSION};
-use ohmstack_core::roughness::Roughness;
-use ohmstack_core::spread::SampleModel;
-use ohmstack_core::stackup::{Copper, CopperRole, Dielectric};
-use ohmstack_core::units::LengthUnit;
+use ohmstack_core::base::units::LengthUnit;
+use ohmstack_core::closed_form;
+use ohmstack_core::design::project::{Fab, SCHEMA_VERSION};
+use ohmstack_core::design::roughness::Roughness;
+use ohmstack_core::design::share;
+use ohmstack_core::design::stackup::{Copper, CopperRole, Dielectric};
+use ohmstack_core::line::loss::LossOptions;
+use ohmstack_core::plan::case::LineCase;
+use ohmstack_core::plan::spread::SampleModel;
+use ohmstack_core::section::Dims;
+use ohmstack_core::section::{Cover, CrossSection, Medium};
 use ohmstack_core::{
-    plan, plan_with, share, ImpedanceRule, Layer, PlanOptions, Process, Project, RuleOutcome,
-    Solve, Stackup, Structure,
+    plan, plan_with, ImpedanceRule, Layer, PlanOptions, Process, Project, RuleOutcome, Solve,
+    Stackup, Structure,
 };
 use proptest::prelude::*;
 
@@ -240,9 +242,9 @@ fn project() -> impl Strategy<Value = Project> {
                     LossOptions {
                         conductivity_s_per_m: sigma,
                         dielectric: if constant {
-                            ohmstack_core::dielectric::DielectricModel::Constant
+                            ohmstack_core::design::dielectric::DielectricModel::Constant
                         } else {
-                            ohmstack_core::dielectric::DielectricModel::Wideband
+                            ohmstack_core::design::dielectric::DielectricModel::Wideband
                         },
                         dispersion,
                     }
@@ -555,8 +557,8 @@ proptest! {
                 warnings: Vec::new(),
             };
             let dims = Dims { w, s: Some(150e-6), gap: None };
-            let z1 = models::evaluate(&cs(h1, h2), structure, &dims).unwrap().analysis.controlled();
-            let z2 = models::evaluate(&cs(h2, h1), structure, &dims).unwrap().analysis.controlled();
+            let z1 = closed_form::evaluate(&cs(h1, h2), structure, &dims).unwrap().analysis.controlled();
+            let z2 = closed_form::evaluate(&cs(h2, h1), structure, &dims).unwrap().analysis.controlled();
             prop_assert!(((z1 - z2) / z1).abs() < 1e-9, "{:?}: {} vs {}", structure, z1, z2);
         }
     }
@@ -565,7 +567,7 @@ proptest! {
 /// The plan of a project is independent of how it travelled: file, link or memory.
 #[test]
 fn a_round_tripped_demo_plans_identically() {
-    let p = ohmstack_core::demo::project();
+    let p = ohmstack_core::design::demo::project();
     let back = share::decode(&share::encode(&p)).unwrap();
     assert_eq!(plan(&p).unwrap(), plan(&back).unwrap());
 }

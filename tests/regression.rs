@@ -1,7 +1,7 @@
 //! Regression tests for inputs found by fuzzing (fuzz/, `cargo xtask fuzz`) and by the hostile-input suites.
 //! Each test holds the minimised input verbatim and names the target it came from: `fuzz_<target>_<what>`.
 
-use ohmstack_core::share;
+use ohmstack_core::design::share;
 use ohmstack_core::Project;
 
 /// Hostile link texts that must all come back as typed errors (hand-written seeds of the share_decode target).
@@ -50,7 +50,7 @@ fn hostile_project_json_is_a_typed_error() {
 /// "positive" check and every model returned `Ok` with a NaN impedance. Lengths now have a 1e-15 m floor.
 #[test]
 fn hostile_cli_subnormal_width_is_an_error_not_nan() {
-    use ohmstack_core::case;
+    use ohmstack_core::plan::case;
     use std::collections::BTreeMap;
     for (field, value) in [
         ("width", "1e-320"),
@@ -76,7 +76,7 @@ fn hostile_cli_subnormal_width_is_an_error_not_nan() {
 /// The extremes that remain legal (1e-15 m to 0.5 m in any combination) give finite figures or a typed error.
 #[test]
 fn legal_extreme_lengths_give_finite_results_or_errors() {
-    use ohmstack_core::case;
+    use ohmstack_core::plan::case;
     use std::collections::BTreeMap;
     let kinds = [
         "microstrip",
@@ -136,8 +136,9 @@ fn legal_extreme_lengths_give_finite_results_or_errors() {
 /// made the Gupta thickness widening negative, the effective modulus negative, and Z0 NaN inside an `Ok`.
 #[test]
 fn fuzz_models_coplanar_thick_narrow_strip() {
-    use ohmstack_core::cross_section::{CrossSection, Medium};
-    use ohmstack_core::models::{self, Dims};
+    use ohmstack_core::closed_form;
+    use ohmstack_core::section::Dims;
+    use ohmstack_core::section::{CrossSection, Medium};
     use ohmstack_core::Structure;
     let cs = CrossSection {
         medium: Medium::NoPlane {
@@ -158,7 +159,7 @@ fn fuzz_models_coplanar_thick_narrow_strip() {
             s: Some(dims.w),
             ..dims
         };
-        if let Ok(e) = models::evaluate(&cs, structure, &dims) {
+        if let Ok(e) = closed_form::evaluate(&cs, structure, &dims) {
             let z = e.analysis.controlled();
             assert!(z.is_finite() && z > 0.0, "{structure:?}: Z = {z}");
         }
@@ -169,7 +170,7 @@ fn fuzz_models_coplanar_thick_narrow_strip() {
 /// last bit, Γ = 0, and the return loss was +∞ (written as `null` in the plan's JSON).
 #[test]
 fn proptest_plan_exact_match_return_loss_is_finite() {
-    use ohmstack_core::lines::{return_loss_db, MAX_RETURN_LOSS_DB};
+    use ohmstack_core::section::lines::{return_loss_db, MAX_RETURN_LOSS_DB};
     assert_eq!(return_loss_db(0.0), MAX_RETURN_LOSS_DB);
     assert_eq!(return_loss_db(-0.0), MAX_RETURN_LOSS_DB);
     // Ordinary values are unchanged: |Γ| = 0.1 is 20 dB (definition).

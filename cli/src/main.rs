@@ -2,19 +2,20 @@
 //! and run batches of cases as JSON lines. The only crate besides xtask that reads files or arguments.
 
 use anyhow::{anyhow, bail, Context, Result};
-use ohmstack_core::case::{self, LineCase};
-use ohmstack_core::field::rules::RuleFieldJob;
-use ohmstack_core::field::synth::FieldSynthesis;
-use ohmstack_core::field::{Comparison, FieldOptions, FieldResult};
-use ohmstack_core::loss;
-use ohmstack_core::models::Dims;
-use ohmstack_core::models::{Analysis, Evaluated};
-use ohmstack_core::roughness::{Foil, Roughness};
-use ohmstack_core::spread::{self, SampleModel, SpreadOptions, SpreadSummary};
-use ohmstack_core::touchstone;
-use ohmstack_core::units::{
+use ohmstack_core::base::units::{
     format_length, format_sig, parse_frequency, parse_length, parse_number, LengthUnit,
 };
+use ohmstack_core::closed_form::Evaluated;
+use ohmstack_core::design::roughness::{Foil, Roughness};
+use ohmstack_core::field::{Comparison, FieldOptions, FieldResult};
+use ohmstack_core::line::loss;
+use ohmstack_core::output::touchstone;
+use ohmstack_core::plan::case::{self, LineCase};
+use ohmstack_core::plan::field_check::RuleFieldJob;
+use ohmstack_core::plan::field_synth::FieldSynthesis;
+use ohmstack_core::plan::spread::{self, SampleModel, SpreadOptions, SpreadSummary};
+use ohmstack_core::section::Analysis;
+use ohmstack_core::section::Dims;
 use ohmstack_core::{Project, RuleOutcome, Structure};
 use serde_json::{json, Value};
 use std::collections::BTreeMap;
@@ -114,7 +115,7 @@ fn run(args: &[String]) -> Result<()> {
     let rest = &args[1..];
     match cmd.as_str() {
         "demo" => {
-            println!("{}", ohmstack_core::demo::project().to_json());
+            println!("{}", ohmstack_core::design::demo::project().to_json());
             Ok(())
         }
         "analyze" | "analyse" => analyze(rest),
@@ -337,8 +338,8 @@ fn compute(
     if solve {
         let target = target
             .ok_or_else(|| anyhow!("--target: missing (the impedance to solve for, in Ω)"))?;
-        let target = ohmstack_core::units::parse_number("target", &target, &["ohm", "Ω"])?;
-        ohmstack_core::error::in_range("target", target, 1.0, 1000.0, "Ω")?;
+        let target = ohmstack_core::base::units::parse_number("target", &target, &["ohm", "Ω"])?;
+        ohmstack_core::base::error::in_range("target", target, 1.0, 1000.0, "Ω")?;
         case = case.solve_width(target)?;
     } else if target.is_some() {
         bail!("--target: only `solve` takes a target");
@@ -513,7 +514,7 @@ fn loss_cmd(args: &[String]) -> Result<()> {
         }
         (Some(t), false) => {
             let f = parse_frequency("freq", &t)?;
-            ohmstack_core::error::in_range("freq", f, 1.0, loss::MAX_FREQ_HZ, "Hz")?;
+            ohmstack_core::base::error::in_range("freq", f, 1.0, loss::MAX_FREQ_HZ, "Hz")?;
             vec![f]
         }
         (None, _) => sweep_flags(&mut map)?.frequencies()?,
@@ -580,7 +581,7 @@ fn loss_cmd(args: &[String]) -> Result<()> {
                 m.dielectric.db_per_in,
                 m.total.db_per_in,
                 m.total.db_per_m,
-                m.group_delay_s_per_m * ohmstack_core::units::INCH * 1e12
+                m.group_delay_s_per_m * ohmstack_core::base::units::INCH * 1e12
             );
         }
         for w in &p.warnings {
@@ -620,7 +621,7 @@ fn touchstone_cmd(args: &[String]) -> Result<()> {
         Some(t) => parse_number("z-ref", &t, &["ohm", "Ω"])?,
         None => 50.0,
     };
-    ohmstack_core::error::in_range("z-ref", z_ref, 1.0, 1000.0, "Ω")?;
+    ohmstack_core::base::error::in_range("z-ref", z_ref, 1.0, 1000.0, "Ω")?;
     let output = map.remove("output");
     let sweep = sweep_flags(&mut map)?;
     let (project, name, model) = rule_model(&path, &mut map)?;
@@ -748,7 +749,7 @@ fn spread(args: &[String]) -> Result<()> {
         centre: !use_field,
         model,
     };
-    let field_model = ohmstack_core::field::rules::FieldModel {
+    let field_model = ohmstack_core::plan::field_check::FieldModel {
         etch_factor: project.fab.etch_factor,
         options: FieldOptions::default(),
     };
@@ -916,7 +917,7 @@ fn share(args: &[String]) -> Result<()> {
     match args {
         [sub, path] if sub == "encode" => {
             let project = Project::from_json(&read_input(path)?)?;
-            println!("{}", ohmstack_core::share::encode(&project));
+            println!("{}", ohmstack_core::design::share::encode(&project));
             Ok(())
         }
         [sub, link] if sub == "decode" => {
@@ -925,7 +926,7 @@ fn share(args: &[String]) -> Result<()> {
             } else {
                 link.clone()
             };
-            let project = ohmstack_core::share::decode(&link)?;
+            let project = ohmstack_core::design::share::decode(&link)?;
             println!("{}", project.to_json());
             Ok(())
         }
@@ -947,7 +948,7 @@ fn notes(args: &[String]) -> Result<()> {
     };
     let project = Project::from_json(&read_input(path)?)?;
     let plan = ohmstack_core::plan(&project)?;
-    let notes = ohmstack_core::report::fab_notes(&project, &plan);
+    let notes = ohmstack_core::output::report::fab_notes(&project, &plan);
     match format.as_str() {
         "md" | "markdown" => print!("{}", notes.to_markdown()),
         "csv" => print!("{}", notes.to_csv()),
@@ -991,7 +992,7 @@ fn draw(args: &[String]) -> Result<()> {
         ),
         None => None,
     };
-    let svg = ohmstack_core::draw::cross_section_svg(&project, rule_idx)?;
+    let svg = ohmstack_core::output::draw::cross_section_svg(&project, rule_idx)?;
     write_svg(output, &svg)
 }
 
@@ -1041,17 +1042,17 @@ fn plot(args: &[String]) -> Result<()> {
         .iter()
         .position(|r| r.name == name)
         .ok_or_else(|| anyhow!("--rule: no rule named {name:?}"))?;
-    let pts = ohmstack_core::plot::z_vs_width(&project, idx, points)?;
+    let pts = ohmstack_core::output::plot::z_vs_width(&project, idx, points)?;
     if json {
         println!("{}", serde_json::to_string(&pts)?);
         return Ok(());
     }
     let unit = project.units;
-    let svg = ohmstack_core::plot::line_plot(&ohmstack_core::plot::LinePlot {
+    let svg = ohmstack_core::output::plot::line_plot(&ohmstack_core::output::plot::LinePlot {
         title: format!("{}: impedance against trace width", name),
         x_label: format!("trace width ({})", unit.symbol()),
         y_label: "Z (Ω)".into(),
-        series: vec![ohmstack_core::plot::Series {
+        series: vec![ohmstack_core::output::plot::Series {
             label: name.clone(),
             points: pts.iter().map(|&(w, z)| (unit.from_m(w), z)).collect(),
         }],
@@ -1087,7 +1088,7 @@ fn write_map(
     let (path, text) = match target {
         MapTarget::Svg(p) => {
             let title = format!("Potential of {title} ({})", map.drive_label());
-            (p, ohmstack_core::plot::potential_map(&map, &title)?)
+            (p, ohmstack_core::output::plot::potential_map(&map, &title)?)
         }
         MapTarget::Json(p) => (p, serde_json::to_string(&map)?),
     };
@@ -1098,9 +1099,9 @@ fn write_map(
 fn field_options(map: &mut BTreeMap<String, String>) -> Result<FieldOptions> {
     let mut options = FieldOptions::default();
     if let Some(text) = map.remove("tolerance") {
-        let pct = ohmstack_core::units::parse_number("tolerance", &text, &["%"])?;
+        let pct = ohmstack_core::base::units::parse_number("tolerance", &text, &["%"])?;
         options.tolerance =
-            ohmstack_core::error::in_range("tolerance", pct, 0.001, 10.0, "%")? / 100.0;
+            ohmstack_core::base::error::in_range("tolerance", pct, 0.001, 10.0, "%")? / 100.0;
     }
     Ok(options)
 }
@@ -1190,7 +1191,7 @@ fn field_calc(args: &[String]) -> Result<()> {
     let options = field_options(&mut map)?;
     let etch = map
         .remove("etch-factor")
-        .map(|t| ohmstack_core::units::parse_number("etch-factor", &t, &[]))
+        .map(|t| ohmstack_core::base::units::parse_number("etch-factor", &t, &[]))
         .transpose()?;
     if map.contains_key("target") {
         bail!("--target: field-calc analyses the given width; use `solve` for synthesis");
@@ -1206,11 +1207,11 @@ fn field_calc(args: &[String]) -> Result<()> {
         None => {
             let spacing = map
                 .remove("spacing")
-                .map(|t| ohmstack_core::units::parse_length("spacing", &t))
+                .map(|t| ohmstack_core::base::units::parse_length("spacing", &t))
                 .transpose()?;
             let gap = map
                 .remove("gap")
-                .map(|t| ohmstack_core::units::parse_length("gap", &t))
+                .map(|t| ohmstack_core::base::units::parse_length("gap", &t))
                 .transpose()?;
             let mut case = case::parse(kind, &map)?;
             case.structure = match (spacing, gap) {
@@ -1288,7 +1289,7 @@ fn field_inputs(cmd: &str, args: &[String], solving: bool) -> Result<FieldInputs
             let r = &project.rules[i];
             match only.as_deref() {
                 Some(n) => r.name == n,
-                None => !solving || r.solve != ohmstack_core::project::Solve::Nothing,
+                None => !solving || r.solve != ohmstack_core::design::project::Solve::Nothing,
             }
         })
         .collect();
@@ -1486,7 +1487,7 @@ fn field_solve(args: &[String]) -> Result<()> {
 
 /// Prints the generic material presets shared with the web app.
 fn materials(args: &[String]) {
-    use ohmstack_core::material::{PresetUse, PRESETS, PRESET_CAVEAT};
+    use ohmstack_core::design::material::{PresetUse, PRESETS, PRESET_CAVEAT};
     if args.iter().any(|a| a == "--json") {
         let list: Vec<Value> = PRESETS
             .iter()

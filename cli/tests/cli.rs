@@ -38,7 +38,7 @@ fn calc_microstrip_matches_the_core() {
     );
     assert_eq!(code, 0, "{err}");
     let v: serde_json::Value = serde_json::from_str(&out).unwrap();
-    let core = ohmstack_core::microstrip::Microstrip {
+    let core = ohmstack_core::closed_form::microstrip::Microstrip {
         w: 0.3e-3,
         h: 0.17e-3,
         t: 35e-6,

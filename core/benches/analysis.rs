@@ -2,9 +2,10 @@
 //! synthesis, and coupled-pair spacing synthesis. Run: `cargo bench -p ohmstack-core --bench analysis`.
 
 use criterion::{criterion_group, criterion_main, Criterion};
-use ohmstack_core::case::{self, LineCase};
-use ohmstack_core::models::{self, Dims};
-use ohmstack_core::synth::{self, Bracket};
+use ohmstack_core::base::roots::{self, Bracket};
+use ohmstack_core::closed_form;
+use ohmstack_core::plan::case::{self, LineCase};
+use ohmstack_core::section::Dims;
 use std::collections::BTreeMap;
 use std::hint::black_box;
 use std::time::Duration;
@@ -223,7 +224,7 @@ fn spacing_synthesis(c: &mut Criterion) {
             hi_reason: "100 × height",
         };
         let spacing = |s: f64| {
-            models::evaluate(
+            closed_form::evaluate(
                 &case.cross_section,
                 case.structure,
                 &Dims {
@@ -234,10 +235,10 @@ fn spacing_synthesis(c: &mut Criterion) {
             .map(|e| e.analysis.controlled())
         };
         // Same root as the case's own spacing: the bench measures a real solve.
-        let got = synth::solve("spacing", target, &bracket, spacing).unwrap();
+        let got = roots::solve("spacing", target, &bracket, spacing).unwrap();
         assert!((got / s0 - 1.0).abs() < 1e-6, "{label}: {got} vs {s0}");
         g.bench_function(label, |b| {
-            b.iter(|| synth::solve("spacing", black_box(target), &bracket, spacing).unwrap())
+            b.iter(|| roots::solve("spacing", black_box(target), &bracket, spacing).unwrap())
         });
     }
     g.finish();

@@ -6,7 +6,7 @@
 //! 100 000 geometries. Prints one JSON object: geometries/s with the file's thickness and at t = 0, and the largest
 //! relative deviation from the file's reference impedances (a check that both sides computed the same thing).
 
-use ohmstack_core::microstrip::Microstrip;
+use ohmstack_core::closed_form::microstrip::Microstrip;
 use std::hint::black_box;
 use std::time::Instant;
 

@@ -5,7 +5,7 @@
 //! structure the solver builds (a sample of every family); `cargo xtask bench` picks up every group of this file.
 
 use criterion::{criterion_group, criterion_main, Criterion};
-use ohmstack_core::spread::{self, SampleModel, SpreadOptions};
+use ohmstack_core::plan::spread::{self, SampleModel, SpreadOptions};
 use ohmstack_core::{plan, plan_with, PlanOptions, Project};
 use std::hint::black_box;
 use std::time::Duration;
@@ -70,7 +70,7 @@ fn field_solve(c: &mut Criterion) {
         if !seen.insert(label.clone()) {
             continue;
         }
-        let dims = ohmstack_core::models::Dims {
+        let dims = ohmstack_core::section::Dims {
             w: r.width_m,
             s: r.spacing_m,
             gap: r.gap_m,
@@ -94,11 +94,11 @@ fn field_solve(c: &mut Criterion) {
 
 /// Width synthesis on the field solver for every rule of the demo that solves a dimension.
 fn field_synthesis(c: &mut Criterion) {
-    let p = ohmstack_core::demo::project();
+    let p = ohmstack_core::design::demo::project();
     let mut g = c.benchmark_group("field_synthesis_demo");
     for rule in &p.rules {
         let run = || {
-            let mut s = ohmstack_core::field::synth::FieldSynthesis::start(
+            let mut s = ohmstack_core::plan::field_synth::FieldSynthesis::start(
                 &p,
                 rule,
                 ohmstack_core::field::FieldOptions::default(),

@@ -2,54 +2,38 @@
 //! loss and tolerance spread. Pure Rust: no I/O, no clocks, no web types, so it runs natively and in WASM.
 //!
 //! ```
-//! let project = ohmstack_core::demo::project();
+//! let project = ohmstack_core::design::demo::project();
 //! let plan = ohmstack_core::plan(&project).unwrap();
 //! let first = plan.rules[0].ok().unwrap();
 //! assert!((first.impedance_ohm - 50.0).abs() < 1e-6);
 //! ```
 //!
-//! Data flows one way: [`Project`] → [`cross_section::resolve`] → [`models::evaluate`] (one module per structure
-//! family) → [`synth::solve`] for the free dimension → [`Plan`].
+//! The modules are layers, listed here from the bottom up; a layer imports only from layers below it (held by
+//! `tests/tidy.rs`, written down in ARCHITECTURE.md):
 //!
-//! Around the plan, also pure: [`share`] packs a project into a URL-fragment link and reads it back (untrusted
-//! input), [`report`] writes fab notes (Markdown, CSV), [`draw`] the SVG cross-section and [`plot`] small SVG plots.
+//! 1. [`base`]: errors, units, validity notes, root finding, elliptic integrals: no physics of lines.
+//! 2. [`design`]: what the user saves: project, stackup, materials, process tolerances, demo, share links.
+//! 3. [`section`]: a stackup and a rule resolved into the cross-section an engine needs, and the shape of an
+//!    engine's answer (modes, Z, εeff).
+//! 4. [`closed_form`] and [`field`]: the two families of engines, side by side (neither imports the other).
+//! 5. [`engine`]: the one boundary: cross-section + dimensions → line parameters, by the engine a rule chose.
+//! 6. [`line`]: what follows from a line's parameters over frequency: loss, roughness, dispersion.
+//! 7. [`plan`]: per-rule orchestration: synthesis, the whole plan, tolerance spread, field checks.
+//! 8. [`output`]: fab notes, drawings, plots, Touchstone files.
 
-pub mod case;
-pub mod coated_microstrip;
-pub mod coplanar;
-pub mod coupled_coplanar;
-pub mod coupled_microstrip;
-pub mod coupled_stripline;
-pub mod cross_section;
-pub mod demo;
-pub mod dielectric;
-pub mod dispersion;
-pub mod draw;
-pub mod elliptic;
-pub mod error;
+pub mod base;
+pub mod closed_form;
+pub mod design;
+pub mod engine;
 pub mod field;
-pub mod lines;
-pub mod loss;
-pub mod material;
-pub mod microstrip;
-pub mod models;
+pub mod line;
+pub mod output;
 pub mod plan;
-pub mod plot;
-pub mod project;
-pub mod report;
-pub mod roughness;
-pub mod share;
-pub mod spread;
-pub mod stackup;
-pub mod strip_moments;
-pub mod stripline;
-pub mod synth;
-pub mod touchstone;
-pub mod units;
-pub mod validity;
+pub mod section;
 
-pub use error::{Error, Result};
+pub use base::error::{Error, Result};
+pub use design::process::Process;
+pub use design::project::{ImpedanceRule, Project, Solve, Structure};
+pub use design::stackup::{Layer, Stackup};
+pub use plan::spread::SpreadSummary;
 pub use plan::{plan, plan_with, Plan, PlanOptions, RuleOutcome, RuleResult};
-pub use project::{ImpedanceRule, Project, Solve, Structure};
-pub use spread::{Process, SpreadSummary};
-pub use stackup::{Layer, Stackup};

@@ -130,7 +130,7 @@ pub fn App() -> Html {
         let d = dispatch.clone();
         Callback::from(move |_: ()| {
             d.emit(Action::Load(
-                Box::new(ohmstack_core::demo::project()),
+                Box::new(ohmstack_core::design::demo::project()),
                 "opened the demo (Undo brings back your previous work)".into(),
             ))
         })
@@ -168,12 +168,12 @@ pub fn App() -> Html {
         Callback::from(move |file: web_sys::File| {
             let file = gloo::file::File::from(file);
             let name = file.name();
-            if file.size() > ohmstack_core::project::MAX_JSON_BYTES as u64 {
+            if file.size() > ohmstack_core::design::project::MAX_JSON_BYTES as u64 {
                 d.emit(Action::Notify(Some(Notice {
                     error: true,
                     text: format!(
                         "could not open {name}: larger than {} bytes; your work is unchanged",
-                        ohmstack_core::project::MAX_JSON_BYTES
+                        ohmstack_core::design::project::MAX_JSON_BYTES
                     ),
                 })));
                 return;

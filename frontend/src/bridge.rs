@@ -1,9 +1,9 @@
 //! The only file that calls the core's physics: turns the edited project into the plan the panels render, and
 //! wraps the core's unit parsers and cross-section resolution for the editors. Plain Rust, testable natively.
 
-use ohmstack_core::cross_section;
-use ohmstack_core::project::{ImpedanceRule, Solve, Structure};
-use ohmstack_core::units::{self, format_sig, LengthUnit};
+use ohmstack_core::base::units::{self, format_sig, LengthUnit};
+use ohmstack_core::design::project::{ImpedanceRule, Solve, Structure};
+use ohmstack_core::section;
 use ohmstack_core::{plan_with, Plan, PlanOptions, Project, RuleResult, Stackup};
 
 /// Plans the project with loss and a 10 000-sample tolerance spread per rule (the quadratic response surface keeps
@@ -123,7 +123,7 @@ pub fn broadside_partners(stackup: &Stackup, layer: &str) -> Vec<String> {
         .filter_map(|l| l.copper())
         .filter(|c| c.name != layer)
         .filter(|c| {
-            cross_section::resolve(
+            section::resolve(
                 stackup,
                 &probe(layer, Structure::BroadsidePair, Some(&c.name)),
             )
@@ -139,7 +139,7 @@ pub fn structures_for(stackup: &Stackup, layer: &str) -> Vec<Structure> {
         .into_iter()
         .filter(|&s| match s {
             Structure::BroadsidePair => !broadside_partners(stackup, layer).is_empty(),
-            _ => cross_section::resolve(stackup, &probe(layer, s, None)).is_ok(),
+            _ => section::resolve(stackup, &probe(layer, s, None)).is_ok(),
         })
         .collect()
 }
@@ -165,8 +165,8 @@ pub fn spread_of(result: &RuleResult) -> Option<(f64, f64, Option<f64>)> {
 /// Common-mode impedance of a pair result, Ω.
 pub fn z_common(result: &RuleResult) -> Option<f64> {
     match &result.analysis {
-        ohmstack_core::models::Analysis::Pair(p) => Some(p.z_common()),
-        ohmstack_core::models::Analysis::Single(_) => None,
+        ohmstack_core::section::Analysis::Pair(p) => Some(p.z_common()),
+        ohmstack_core::section::Analysis::Single(_) => None,
     }
 }
 
@@ -196,7 +196,7 @@ mod tests {
     #[test]
     fn loss_and_spread_are_read_when_present() {
         // The app plans with loss and spread: every demo rule carries both, and the figures are the core's.
-        let p = ohmstack_core::demo::project();
+        let p = ohmstack_core::design::demo::project();
         let plan = analyse(&p).unwrap();
         for outcome in &plan.rules {
             let r = outcome.ok().unwrap();
@@ -219,7 +219,7 @@ mod tests {
 
     #[test]
     fn demo_top_layer_allows_microstrip_structures_not_broadside() {
-        let p = ohmstack_core::demo::project();
+        let p = ohmstack_core::design::demo::project();
         let s = structures_for(&p.stackup, "L1 Top");
         assert!(s.contains(&Structure::Single) && s.contains(&Structure::EdgePair));
         assert!(!s.contains(&Structure::BroadsidePair));
@@ -229,9 +229,9 @@ mod tests {
 }
 
 /// A field check of one rule, run in slices by the rule card.
-pub type FieldJob = ohmstack_core::field::rules::RuleFieldJob;
+pub type FieldJob = ohmstack_core::plan::field_check::RuleFieldJob;
 /// A field-solver synthesis of one rule's width or spacing, run in slices by the rule card.
-pub type FieldSynthesis = ohmstack_core::field::synth::FieldSynthesis;
+pub type FieldSynthesis = ohmstack_core::plan::field_synth::FieldSynthesis;
 
 /// Slow field work of a rule card: a check of the closed form's dimensions, or a synthesis.
 pub enum FieldWork {
@@ -409,21 +409,22 @@ pub fn field_map_view(work: &FieldWork, index: usize, serial: u32) -> Result<Fie
 
 // ---- Share links, fab notes, drawings and plots (panels/share.rs, notes.rs, pictures.rs) ----
 
-use ohmstack_core::models::Dims;
-use ohmstack_core::plot::{self, LinePlot, Series};
-use ohmstack_core::report::{self, FabNotes};
-use ohmstack_core::spread::{self, ImpedanceModel, SampleModel, SpreadOptions};
-use ohmstack_core::units::format_length;
-use ohmstack_core::{draw, loss, touchstone};
+use ohmstack_core::base::units::format_length;
+use ohmstack_core::line::loss;
+use ohmstack_core::output::plot::{self, LinePlot, Series};
+use ohmstack_core::output::report::{self, FabNotes};
+use ohmstack_core::output::{draw, touchstone};
+use ohmstack_core::plan::spread::{self, ImpedanceModel, SampleModel, SpreadOptions};
+use ohmstack_core::section::Dims;
 
 /// The share-link fragment (`v1.…`, no `#`) of `project`.
 pub fn encode_link(project: &Project) -> String {
-    ohmstack_core::share::encode(project)
+    ohmstack_core::design::share::encode(project)
 }
 
 /// Reads a share link (untrusted); the error is the core's `ShareError` text.
 pub fn decode_link(link: &str) -> Result<Project, String> {
-    ohmstack_core::share::decode(link).map_err(|e| e.to_string())
+    ohmstack_core::design::share::decode(link).map_err(|e| e.to_string())
 }
 
 /// Reads a saved project (untrusted: validated like a file).

@@ -20,7 +20,7 @@ pub fn decode_project(text: &str) -> Result<Project, String> {
         Ok(p) => Ok(p),
         Err(strict) => {
             let p: Project = serde_json::from_str(text).map_err(|_| strict.to_string())?;
-            if p.schema != ohmstack_core::project::SCHEMA_VERSION {
+            if p.schema != ohmstack_core::design::project::SCHEMA_VERSION {
                 return Err(strict.to_string());
             }
             p.stackup.validate().map_err(|e| e.to_string())?;
@@ -174,11 +174,11 @@ mod tests {
 
     #[test]
     fn broken_rule_reference_still_restores_but_bad_stack_does_not() {
-        let mut p = ohmstack_core::demo::project();
+        let mut p = ohmstack_core::design::demo::project();
         p.rules[0].layer = "gone".into();
         assert!(Project::from_json(&p.to_json()).is_err());
         assert_eq!(decode_project(&p.to_json()).unwrap(), p);
-        let mut bad = ohmstack_core::demo::project();
+        let mut bad = ohmstack_core::design::demo::project();
         bad.stackup.layers.clear();
         assert!(decode_project(&bad.to_json()).is_err());
         assert!(decode_project("{not json").is_err());
@@ -187,7 +187,7 @@ mod tests {
 
     #[test]
     fn file_names_are_safe() {
-        let mut p = ohmstack_core::demo::project();
+        let mut p = ohmstack_core::design::demo::project();
         p.title = "a/b: c".into();
         assert_eq!(file_name(&p), "a-b--c.ohmstack.json");
         p.title = "//".into();

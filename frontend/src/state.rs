@@ -5,11 +5,11 @@
 //! in its field with the core's message, and the last good project (and so the last good plan) is kept.
 
 use crate::bridge;
-use ohmstack_core::error;
-use ohmstack_core::material::{self, PresetUse};
-use ohmstack_core::project::{ImpedanceRule, RuleModel, Solve, Structure};
-use ohmstack_core::stackup::{Copper, CopperRole, Dielectric};
-use ohmstack_core::units::{LengthUnit, OZ_COPPER};
+use ohmstack_core::base::error;
+use ohmstack_core::base::units::{LengthUnit, OZ_COPPER};
+use ohmstack_core::design::material::{self, PresetUse};
+use ohmstack_core::design::project::{ImpedanceRule, RuleModel, Solve, Structure};
+use ohmstack_core::design::stackup::{Copper, CopperRole, Dielectric};
 use ohmstack_core::{Layer, Project};
 use std::collections::BTreeMap;
 use std::rc::Rc;
@@ -160,7 +160,7 @@ pub struct State {
 
 impl Default for State {
     fn default() -> Self {
-        State::new(ohmstack_core::demo::project())
+        State::new(ohmstack_core::design::demo::project())
     }
 }
 
@@ -570,12 +570,12 @@ impl State {
             }
             _ => return,
         }
-        if p.stackup.layers.len() > ohmstack_core::stackup::MAX_LAYERS {
+        if p.stackup.layers.len() > ohmstack_core::design::stackup::MAX_LAYERS {
             self.notice = Some(Notice {
                 error: true,
                 text: format!(
                     "a stack may have at most {} layers",
-                    ohmstack_core::stackup::MAX_LAYERS
+                    ohmstack_core::design::stackup::MAX_LAYERS
                 ),
             });
             return;
@@ -596,7 +596,7 @@ impl State {
         let n = p.rules.len();
         match action {
             Action::AddRule => {
-                if n >= ohmstack_core::project::MAX_RULES {
+                if n >= ohmstack_core::design::project::MAX_RULES {
                     return;
                 }
                 let layer = p
@@ -627,7 +627,7 @@ impl State {
             Action::RemoveRule(i) if i < n => {
                 p.rules.remove(i);
             }
-            Action::DuplicateRule(i) if i < n && n < ohmstack_core::project::MAX_RULES => {
+            Action::DuplicateRule(i) if i < n && n < ohmstack_core::design::project::MAX_RULES => {
                 let mut copy = p.rules[i].clone();
                 copy.name = unique_rule_name(&p, &format!("{} copy", copy.name));
                 p.rules.insert(i + 1, copy);
@@ -736,7 +736,7 @@ impl Reducible for State {
 
 /// A blank project: one signal layer over a plane with a prepreg between, no rules.
 pub fn blank_project() -> Project {
-    let mut p = ohmstack_core::demo::project();
+    let mut p = ohmstack_core::design::demo::project();
     p.title = "Untitled".into();
     p.revision = String::new();
     p.rules.clear();
@@ -974,6 +974,6 @@ mod tests {
         );
         assert_eq!(s.project, blank);
         let s = reduce(s, Action::Undo);
-        assert_eq!(s.project, ohmstack_core::demo::project());
+        assert_eq!(s.project, ohmstack_core::design::demo::project());
     }
 }

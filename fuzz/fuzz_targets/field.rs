@@ -4,9 +4,9 @@
 #![no_main]
 
 use libfuzzer_sys::fuzz_target;
-use ohmstack_core::cross_section::{Cover, CrossSection, Medium};
+use ohmstack_core::section::{Cover, CrossSection, Medium};
 use ohmstack_core::field::{self, FieldOptions, FieldSolve};
-use ohmstack_core::models::Dims;
+use ohmstack_core::section::Dims;
 use ohmstack_core::Structure;
 use ohmstack_fuzz::Numbers;
 
@@ -107,6 +107,6 @@ fuzz_target!(|data: &[u8]| {
         let map = solve.potential_map().expect("a finished solve has a map");
         assert!(map.values.iter().all(|v| v.is_finite() && v.abs() <= 1.0 + 1e-3));
         assert!(map.xs.windows(2).all(|w| w[1] > w[0]) && map.ys.windows(2).all(|w| w[1] > w[0]));
-        ohmstack_core::plot::potential_map(&map, "fuzz").expect("the map draws");
+        ohmstack_core::output::plot::potential_map(&map, "fuzz").expect("the map draws");
     }
 });

@@ -1,15 +1,16 @@
 //! Fuzz every model entry point with hostile f64s: fuzz bytes → a cross-section of each medium (and cover), a
-//! structure and dimensions → `models::evaluate`, width synthesis (`LineCase::solve_width`), the loss model at one
+//! structure and dimensions → `closed_form::evaluate`, width synthesis (`LineCase::solve_width`), the loss model at one
 //! frequency and over a sweep, and Touchstone output. Property: no panic, no hang, and every `Ok` is finite.
 #![no_main]
 
 use libfuzzer_sys::fuzz_target;
-use ohmstack_core::case::LineCase;
-use ohmstack_core::cross_section::{Cover, CrossSection, Medium};
-use ohmstack_core::dielectric::{DielectricModel, Dispersive};
-use ohmstack_core::loss::{LineModel, LossInputs, Surfaces, Sweep};
-use ohmstack_core::models::{self, Analysis, Dims};
-use ohmstack_core::roughness::Roughness;
+use ohmstack_core::plan::case::LineCase;
+use ohmstack_core::section::{Cover, CrossSection, Medium};
+use ohmstack_core::design::dielectric::{DielectricModel, Dispersive};
+use ohmstack_core::line::loss::{LineModel, LossInputs, Surfaces, Sweep};
+use ohmstack_core::closed_form;
+use ohmstack_core::section::{Analysis, Dims};
+use ohmstack_core::design::roughness::Roughness;
 use ohmstack_core::{touchstone, Structure};
 use ohmstack_fuzz::Numbers;
 
@@ -87,7 +88,7 @@ fuzz_target!(|data: &[u8]| {
             None
         },
     };
-    let evaluated = models::evaluate(&cs, structure, &dims);
+    let evaluated = closed_form::evaluate(&cs, structure, &dims);
     if let Ok(e) = &evaluated {
         assert!(finite_analysis(&e.analysis), "non-finite Ok: {e:?}");
     }

@@ -4,14 +4,15 @@
 #![no_main]
 
 use libfuzzer_sys::fuzz_target;
-use ohmstack_core::spread::SampleModel;
-use ohmstack_core::stackup::Layer;
-use ohmstack_core::{draw, plan_with, report, ImpedanceRule, PlanOptions, Solve, Structure};
+use ohmstack_core::plan::spread::SampleModel;
+use ohmstack_core::design::stackup::Layer;
+use ohmstack_core::output::{draw, report};
+use ohmstack_core::{plan_with, ImpedanceRule, PlanOptions, Solve, Structure};
 use ohmstack_fuzz::Numbers;
 
 fuzz_target!(|data: &[u8]| {
     let mut n = Numbers::new(data);
-    let mut project = ohmstack_core::demo::project();
+    let mut project = ohmstack_core::design::demo::project();
     // The broadside pair runs the moment-method solver (most of a second per plan under the sanitizer), so only one input
     // in four carries it; the closed-form rules keep the run at hundreds of inputs a second.
     let broadside = n.byte() % 4 == 0;

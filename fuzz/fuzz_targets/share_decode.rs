@@ -6,7 +6,7 @@
 use base64::engine::general_purpose::URL_SAFE_NO_PAD;
 use base64::Engine as _;
 use libfuzzer_sys::fuzz_target;
-use ohmstack_core::share;
+use ohmstack_core::design::share;
 
 fuzz_target!(|data: &[u8]| {
     let link = match data.split_first() {

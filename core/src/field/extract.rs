@@ -7,10 +7,10 @@
 //! C_odd = C11 − C12 and L_odd = L11 − L12 (Maxwell C12 < 0), C_even = C11 + C12, L_even = L11 + L12, and
 //! Z = √(L/C), εeff = c²·L·C per mode.
 
-use crate::lines::{CoupledPair, SingleLine};
-use crate::models::Analysis;
-use crate::units::{C0, EPS0, MU0};
-use crate::validity::Warning;
+use crate::base::units::{C0, EPS0, MU0};
+use crate::base::validity::Warning;
+use crate::section::lines::{CoupledPair, SingleLine};
+use crate::section::Analysis;
 use serde::Serialize;
 
 /// Inverse of a 1×1 or 2×2 matrix (all this solver produces); `None` when singular.

@@ -10,11 +10,11 @@
 //! The box walls (x = `x_max`, y = `y_min`, y = `y_max`) are grounded. For microstrip and stripline the real planes
 //! are box walls; the other walls are placed far away (see [`BOX_FACTOR`]).
 
-use crate::cross_section::{Cover, CrossSection, Medium};
-use crate::error::{self, Error, Result};
-use crate::models::Dims;
-use crate::project::Structure;
-use crate::validity::Warning;
+use crate::base::error::{self, Error, Result};
+use crate::base::validity::Warning;
+use crate::design::project::Structure;
+use crate::section::Dims;
+use crate::section::{Cover, CrossSection, Medium};
 
 /// Distance from the structure to an open side's grounded wall, in units of the structure's height scale.
 /// Microstrip fields decay like a dipole (1/r²), so the wall must be far: the solver's test shows that doubling

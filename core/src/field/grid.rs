@@ -8,7 +8,7 @@
 //! η, η/r, η/r², … is a consistent refinement family for Richardson extrapolation.
 
 use super::geometry::Geometry;
-use crate::error::{Error, Result};
+use crate::base::error::{Error, Result};
 
 /// Geometric growth of the spacing away from a key coordinate, per unit η.
 pub const KAPPA: f64 = 0.3;
@@ -235,10 +235,10 @@ fn interval(a: f64, b: f64, size: &dyn Fn(f64) -> f64, lines: &mut Vec<f64>) -> 
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::cross_section::{Cover, CrossSection, Medium};
+    use crate::design::project::Structure;
     use crate::field::geometry::build;
-    use crate::models::Dims;
-    use crate::project::Structure;
+    use crate::section::Dims;
+    use crate::section::{Cover, CrossSection, Medium};
 
     #[test]
     fn grid_hits_every_edge_and_grades_toward_corners() {

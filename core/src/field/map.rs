@@ -325,10 +325,10 @@ fn axis_full(half: f64, n: usize, edges: &[f64]) -> Vec<f64> {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::cross_section::{Cover, CrossSection, Medium};
+    use crate::design::project::Structure;
     use crate::field::{build, FieldOptions};
-    use crate::models::Dims;
-    use crate::project::Structure;
+    use crate::section::Dims;
+    use crate::section::{Cover, CrossSection, Medium};
 
     fn microstrip() -> CrossSection {
         CrossSection {

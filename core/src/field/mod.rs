@@ -20,9 +20,9 @@
 //! caller can run it in slices between frames; [`solve`] runs it to the end.
 //!
 //! ```
-//! use ohmstack_core::cross_section::{Cover, CrossSection, Medium};
+//! use ohmstack_core::section::{Cover, CrossSection, Medium};
 //! use ohmstack_core::field::{build, FieldOptions, FieldSolve};
-//! use ohmstack_core::models::Dims;
+//! use ohmstack_core::section::Dims;
 //! use ohmstack_core::Structure;
 //!
 //! let cs = CrossSection {
@@ -48,16 +48,14 @@ pub mod extract;
 pub mod geometry;
 pub mod grid;
 pub mod map;
-pub mod rules;
 pub mod solve;
-pub mod synth;
 
-use crate::cross_section::CrossSection;
-use crate::error::{Error, Result};
-use crate::models::{Analysis, Dims};
-use crate::project::Structure;
-use crate::units::EPS0;
-use crate::validity::Warning;
+use crate::base::error::{Error, Result};
+use crate::base::units::EPS0;
+use crate::base::validity::Warning;
+use crate::design::project::Structure;
+use crate::section::CrossSection;
+use crate::section::{Analysis, Dims};
 use geometry::{Geometry, Layout};
 use grid::Grid;
 use serde::Serialize;
@@ -108,13 +106,13 @@ impl Default for FieldOptions {
 
 impl FieldOptions {
     fn validate(&self) -> Result<()> {
-        crate::error::in_range("tolerance", self.tolerance, 1e-7, 0.5, "")?;
-        crate::error::in_range("coarse_eta", self.coarse_eta, 0.05, 20.0, "")?;
-        crate::error::in_range("ratio", self.ratio, 1.1, 4.0, "")?;
-        crate::error::in_range("cg_tolerance", self.cg_tolerance, 1e-15, 1e-3, "")?;
-        crate::error::in_range("grid.kappa", self.grid.kappa, 0.01, 1.0, "")?;
-        crate::error::in_range("grid.delta_corner", self.grid.delta_corner, 1e-4, 1.0, "")?;
-        crate::error::in_range(
+        crate::base::error::in_range("tolerance", self.tolerance, 1e-7, 0.5, "")?;
+        crate::base::error::in_range("coarse_eta", self.coarse_eta, 0.05, 20.0, "")?;
+        crate::base::error::in_range("ratio", self.ratio, 1.1, 4.0, "")?;
+        crate::base::error::in_range("cg_tolerance", self.cg_tolerance, 1e-15, 1e-3, "")?;
+        crate::base::error::in_range("grid.kappa", self.grid.kappa, 0.01, 1.0, "")?;
+        crate::base::error::in_range("grid.delta_corner", self.grid.delta_corner, 1e-4, 1.0, "")?;
+        crate::base::error::in_range(
             "grid.delta_interface",
             self.grid.delta_interface,
             1e-4,

@@ -2,9 +2,9 @@
 //! independence, convergence order, resumable stepping and bad input.
 
 use super::*;
-use crate::cross_section::{Cover, Medium};
-use crate::microstrip::hammerstad_jensen;
-use crate::units::ETA0;
+use crate::base::units::ETA0;
+use crate::closed_form::microstrip::hammerstad_jensen;
+use crate::section::{Cover, Medium};
 use std::f64::consts::PI;
 
 /// Complete elliptic integral of the first kind K(k) by the arithmetic–geometric mean, taking the modulus `k` and

@@ -4,7 +4,7 @@
 //! last solve goes to the pictures panel through `on_map`.
 
 use crate::bridge::{self, FieldOutcome, FieldWork};
-use ohmstack_core::units::format_sig;
+use ohmstack_core::base::units::format_sig;
 use ohmstack_core::{Project, Solve};
 use std::cell::RefCell;
 use std::rc::Rc;
@@ -37,7 +37,7 @@ struct Sinks {
     status: UseStateHandle<Status>,
     on_map: Callback<bridge::FieldMapView>,
     index: usize,
-    unit: ohmstack_core::units::LengthUnit,
+    unit: ohmstack_core::base::units::LengthUnit,
     what: &'static str,
 }
 

@@ -3,9 +3,9 @@
 use crate::bridge;
 use crate::state::{Action, Draft, Field, LayerField, LayerKind};
 use crate::widgets::{Select, TextField};
-use ohmstack_core::material::{PresetUse, PRESETS, PRESET_CAVEAT};
-use ohmstack_core::stackup::CopperRole;
-use ohmstack_core::units::{format_sig, LengthUnit, OZ_COPPER};
+use ohmstack_core::base::units::{format_sig, LengthUnit, OZ_COPPER};
+use ohmstack_core::design::material::{PresetUse, PRESETS, PRESET_CAVEAT};
+use ohmstack_core::design::stackup::CopperRole;
 use ohmstack_core::{Layer, Plan, Project};
 use std::collections::BTreeMap;
 use std::rc::Rc;

@@ -3,8 +3,8 @@
 use crate::bridge;
 use crate::state::{Action, Draft, Field, RuleField};
 use crate::widgets::{Select, TextField};
-use ohmstack_core::project::{RuleModel, Solve, Structure};
-use ohmstack_core::units::format_sig;
+use ohmstack_core::base::units::format_sig;
+use ohmstack_core::design::project::{RuleModel, Solve, Structure};
 use ohmstack_core::{Plan, Project, RuleOutcome, RuleResult};
 use std::collections::BTreeMap;
 use std::rc::Rc;

@@ -277,14 +277,14 @@ mod tests {
     use super::*;
 
     fn demo_titled(title: &str) -> Project {
-        let mut p = ohmstack_core::demo::project();
+        let mut p = ohmstack_core::design::demo::project();
         p.title = title.into();
         p
     }
 
     #[test]
     fn no_link_restores_saved_work_once() {
-        let (demo, mine) = (ohmstack_core::demo::project(), demo_titled("mine"));
+        let (demo, mine) = (ohmstack_core::design::demo::project(), demo_titled("mine"));
         assert!(matches!(decide(None, Some(&mine), &demo), Decision::Load(p, None) if *p == mine));
         assert!(matches!(
             decide(None, Some(&mine), &mine),
@@ -296,7 +296,7 @@ mod tests {
     #[test]
     fn a_link_to_other_work_asks_and_shows_the_saved_work_meanwhile() {
         let (demo, mine, theirs) = (
-            ohmstack_core::demo::project(),
+            ohmstack_core::design::demo::project(),
             demo_titled("mine"),
             demo_titled("theirs"),
         );
@@ -320,8 +320,8 @@ mod tests {
 
     #[test]
     fn a_bad_link_keeps_the_work_and_says_the_core_error() {
-        let (demo, mine) = (ohmstack_core::demo::project(), demo_titled("mine"));
-        let core = ohmstack_core::share::decode("v9.abc")
+        let (demo, mine) = (ohmstack_core::design::demo::project(), demo_titled("mine"));
+        let core = ohmstack_core::design::share::decode("v9.abc")
             .unwrap_err()
             .to_string();
         match decide(Some("v9.abc"), Some(&mine), &demo) {

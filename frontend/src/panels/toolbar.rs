@@ -4,7 +4,7 @@
 use crate::bridge;
 use crate::state::{Action, Draft, Field, Notice};
 use crate::widgets::{Select, TextField};
-use ohmstack_core::units::LengthUnit;
+use ohmstack_core::base::units::LengthUnit;
 use ohmstack_core::Project;
 use std::collections::BTreeMap;
 use std::rc::Rc;

@@ -1,0 +1,211 @@
+//! Physical constants and unit handling at the edges: inside the core every length is metres and every
+//! frequency hertz, as `f64`; text such as `0.3mm`, `5mil`, `1oz` or `2.4GHz` is parsed and formatted only here.
+
+use crate::base::error::Error;
+
+/// Speed of light in vacuum, m/s (exact, SI 2019).
+pub const C0: f64 = 299_792_458.0;
+/// Vacuum permeability, H/m (CODATA 2018).
+pub const MU0: f64 = 1.256_637_062_12e-6;
+/// Vacuum permittivity, F/m, from µ0 and c so the three stay consistent.
+pub const EPS0: f64 = 1.0 / (MU0 * C0 * C0);
+/// Free-space wave impedance µ0·c ≈ 376.730 Ω. (Older papers print 120π = 376.991 Ω; we use µ0·c throughout.)
+pub const ETA0: f64 = MU0 * C0;
+
+/// One thousandth of an inch, in metres.
+pub const MIL: f64 = 25.4e-6;
+/// One inch, in metres.
+pub const INCH: f64 = 25.4e-3;
+/// Thickness of 1 oz/ft² copper foil: 1.37 mil ≈ 34.8 µm (common practice, no source).
+pub const OZ_COPPER: f64 = 1.37 * MIL;
+
+pub use crate::base::error::{MAX_LENGTH_M, MIN_LENGTH_M};
+
+/// A unit for displaying and entering lengths.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize, Default)]
+#[serde(rename_all = "lowercase")]
+pub enum LengthUnit {
+    #[default]
+    Um,
+    Mm,
+    Mil,
+    In,
+}
+
+impl LengthUnit {
+    pub const ALL: [LengthUnit; 4] = [
+        LengthUnit::Um,
+        LengthUnit::Mm,
+        LengthUnit::Mil,
+        LengthUnit::In,
+    ];
+
+    /// Metres per one of this unit.
+    pub fn metres(self) -> f64 {
+        match self {
+            LengthUnit::Um => 1e-6,
+            LengthUnit::Mm => 1e-3,
+            LengthUnit::Mil => MIL,
+            LengthUnit::In => INCH,
+        }
+    }
+
+    pub fn symbol(self) -> &'static str {
+        match self {
+            LengthUnit::Um => "µm",
+            LengthUnit::Mm => "mm",
+            LengthUnit::Mil => "mil",
+            LengthUnit::In => "in",
+        }
+    }
+
+    /// Converts metres into this unit.
+    pub fn from_m(self, metres: f64) -> f64 {
+        metres / self.metres()
+    }
+
+    /// Converts a value in this unit into metres.
+    pub fn to_m(self, value: f64) -> f64 {
+        value * self.metres()
+    }
+}
+
+fn split_number(text: &str) -> Option<(f64, &str)> {
+    let text = text.trim();
+    let end = text
+        .char_indices()
+        .find(|&(i, c)| {
+            !(c.is_ascii_digit()
+                || c == '.'
+                || c == '+'
+                || c == '-'
+                || ((c == 'e' || c == 'E')
+                    && text[i + 1..]
+                        .starts_with(|d: char| d.is_ascii_digit() || d == '-' || d == '+')))
+        })
+        .map(|(i, _)| i)
+        .unwrap_or(text.len());
+    let value: f64 = text[..end].parse().ok()?;
+    Some((value, text[end..].trim()))
+}
+
+/// Parses a length such as `0.3mm`, `125um`, `5 mil`, `0.01in`, `1oz` (copper weight) or `3.5e-5` (metres).
+/// `field` names the input in the error.
+pub fn parse_length(field: &str, text: &str) -> Result<f64, Error> {
+    let bad = || Error::BadQuantity {
+        field: field.to_string(),
+        text: text.to_string(),
+        expected: "a length such as 0.3mm, 125um, 5mil, 0.01in or 1oz",
+    };
+    let (value, unit) = split_number(text).ok_or_else(bad)?;
+    let scale = match unit.to_ascii_lowercase().as_str() {
+        "" | "m" => 1.0,
+        "mm" => 1e-3,
+        "um" | "µm" | "μm" | "micron" => 1e-6,
+        "nm" => 1e-9,
+        "mil" | "mils" | "thou" => MIL,
+        "in" | "inch" | "\"" => INCH,
+        "cm" => 1e-2,
+        "oz" => OZ_COPPER,
+        _ => return Err(bad()),
+    };
+    crate::base::error::finite(field, value * scale)
+}
+
+/// Parses a frequency such as `2.4GHz`, `100MHz`, `5e9` (hertz).
+pub fn parse_frequency(field: &str, text: &str) -> Result<f64, Error> {
+    let bad = || Error::BadQuantity {
+        field: field.to_string(),
+        text: text.to_string(),
+        expected: "a frequency such as 2.4GHz, 100MHz or 5e9",
+    };
+    let (value, unit) = split_number(text).ok_or_else(bad)?;
+    let scale = match unit.to_ascii_lowercase().as_str() {
+        "" | "hz" => 1.0,
+        "khz" | "k" => 1e3,
+        "mhz" | "meg" => 1e6,
+        "ghz" | "g" => 1e9,
+        "thz" => 1e12,
+        _ => return Err(bad()),
+    };
+    crate::base::error::finite(field, value * scale)
+}
+
+/// Parses a plain number (Dk, ohms, percent) with an optional unit word the caller allows.
+pub fn parse_number(field: &str, text: &str, allowed_suffixes: &[&str]) -> Result<f64, Error> {
+    let bad = || Error::BadQuantity {
+        field: field.to_string(),
+        text: text.to_string(),
+        expected: "a number",
+    };
+    let (value, unit) = split_number(text).ok_or_else(bad)?;
+    if !unit.is_empty()
+        && !allowed_suffixes
+            .iter()
+            .any(|s| s.eq_ignore_ascii_case(unit))
+    {
+        return Err(bad());
+    }
+    crate::base::error::finite(field, value)
+}
+
+/// Formats a length in `unit` with a sensible number of digits.
+pub fn format_length(metres: f64, unit: LengthUnit) -> String {
+    format!("{} {}", format_sig(unit.from_m(metres), 4), unit.symbol())
+}
+
+/// Formats `value` with `digits` significant digits, dropping trailing zeros.
+pub fn format_sig(value: f64, digits: usize) -> String {
+    if !value.is_finite() {
+        return format!("{value}");
+    }
+    if value == 0.0 {
+        return "0".into();
+    }
+    let magnitude = value.abs().log10().floor() as i32;
+    let decimals = (digits as i32 - 1 - magnitude).clamp(0, 12) as usize;
+    let text = format!("{value:.decimals$}");
+    if text.contains('.') {
+        text.trim_end_matches('0').trim_end_matches('.').to_string()
+    } else {
+        text
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn lengths_parse_in_every_unit() {
+        // 1 mil = 25.4 µm exactly (international inch, 1959).
+        assert!((parse_length("w", "5mil").unwrap() - 127e-6).abs() < 1e-15);
+        assert!((parse_length("w", "0.3 mm").unwrap() - 0.3e-3).abs() < 1e-15);
+        assert!((parse_length("w", "35um").unwrap() - 35e-6).abs() < 1e-15);
+        assert!((parse_length("w", "1e-4").unwrap() - 1e-4).abs() < 1e-18);
+        assert!((parse_length("t", "1oz").unwrap() - 34.798e-6).abs() < 1e-9);
+        assert!(parse_length("w", "abc").is_err());
+        assert!(parse_length("w", "3 furlongs").is_err());
+        assert!(parse_length("w", "nan").is_err());
+    }
+
+    #[test]
+    fn frequencies_parse() {
+        assert_eq!(parse_frequency("f", "2.4GHz").unwrap(), 2.4e9);
+        assert_eq!(parse_frequency("f", "100 MHz").unwrap(), 100e6);
+    }
+
+    #[test]
+    fn unit_round_trip_is_exact_enough() {
+        for unit in LengthUnit::ALL {
+            let m = 123.456e-6;
+            assert!((unit.to_m(unit.from_m(m)) - m).abs() < 1e-18);
+        }
+    }
+
+    #[test]
+    fn eta0_is_mu0_c() {
+        // CODATA free-space impedance 376.730 313 Ω.
+        assert!((ETA0 - 376.730_313).abs() < 1e-5);
+    }
+}

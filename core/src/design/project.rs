@@ -1,0 +1,455 @@
+//! The saved design: a stackup, the impedance rules routed on it, fabrication limits and display preferences.
+//! Serialised as JSON with `"schema": 1`; unknown or wrong fields are errors that name the field's path.
+
+use crate::base::error::{self, Error, Result};
+use crate::base::units::LengthUnit;
+use crate::design::process::Process;
+use crate::design::stackup::{Layer, Stackup};
+use serde::{Deserialize, Serialize};
+
+/// The schema version this build writes. Older versions are migrated on read (see [`Project::from_json`]).
+pub const SCHEMA_VERSION: u32 = 1;
+
+/// The routing structure of a rule. Whether it is microstrip or stripline (and which variant) follows from where the
+/// layer sits in the stack, so the user picks only the shape of the net.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Structure {
+    /// One trace over (or between) reference planes.
+    Single,
+    /// Two traces side by side on one layer (edge-coupled differential pair).
+    EdgePair,
+    /// Two traces stacked on adjacent signal layers between the same planes (broadside-coupled pair).
+    BroadsidePair,
+    /// One trace with ground copper beside it on the same layer, at `gap_m` (coplanar; grounded when a plane is near).
+    Coplanar,
+    /// An edge-coupled pair with ground copper beside it on the same layer.
+    CoplanarPair,
+}
+
+impl Structure {
+    pub const ALL: [Structure; 5] = [
+        Structure::Single,
+        Structure::EdgePair,
+        Structure::BroadsidePair,
+        Structure::Coplanar,
+        Structure::CoplanarPair,
+    ];
+
+    pub fn is_pair(self) -> bool {
+        matches!(
+            self,
+            Structure::EdgePair | Structure::BroadsidePair | Structure::CoplanarPair
+        )
+    }
+
+    /// Plain words for tables and menus.
+    pub fn label(self) -> &'static str {
+        match self {
+            Structure::Single => "single-ended",
+            Structure::EdgePair => "edge-coupled pair",
+            Structure::BroadsidePair => "broadside-coupled pair",
+            Structure::Coplanar => "coplanar single-ended",
+            Structure::CoplanarPair => "coplanar pair",
+        }
+    }
+}
+
+/// Which dimension synthesis is free to change.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize, Default)]
+#[serde(rename_all = "snake_case")]
+pub enum Solve {
+    /// Find the trace width that hits the target (every structure).
+    #[default]
+    Width,
+    /// Find the pair spacing that hits the target at the given width (pairs only).
+    Spacing,
+    /// Analyse the dimensions as given.
+    Nothing,
+}
+
+/// What computes a rule's figures.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize, Default)]
+#[serde(rename_all = "snake_case")]
+pub enum RuleModel {
+    /// The published closed-form model of the structure (fast; the default).
+    #[default]
+    ClosedForm,
+    /// The 2D field solver: the free dimension is solved on it, starting from the closed form's answer (for where
+    /// the closed form is flagged: thick copper in coplanar gaps, solder mask, etched traces).
+    FieldSolver,
+}
+
+impl RuleModel {
+    /// Whether this is the default (left out of saved files, so older files and links read the same).
+    pub fn is_closed_form(&self) -> bool {
+        *self == RuleModel::ClosedForm
+    }
+}
+
+/// One controlled-impedance net class.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ImpedanceRule {
+    pub name: String,
+    /// The copper layer the net is routed on.
+    pub layer: String,
+    pub structure: Structure,
+    /// Target impedance, Ω: Z0 for single-ended structures, Zdiff for pairs.
+    pub target_ohm: f64,
+    /// Allowed deviation, ± % of target (fabricators commonly hold ±10 %: common practice, no source).
+    #[serde(default = "ten_pct")]
+    pub tolerance_pct: f64,
+    #[serde(default)]
+    pub solve: Solve,
+    /// What computes the figures.
+    #[serde(default, skip_serializing_if = "RuleModel::is_closed_form")]
+    pub model: RuleModel,
+    /// Trace width at the base of the trace, m (the starting value when solving for width).
+    pub width_m: f64,
+    /// Edge-to-edge spacing of a pair, m.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub spacing_m: Option<f64>,
+    /// Edge-to-edge gap from the trace to coplanar ground copper, m.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub gap_m: Option<f64>,
+    /// For a broadside pair: the layer the second trace is on.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub partner_layer: Option<String>,
+    /// Reference planes named explicitly; empty means the nearest plane layers above and below.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub references: Vec<String>,
+}
+
+fn ten_pct() -> f64 {
+    10.0
+}
+
+/// Fabrication limits and process facts that bound synthesis and shape traces.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Fab {
+    /// Narrowest trace the fabricator builds, m.
+    pub min_trace_m: f64,
+    /// Smallest copper-to-copper space, m.
+    pub min_space_m: f64,
+    /// Etch factor (thickness / one-side undercut); the trace top is narrower by 2·t/etch_factor.
+    /// `None` treats traces as rectangles.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub etch_factor: Option<f64>,
+    /// Finished board thickness tolerance, ± %; `None` means the common ±10 % (common practice, no source).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub thickness_tolerance_pct: Option<f64>,
+}
+
+impl Default for Fab {
+    fn default() -> Self {
+        // 100 µm (≈4 mil) line and space: a common standard-class capability (common practice, no source).
+        Fab {
+            min_trace_m: 100e-6,
+            min_space_m: 100e-6,
+            etch_factor: None,
+            thickness_tolerance_pct: None,
+        }
+    }
+}
+
+/// The whole design as saved and shared.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Project {
+    pub schema: u32,
+    pub title: String,
+    #[serde(default)]
+    pub revision: String,
+    /// Preferred display unit for lengths; the stored values are always metres.
+    #[serde(default)]
+    pub units: LengthUnit,
+    /// Frequency for loss and delay in the results table, Hz.
+    #[serde(default = "default_freq")]
+    pub analysis_freq_hz: f64,
+    #[serde(default)]
+    pub fab: Fab,
+    /// Options of the loss model (conductivity, dielectric and dispersion models).
+    #[serde(
+        default,
+        skip_serializing_if = "crate::design::loss_options::LossOptions::is_default"
+    )]
+    pub loss: crate::design::loss_options::LossOptions,
+    /// Process variation for tolerance spread; `None` takes the common-practice defaults of [`Process::default`].
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub process: Option<Process>,
+    pub stackup: Stackup,
+    #[serde(default)]
+    pub rules: Vec<ImpedanceRule>,
+}
+
+fn default_freq() -> f64 {
+    1e9
+}
+
+/// The most rules a project may hold (a sanity cap for untrusted input).
+pub const MAX_RULES: usize = 200;
+/// The largest project text accepted, bytes.
+pub const MAX_JSON_BYTES: usize = 1 << 20;
+
+impl Project {
+    /// Reads a project from JSON, migrating older schema versions; errors name the offending field's path.
+    pub fn from_json(text: &str) -> Result<Project> {
+        if text.len() > MAX_JSON_BYTES {
+            return Err(Error::Schema {
+                message: format!("file is larger than {MAX_JSON_BYTES} bytes"),
+            });
+        }
+        let value: serde_json::Value = serde_json::from_str(text).map_err(|e| Error::Schema {
+            message: format!("not valid JSON: {e}"),
+        })?;
+        let schema = value
+            .get("schema")
+            .and_then(|v| v.as_u64())
+            .ok_or_else(|| Error::Schema {
+                message: "field `schema` is missing or not a whole number".into(),
+            })?;
+        if schema != u64::from(SCHEMA_VERSION) {
+            return Err(Error::Schema {
+                message: format!("schema {schema} is not known to this version (it reads schema {SCHEMA_VERSION})"),
+            });
+        }
+        let project: Project =
+            serde_path_to_error::deserialize(value).map_err(|e| Error::Schema {
+                message: format!("at `{}`: {}", e.path(), e.inner()),
+            })?;
+        project.validate()?;
+        Ok(project)
+    }
+
+    /// Pretty JSON, the same schema the CLI and the web app read.
+    pub fn to_json(&self) -> String {
+        serde_json::to_string_pretty(self).expect("a project always serialises")
+    }
+
+    /// Checks everything that can be checked without solving: the stack, the fab limits, each rule's fields.
+    pub fn validate(&self) -> Result<()> {
+        if self.title.chars().count() > 200 {
+            return Err(Error::Invalid {
+                field: "title".into(),
+                reason: "longer than 200 characters".into(),
+            });
+        }
+        error::in_range("analysis_freq", self.analysis_freq_hz, 1.0, 1e12, "Hz")?;
+        error::length("fab.min_trace", self.fab.min_trace_m)?;
+        error::length("fab.min_space", self.fab.min_space_m)?;
+        if let Some(ef) = self.fab.etch_factor {
+            error::in_range("fab.etch_factor", ef, 0.5, 100.0, "")?;
+        }
+        self.loss.validate()?;
+        if let Some(tol) = self.fab.thickness_tolerance_pct {
+            error::in_range("fab.thickness_tolerance", tol, 0.0, 50.0, "%")?;
+        }
+        self.stackup.validate()?;
+        if let Some(process) = &self.process {
+            process.validate(&self.stackup)?;
+        }
+        if self.rules.len() > MAX_RULES {
+            return Err(Error::Invalid {
+                field: "rules".into(),
+                reason: format!(
+                    "{} rules is more than the {MAX_RULES} allowed",
+                    self.rules.len()
+                ),
+            });
+        }
+        for (i, rule) in self.rules.iter().enumerate() {
+            rule.validate(&self.stackup)
+                .map_err(|e| prefix(e, &format!("rules[{i}] {:?}", rule.name)))?;
+        }
+        Ok(())
+    }
+}
+
+impl ImpedanceRule {
+    /// Field checks that need only the stack (geometry is checked again by the models).
+    pub fn validate(&self, stackup: &Stackup) -> Result<()> {
+        if self.name.chars().count() > 80 {
+            return Err(Error::Invalid {
+                field: "name".into(),
+                reason: "longer than 80 characters".into(),
+            });
+        }
+        match stackup.find(&self.layer).map(|i| &stackup.layers[i]) {
+            Some(Layer::Copper(_)) => {}
+            Some(_) => {
+                return Err(Error::Invalid {
+                    field: "layer".into(),
+                    reason: format!("{:?} is not a copper layer", self.layer),
+                })
+            }
+            None => {
+                return Err(Error::Invalid {
+                    field: "layer".into(),
+                    reason: format!("no layer named {:?}", self.layer),
+                })
+            }
+        }
+        error::in_range("target", self.target_ohm, 1.0, 1000.0, "Ω")?;
+        error::in_range("tolerance", self.tolerance_pct, 0.0, 100.0, "%")?;
+        error::length("width", self.width_m)?;
+        if let Some(s) = self.spacing_m {
+            error::length("spacing", s)?;
+        }
+        if let Some(g) = self.gap_m {
+            error::length("gap", g)?;
+        }
+        if self.solve == Solve::Spacing
+            && self.structure != Structure::EdgePair
+            && self.structure != Structure::CoplanarPair
+        {
+            return Err(Error::Invalid {
+                field: "solve".into(),
+                reason: format!(
+                    "only edge-coupled pairs have a spacing to solve for, not a {}",
+                    self.structure.label()
+                ),
+            });
+        }
+        if matches!(
+            self.structure,
+            Structure::EdgePair | Structure::CoplanarPair
+        ) && self.spacing_m.is_none()
+        {
+            return Err(Error::Invalid {
+                field: "spacing".into(),
+                reason: "a pair needs a spacing".into(),
+            });
+        }
+        if matches!(
+            self.structure,
+            Structure::Coplanar | Structure::CoplanarPair
+        ) && self.gap_m.is_none()
+        {
+            return Err(Error::Invalid {
+                field: "gap".into(),
+                reason: "a coplanar structure needs a gap to ground".into(),
+            });
+        }
+        if self.structure == Structure::BroadsidePair && self.partner_layer.is_none() {
+            return Err(Error::Invalid {
+                field: "partner_layer".into(),
+                reason: "a broadside pair needs the second trace's layer".into(),
+            });
+        }
+        for r in self.references.iter().chain(self.partner_layer.iter()) {
+            if stackup
+                .find(r)
+                .and_then(|i| stackup.layers[i].copper())
+                .is_none()
+            {
+                return Err(Error::Invalid {
+                    field: "references".into(),
+                    reason: format!("no copper layer named {r:?}"),
+                });
+            }
+        }
+        Ok(())
+    }
+}
+
+/// Puts `context` in front of the error's field name.
+pub(crate) fn prefix(e: Error, context: &str) -> Error {
+    match e {
+        Error::NotFinite { field } => Error::NotFinite {
+            field: format!("{context}.{field}"),
+        },
+        Error::NonPositive { field, value, unit } => Error::NonPositive {
+            field: format!("{context}.{field}"),
+            value,
+            unit,
+        },
+        Error::OutOfRange {
+            field,
+            value,
+            min,
+            max,
+            unit,
+        } => Error::OutOfRange {
+            field: format!("{context}.{field}"),
+            value,
+            min,
+            max,
+            unit,
+        },
+        Error::BadQuantity {
+            field,
+            text,
+            expected,
+        } => Error::BadQuantity {
+            field: format!("{context}.{field}"),
+            text,
+            expected,
+        },
+        Error::Unreachable {
+            field,
+            target,
+            nearest,
+            bound,
+        } => Error::Unreachable {
+            field: format!("{context}.{field}"),
+            target,
+            nearest,
+            bound,
+        },
+        Error::Invalid { field, reason } => Error::Invalid {
+            field: format!("{context}.{field}"),
+            reason,
+        },
+        other => other,
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn demo_round_trips_through_json() {
+        let p = crate::design::demo::project();
+        let back = Project::from_json(&p.to_json()).unwrap();
+        assert_eq!(p, back);
+    }
+
+    #[test]
+    fn unknown_field_is_named() {
+        let mut v: serde_json::Value =
+            serde_json::from_str(&crate::design::demo::project().to_json()).unwrap();
+        v["stackup"][1]["colour"] = serde_json::json!("green");
+        let e = Project::from_json(&v.to_string()).unwrap_err().to_string();
+        assert!(e.contains("colour") && e.contains("stackup[1]"), "{e}");
+    }
+
+    #[test]
+    fn wrong_type_is_named() {
+        let mut v: serde_json::Value =
+            serde_json::from_str(&crate::design::demo::project().to_json()).unwrap();
+        v["rules"][0]["target_ohm"] = serde_json::json!("fifty");
+        let e = Project::from_json(&v.to_string()).unwrap_err().to_string();
+        assert!(e.contains("rules[0].target_ohm"), "{e}");
+    }
+
+    #[test]
+    fn future_schema_is_refused() {
+        let text =
+            crate::design::demo::project()
+                .to_json()
+                .replacen("\"schema\": 1", "\"schema\": 99", 1);
+        let e = Project::from_json(&text).unwrap_err().to_string();
+        assert!(e.contains("schema 99"), "{e}");
+    }
+
+    #[test]
+    fn bad_rule_value_names_rule_and_field() {
+        let mut p = crate::design::demo::project();
+        p.rules[0].target_ohm = -5.0;
+        let e = p.validate().unwrap_err().to_string();
+        assert!(e.contains("rules[0]") && e.contains("target"), "{e}");
+    }
+}

@@ -1,0 +1,160 @@
+//! The one engine boundary: every engine answers the same question — this resolved cross-section, this structure,
+//! these dimensions → the line's modes (Z, εeff, L, C per mode), the method that made them, and an error estimate
+//! where the engine has one. Planning, synthesis, loss and the tolerance spread are written once against
+//! [`Engine`]; they never ask which formula or solver made a figure.
+//!
+//! Engines today: the closed forms ([`crate::closed_form`], instant, with validity notes) and the 2D finite-volume
+//! field solver ([`crate::field`], seconds at worst, with a Richardson error estimate). A new engine is one more
+//! variant here and one more arm in [`Engine::analyze`].
+
+use crate::base::error::Result;
+use crate::closed_form;
+use crate::design::project::{ImpedanceRule, Project, RuleModel, Structure};
+use crate::field::{self, FieldOptions, FieldResult};
+use crate::section::{Analysis, CrossSection, Dims};
+
+/// Method name of field-solver figures (shown in the results and fab notes).
+pub const FIELD_METHOD: &str = "2D field solver (finite volumes, extrapolated)";
+
+/// Which engine answers, with what it needs beyond the cross-section.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Engine {
+    /// The published closed-form models (one family per structure).
+    ClosedForm,
+    /// The 2D finite-volume field solver; `etch_factor` makes the traces trapezoids (the closed forms ignore it).
+    FieldSolver {
+        options: FieldOptions,
+        etch_factor: Option<f64>,
+    },
+}
+
+/// One engine's answer for one cross-section.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Answer {
+    /// The modes: one for a single line, odd and even for a pair (with the model's validity notes).
+    pub analysis: Analysis,
+    /// The published method or solver that made the figures.
+    pub method: &'static str,
+    /// Estimated relative error of the controlled impedance, %, when the engine estimates one (the closed forms
+    /// state their band in docs/accuracy.md instead).
+    pub error_estimate_pct: Option<f64>,
+    /// The whole field solution (C, C0 and L matrices, levels), when a field solver answered.
+    pub field: Option<Box<FieldResult>>,
+}
+
+impl Answer {
+    /// The controlled impedance: Z0 for a single line, Zdiff for a pair.
+    pub fn controlled(&self) -> f64 {
+        self.analysis.controlled()
+    }
+}
+
+impl Engine {
+    /// The engine a rule asked for (its `model`), with the project's etch factor for the field solver.
+    pub fn for_rule(project: &Project, rule: &ImpedanceRule) -> Engine {
+        match rule.model {
+            RuleModel::ClosedForm => Engine::ClosedForm,
+            RuleModel::FieldSolver => Engine::FieldSolver {
+                options: FieldOptions::default(),
+                etch_factor: project.fab.etch_factor,
+            },
+        }
+    }
+
+    /// Short name for results and notes.
+    pub fn name(&self) -> &'static str {
+        match self {
+            Engine::ClosedForm => "closed form",
+            Engine::FieldSolver { .. } => "field solver",
+        }
+    }
+
+    /// Whether this is the instant closed form (synthesis then needs no refinement beyond it).
+    pub fn is_closed_form(&self) -> bool {
+        matches!(self, Engine::ClosedForm)
+    }
+
+    /// Analyses `structure` with dimensions `dims` on the cross-section `cs`.
+    pub fn analyze(&self, cs: &CrossSection, structure: Structure, dims: &Dims) -> Result<Answer> {
+        match *self {
+            Engine::ClosedForm => {
+                let e = closed_form::evaluate(cs, structure, dims)?;
+                Ok(Answer {
+                    analysis: e.analysis,
+                    method: e.method,
+                    error_estimate_pct: None,
+                    field: None,
+                })
+            }
+            Engine::FieldSolver {
+                options,
+                etch_factor,
+            } => {
+                let r = field::solve_cross_section(cs, structure, dims, etch_factor, options)?;
+                Ok(Answer::from_field(r))
+            }
+        }
+    }
+
+    /// The controlled impedance alone (Z0, or Zdiff for a pair).
+    pub fn impedance(&self, cs: &CrossSection, structure: Structure, dims: &Dims) -> Result<f64> {
+        match *self {
+            // Skips building the answer: the spread calls this thousands of times.
+            Engine::ClosedForm => {
+                closed_form::evaluate(cs, structure, dims).map(|e| e.analysis.controlled())
+            }
+            Engine::FieldSolver { .. } => self.analyze(cs, structure, dims).map(|a| a.controlled()),
+        }
+    }
+}
+
+impl Answer {
+    /// The answer of a finished field solve.
+    pub fn from_field(r: FieldResult) -> Answer {
+        Answer {
+            analysis: r.analysis.clone(),
+            method: FIELD_METHOD,
+            error_estimate_pct: Some(r.error_estimate_pct),
+            field: Some(Box::new(r)),
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::section;
+
+    /// Both engines answer the same question for the same demo rule; they agree within the closed form's band
+    /// (HJ microstrip with a mask correction vs the field solver: a few per cent, measured in docs/accuracy.md).
+    #[test]
+    fn both_engines_answer_the_same_question() {
+        let p = crate::design::demo::project();
+        let rule = &p.rules[0];
+        let cs = section::resolve(&p.stackup, rule).unwrap();
+        let dims = Dims {
+            w: rule.width_m,
+            s: rule.spacing_m,
+            gap: rule.gap_m,
+        };
+        let closed = Engine::ClosedForm
+            .analyze(&cs, rule.structure, &dims)
+            .unwrap();
+        let field = Engine::FieldSolver {
+            options: FieldOptions::default(),
+            etch_factor: None,
+        }
+        .analyze(&cs, rule.structure, &dims)
+        .unwrap();
+        assert!(closed.error_estimate_pct.is_none() && closed.field.is_none());
+        assert_eq!(field.method, FIELD_METHOD);
+        assert!(field.error_estimate_pct.unwrap() < 0.3);
+        let diff = (field.controlled() - closed.controlled()) / closed.controlled();
+        assert!(
+            diff.abs() < 0.1,
+            "closed {} field {}",
+            closed.controlled(),
+            field.controlled()
+        );
+    }
+}

@@ -1,0 +1,1430 @@
+//! Tolerance spread and yield of one impedance rule: corner analysis, seeded Monte Carlo, sensitivities and the
+//! tolerance-centred width (or spacing).
+//!
+//! How it stays fast and structure-independent: the rule's stackup is resolved once by
+//! [`section::resolve`]; each process parameter (a layer's thickness or Dk, the etched width, the etch factor)
+//! is then pushed to ± its limit and resolved again, which gives how every number of the resolved
+//! [`CrossSection`] (heights, Dk, cover, copper thickness) and of the trace [`Dims`] moves with it. Heights and
+//! thicknesses are sums of layer thicknesses, so that map is exact for them; a mixed-dielectric Dk is a series
+//! combination, kept to second order (curvature and height × Dk cross terms from mixed differences of the
+//! resolve; within 1e-4 relative of a full re-resolve at the limits). Each sample then costs a few multiply-adds
+//! plus one call of the impedance model on a perturbed copy of the cross-section ([`SampleModel::Direct`]), or,
+//! for interactive use, one evaluation of a quadratic response surface of that model fitted once per rule
+//! ([`SampleModel::Quadratic`], [`Quadratic`]). Synthesis stays out of the sample loop: the solved width is fixed
+//! and the etch moves it.
+//!
+//! Methods:
+//! - Corners: when a rule has at most [`MAX_FULL_CORNERS`] varied parameters, all 2^n combinations of the limits
+//!   are evaluated and the extremes kept; with more, only the two corners picked by the signs of the sensitivities
+//!   (exact for a model monotone in each parameter). Corners use the same sample model as the Monte Carlo.
+//! - Monte Carlo: N seeded samples (xoshiro256**, ziggurat normals; see [`rng`]); mean, σ, percentiles by linear
+//!   interpolation between order statistics, a histogram, yield = share of all samples inside the rule's
+//!   tolerance window (failed samples count as outside), and the process capability
+//!   Cpk = min(USL − µ, µ − LSL)/(3σ). Each rule draws its own stream (the seed mixed with the rule's name).
+//! - Sensitivities: central differences of the model itself with a step of a tenth of each limit, listed by
+//!   |∂Z/∂p × limit|; first-order propagation σ_Z = √Σ(∂Z/∂p·σ_p)² (JCGM 100:2008 "GUM" §5.1.2) and the
+//!   second-order mean Z0 + ½Σ ∂²Z/∂p²·σ_p² are reported beside the Monte Carlo figures.
+//! - Tolerance centring of the free dimension (the width, or the spacing when the rule solves spacing): on the
+//!   sorted Monte Carlo values, slide a window as wide as the rule's tolerance window to where it holds the most
+//!   samples (midpoint of that position; the smallest shift on ties); shifting the nominal impedance by the same
+//!   amount is, to first order, the shift that maximises yield (when every sample fits, it centres the sampled
+//!   range in the window). The free dimension is solved for that nominal impedance and the same deviates
+//!   (common random numbers) are run again for the centred yield; if it is not better, the nominal is kept.
+//!
+//! The impedance model is a hook ([`ImpedanceModel`]): [`ClosedForm`] calls [`closed_form::evaluate`], so every
+//! structure the models know is covered; a field solver can implement the same trait and be fitted by
+//! [`Quadratic::fit`] into a response surface, or replace the whole per-sample evaluator, since [`monte_carlo`],
+//! [`corners`], [`sensitivities`] and [`Quadratic::fit`] take any `FnMut(&[f64]) -> Result<f64>` of the parameter
+//! deviations. A new [`Medium`] variant needs one line in each of `medium_slots`, `set_medium_slots` and
+//! `dk_slots` (the compiler points there).
+
+pub mod rng;
+
+pub use crate::design::process::{Distribution, LayerProcess, Process, Tolerance};
+
+use crate::base::error::{Error, Result};
+use crate::base::roots::{self, Bracket};
+use crate::base::units::{format_sig, MAX_LENGTH_M};
+use crate::base::validity::Warning;
+use crate::closed_form;
+use crate::design::project::{ImpedanceRule, Project, Solve, Structure};
+use crate::design::stackup::{Layer, Stackup};
+use crate::plan::RuleResult;
+use crate::section::Dims;
+use crate::section::{self, Cover, CrossSection, Medium};
+use rng::Rng;
+use serde::Serialize;
+
+/// Monte Carlo samples when none are asked for.
+pub const DEFAULT_SAMPLES: usize = 10_000;
+/// The most samples one run may take (a cap for untrusted input).
+pub const MAX_SAMPLES: usize = 200_000;
+/// The fewest samples that give meaningful percentiles.
+pub const MIN_SAMPLES: usize = 100;
+/// The seed used when none is given.
+pub const DEFAULT_SEED: u64 = 1;
+/// Histogram bins over the sampled range.
+pub const HISTOGRAM_BINS: usize = 32;
+/// Up to this many varied parameters every corner (2^n) is evaluated.
+pub const MAX_FULL_CORNERS: usize = 8;
+/// Up to this many varied parameters the second-order cross terms (Dk series combination, response surface) are
+/// fitted; beyond it only the diagonal terms, so that an absurd stack cannot make setup quadratic in cost.
+pub const MAX_CROSS_PARAMS: usize = 24;
+
+/// The impedance model the spread calls per sample: the controlled impedance (Z0, or Zdiff for pairs), Ω.
+pub trait ImpedanceModel {
+    fn impedance(&self, cs: &CrossSection, structure: Structure, dims: &Dims) -> Result<f64>;
+}
+
+/// The closed-form models of [`closed_form::evaluate`].
+#[derive(Debug, Clone, Copy, Default)]
+pub struct ClosedForm;
+
+impl ImpedanceModel for ClosedForm {
+    fn impedance(&self, cs: &CrossSection, structure: Structure, dims: &Dims) -> Result<f64> {
+        closed_form::evaluate(cs, structure, dims).map(|e| e.analysis.controlled())
+    }
+}
+
+/// What a parameter varies.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(tag = "kind", content = "layer_index", rename_all = "snake_case")]
+pub enum Varied {
+    /// The etched trace width (both edges); pair spacing and coplanar gap shrink by the same amount.
+    EtchWidth,
+    /// The etch factor, acting on the equivalent rectangular width w − t/EF (mean of the trapezoid's faces).
+    EtchFactor,
+    /// Thickness of the layer with this index.
+    Thickness(usize),
+    /// Dk of the layer with this index.
+    Dk(usize),
+}
+
+/// One varied process parameter of a rule.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Parameter {
+    /// Plain name, e.g. "thickness of PP1 (prepreg)".
+    pub name: String,
+    pub varies: Varied,
+    /// "m" for lengths, "" for Dk and etch factor.
+    pub unit: &'static str,
+    pub nominal: f64,
+    /// The ± limit, in `unit`.
+    pub limit: f64,
+    pub distribution: Distribution,
+}
+
+impl Parameter {
+    /// Standard deviation: limit/3 for normal (limits at ±3σ), limit/√3 for uniform.
+    pub fn sigma(&self) -> f64 {
+        match self.distribution {
+            Distribution::Normal => self.limit / 3.0,
+            Distribution::Uniform => self.limit / 3f64.sqrt(),
+        }
+    }
+}
+
+/// ∂Z/∂p of one parameter at the nominal design.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Sensitivity {
+    pub parameter: String,
+    pub unit: &'static str,
+    /// ∂Z/∂p, Ω per `unit` (Ω/m for lengths).
+    pub dz_dp: f64,
+    /// ∂²Z/∂p², Ω per `unit`².
+    pub d2z_dp2: f64,
+    /// ∂Z/∂p × limit: how far this parameter alone moves Z at its limit, Ω (signed).
+    pub impact_ohm: f64,
+}
+
+/// The extremes over the corners of the tolerance box.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Corners {
+    /// Which corners: "all 2^n combinations" or "two corners from the sensitivity signs".
+    pub method: &'static str,
+    pub evaluated: usize,
+    pub failed: usize,
+    pub min_ohm: f64,
+    pub max_ohm: f64,
+    /// Both extremes inside the rule's window (and no corner failed).
+    pub all_inside: bool,
+}
+
+/// Percentiles of the sampled impedance, Ω.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct Percentiles {
+    pub p1: f64,
+    pub p5: f64,
+    pub p50: f64,
+    pub p95: f64,
+    pub p99: f64,
+}
+
+/// Equal-width bins from `lo_ohm` to `hi_ohm`.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Histogram {
+    pub lo_ohm: f64,
+    pub hi_ohm: f64,
+    pub counts: Vec<u32>,
+}
+
+/// Monte Carlo statistics of the controlled impedance.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct MonteCarlo {
+    pub samples: usize,
+    /// Samples the model refused (e.g. a dimension driven below zero); counted as outside the window.
+    pub failed: usize,
+    pub mean_ohm: f64,
+    pub sigma_ohm: f64,
+    pub min_ohm: f64,
+    pub max_ohm: f64,
+    pub percentiles: Percentiles,
+    pub histogram: Histogram,
+    /// Share of all samples inside the window, %.
+    pub yield_pct: f64,
+    /// Process capability index; `None` when σ = 0.
+    pub cpk: Option<f64>,
+}
+
+/// The tolerance-centred free dimension and what it gains.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Centred {
+    /// "width" or "spacing".
+    pub dimension: &'static str,
+    pub nominal_m: f64,
+    pub centred_m: f64,
+    pub nominal_yield_pct: f64,
+    pub centred_yield_pct: f64,
+    /// The nominal (unperturbed) impedance at the centred dimension, Ω.
+    pub centred_nominal_ohm: f64,
+    pub centred_mean_ohm: f64,
+}
+
+/// Everything the spread computes for one rule.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct SpreadSummary {
+    pub seed: u64,
+    /// What the corners and samples called.
+    pub model: SampleModel,
+    pub target_ohm: f64,
+    pub lower_ohm: f64,
+    pub upper_ohm: f64,
+    pub nominal_ohm: f64,
+    pub parameters: Vec<Parameter>,
+    /// Largest |impact| first.
+    pub sensitivities: Vec<Sensitivity>,
+    /// First-order propagated σ, Ω (GUM §5.1.2).
+    pub linear_sigma_ohm: f64,
+    /// Z0 + ½Σ ∂²Z/∂p²·σ², Ω.
+    pub second_order_mean_ohm: f64,
+    pub corners: Corners,
+    pub monte_carlo: MonteCarlo,
+    pub centred: Option<Centred>,
+    pub warnings: Vec<Warning>,
+}
+
+/// What the corners and the Monte Carlo samples call.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Default)]
+#[serde(rename_all = "snake_case")]
+pub enum SampleModel {
+    /// The impedance model itself on every sample (the reference; about 1.5 µs per closed-form call natively).
+    #[default]
+    Direct,
+    /// A quadratic response surface of the impedance model, fitted once per rule from 1 + 2n + 2n(n−1) model
+    /// calls at the ± limits (exact on the axes and at the pairwise corners); then tens of nanoseconds a sample.
+    /// This is the mode for recomputing on every keystroke.
+    Quadratic,
+}
+
+/// Options of one spread run.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct SpreadOptions {
+    pub samples: usize,
+    pub seed: u64,
+    /// Also find the tolerance-centred dimension (one more Monte Carlo run).
+    pub centre: bool,
+    pub model: SampleModel,
+}
+
+impl Default for SpreadOptions {
+    fn default() -> Self {
+        SpreadOptions {
+            samples: DEFAULT_SAMPLES,
+            seed: DEFAULT_SEED,
+            centre: true,
+            model: SampleModel::Direct,
+        }
+    }
+}
+
+/// A quadratic response surface Z(δ) = z0 + Σ aₖδₖ + Σ bₖδₖ² + Σ_{j<k} c_jk δⱼδₖ of the parameter deviations.
+///
+/// Fitted by central differences at ± each limit (aₖ, bₖ) and at the four pairwise corners (c_jk), so it
+/// reproduces the model exactly on every axis point and pairwise corner (cross terms only up to
+/// [`MAX_CROSS_PARAMS`] parameters). Any model can be fitted the same way,
+/// which is the intended shape for a field-solver response surface as well.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Quadratic {
+    z0: f64,
+    lin: Vec<f64>,
+    sq: Vec<f64>,
+    /// Upper triangle, row by row: (0,1), (0,2), …, (1,2), …
+    cross: Vec<f64>,
+}
+
+impl Quadratic {
+    /// Fits the surface to `z` over the parameters' ± limits.
+    pub fn fit(
+        params: &[Parameter],
+        z: &mut dyn FnMut(&[f64]) -> Result<f64>,
+    ) -> Result<Quadratic> {
+        let n = params.len();
+        let mut dev = vec![0.0; n];
+        let z0 = z(&dev)?;
+        let mut lin = Vec::with_capacity(n);
+        let mut sq = Vec::with_capacity(n);
+        for (k, p) in params.iter().enumerate() {
+            let l = p.limit;
+            dev[k] = l;
+            let zp = z(&dev)?;
+            dev[k] = -l;
+            let zm = z(&dev)?;
+            dev[k] = 0.0;
+            lin.push((zp - zm) / (2.0 * l));
+            sq.push((zp - 2.0 * z0 + zm) / (2.0 * l * l));
+        }
+        let mut cross = Vec::with_capacity(n * n.saturating_sub(1) / 2);
+        for a in 0..n {
+            for b in a + 1..n {
+                if n > MAX_CROSS_PARAMS {
+                    cross.push(0.0);
+                    continue;
+                }
+                let (la, lb) = (params[a].limit, params[b].limit);
+                let mut at = |sa: f64, sb: f64| {
+                    dev[a] = sa * la;
+                    dev[b] = sb * lb;
+                    let v = z(&dev);
+                    dev[a] = 0.0;
+                    dev[b] = 0.0;
+                    v
+                };
+                let (pp, pm, mp, mm) = (
+                    at(1.0, 1.0)?,
+                    at(1.0, -1.0)?,
+                    at(-1.0, 1.0)?,
+                    at(-1.0, -1.0)?,
+                );
+                cross.push((pp - pm - mp + mm) / (4.0 * la * lb));
+            }
+        }
+        Ok(Quadratic { z0, lin, sq, cross })
+    }
+
+    /// The surface at deviations `d`.
+    pub fn z(&self, d: &[f64]) -> f64 {
+        let n = self.lin.len().min(d.len());
+        let mut z = self.z0;
+        let mut c = 0;
+        for a in 0..n {
+            let da = d[a];
+            let mut row = self.lin[a] + self.sq[a] * da;
+            for &db in &d[a + 1..n] {
+                row += self.cross[c] * db;
+                c += 1;
+            }
+            z += row * da;
+        }
+        z
+    }
+}
+
+/// Which dimension tolerance centring moves.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Free {
+    Width,
+    Spacing,
+}
+
+impl Free {
+    fn name(self) -> &'static str {
+        match self {
+            Free::Width => "width",
+            Free::Spacing => "spacing",
+        }
+    }
+}
+
+/// A rule's cross-section resolved once, with the linear map from parameter deviations to every number the
+/// impedance model reads.
+#[derive(Debug, Clone)]
+pub struct Setup {
+    pub structure: Structure,
+    pub params: Vec<Parameter>,
+    pub target_ohm: f64,
+    pub lower_ohm: f64,
+    pub upper_ohm: f64,
+    pub free: Free,
+    base: CrossSection,
+    base_dims: Dims,
+    /// Numbers of the medium, then t, w, s, gap.
+    slot0: Vec<f64>,
+    /// `params.len()` rows of `slot0.len()` entries: ∂slot/∂parameter.
+    jac: Vec<f64>,
+    /// Second-order terms of the Dk slots: (slot, parameter a, parameter b, coefficient of δa·δb).
+    quad: Vec<(usize, usize, usize, f64)>,
+    etch_tolerance: Tolerance,
+}
+
+fn medium_slots(m: &Medium, out: &mut Vec<f64>) {
+    match *m {
+        Medium::Microstrip { h, er, cover } => {
+            out.extend([h, er]);
+            match cover {
+                Cover::Air => {}
+                Cover::Mask { thickness_m, er } | Cover::Dielectric { thickness_m, er } => {
+                    out.extend([thickness_m, er])
+                }
+            }
+        }
+        Medium::NoPlane { h, er } => out.extend([h, er]),
+        Medium::Stripline {
+            h_below,
+            h_above,
+            er,
+            ..
+        } => out.extend([h_below, h_above, er]),
+        Medium::Broadside {
+            h_above,
+            separation,
+            h_below,
+            er,
+        } => out.extend([h_above, separation, h_below, er]),
+    }
+}
+
+fn set_medium_slots(m: &mut Medium, v: &[f64]) {
+    match m {
+        Medium::Microstrip { h, er, cover } => {
+            *h = v[0];
+            *er = v[1];
+            match cover {
+                Cover::Air => {}
+                Cover::Mask { thickness_m, er } | Cover::Dielectric { thickness_m, er } => {
+                    *thickness_m = v[2];
+                    *er = v[3];
+                }
+            }
+        }
+        Medium::NoPlane { h, er } => {
+            *h = v[0];
+            *er = v[1];
+        }
+        Medium::Stripline {
+            h_below,
+            h_above,
+            er,
+            ..
+        } => {
+            *h_below = v[0];
+            *h_above = v[1];
+            *er = v[2];
+        }
+        Medium::Broadside {
+            h_above,
+            separation,
+            h_below,
+            er,
+        } => {
+            *h_above = v[0];
+            *separation = v[1];
+            *h_below = v[2];
+            *er = v[3];
+        }
+    }
+}
+
+/// Indices of the Dk numbers among the medium's slots (the only ones not linear in the layer values).
+fn dk_slots(m: &Medium) -> &'static [usize] {
+    match m {
+        Medium::Microstrip {
+            cover: Cover::Air, ..
+        }
+        | Medium::NoPlane { .. } => &[1],
+        Medium::Microstrip { .. } => &[1, 3],
+        Medium::Stripline { .. } => &[2],
+        Medium::Broadside { .. } => &[3],
+    }
+}
+
+fn slots_of(cs: &CrossSection, dims: &Dims) -> Vec<f64> {
+    let mut v = Vec::with_capacity(8);
+    medium_slots(&cs.medium, &mut v);
+    v.extend([cs.t, dims.w, dims.s.unwrap_or(0.0), dims.gap.unwrap_or(0.0)]);
+    v
+}
+
+/// A normal sample reaches about 4σ in 10⁴ draws; require the quantity to stay above `floor` at 1.5 × its limit.
+fn check_limit(field: &str, what: &str, nominal: f64, limit: f64, floor: f64) -> Result<()> {
+    if nominal - 1.5 * limit <= floor {
+        return Err(Error::Invalid {
+            field: field.to_string(),
+            reason: format!(
+                "±{} on the {what} (nominal {}) is too wide: 1.5 × the limit would take it to {floor} or below",
+                format_sig(limit, 3),
+                format_sig(nominal, 4)
+            ),
+        });
+    }
+    Ok(())
+}
+
+fn knob(layer: &mut Layer, dk: bool) -> Option<&mut f64> {
+    match (layer, dk) {
+        (Layer::Copper(c), false) => Some(&mut c.thickness_m),
+        (Layer::Core(d) | Layer::Prepreg(d) | Layer::SolderMask(d), false) => {
+            Some(&mut d.thickness_m)
+        }
+        (Layer::Core(d) | Layer::Prepreg(d) | Layer::SolderMask(d), true) => Some(&mut d.dk),
+        (Layer::Copper(_), true) => None,
+    }
+}
+
+/// The slots resolved with the given layer values changed (then restored).
+fn resolve_with(
+    scratch: &mut Stackup,
+    rule: &ImpedanceRule,
+    changes: &[(usize, bool, f64)],
+    family: &str,
+) -> Result<Vec<f64>> {
+    let mut saved = Vec::with_capacity(changes.len());
+    for &(idx, dk, delta) in changes {
+        if let Some(v) = knob(&mut scratch.layers[idx], dk) {
+            saved.push(*v);
+            *v += delta;
+        }
+    }
+    let out = section::resolve(scratch, rule).and_then(|cs| {
+        if !same_structure(cs.family(), family) {
+            return Err(Error::Invalid {
+                field: "process".into(),
+                reason: format!(
+                    "varying the layers changes the structure from {family} to {}",
+                    cs.family()
+                ),
+            });
+        }
+        let dims = Dims {
+            w: 0.0,
+            s: None,
+            gap: None,
+        };
+        Ok(slots_of(&cs, &dims))
+    });
+    for (&(idx, dk, _), v0) in changes.iter().zip(saved) {
+        if let Some(v) = knob(&mut scratch.layers[idx], dk) {
+            *v = v0;
+        }
+    }
+    out
+}
+
+/// ∂(medium numbers, t)/∂(layer value) by resolving at ± `limit`; `None` when the layer does not touch the rule.
+fn layer_row(
+    scratch: &mut Stackup,
+    rule: &ImpedanceRule,
+    idx: usize,
+    dk: bool,
+    limit: f64,
+    family: &str,
+    n_slots: usize,
+) -> Result<Option<Vec<f64>>> {
+    let Some(nominal) = knob(&mut scratch.layers[idx], dk).map(|v| *v) else {
+        return Ok(None);
+    };
+    let mut at = |value: f64| -> Result<Vec<f64>> {
+        if let Some(v) = knob(&mut scratch.layers[idx], dk) {
+            *v = value;
+        }
+        let cs = section::resolve(scratch, rule)?;
+        if !same_structure(cs.family(), family) {
+            return Err(Error::Invalid {
+                field: "process".into(),
+                reason: format!(
+                    "varying {} changes the structure from {family} to {}",
+                    scratch.layers[idx].name(),
+                    cs.family()
+                ),
+            });
+        }
+        let dims = Dims {
+            w: 0.0,
+            s: None,
+            gap: None,
+        };
+        Ok(slots_of(&cs, &dims))
+    };
+    let plus = at(nominal + limit);
+    let minus = at(nominal - limit);
+    if let Some(v) = knob(&mut scratch.layers[idx], dk) {
+        *v = nominal;
+    }
+    let (plus, minus) = (plus?, minus?);
+    if plus == minus {
+        return Ok(None);
+    }
+    let mut row: Vec<f64> = plus
+        .iter()
+        .zip(&minus)
+        .map(|(p, m)| (p - m) / (2.0 * limit))
+        .collect();
+    row.resize(n_slots, 0.0);
+    // The dims slots (w, s, gap) do not depend on the stack.
+    let n = row.len();
+    for r in &mut row[n - 3..] {
+        *r = 0.0;
+    }
+    Ok(Some(row))
+}
+
+impl Setup {
+    /// Resolves the parameters of `rule` (already analysed into `cs` and `dims`) under the project's process.
+    pub fn new(
+        project: &Project,
+        rule: &ImpedanceRule,
+        cs: &CrossSection,
+        dims: &Dims,
+    ) -> Result<Setup> {
+        let process = project.process.clone().unwrap_or_default();
+        process.validate(&project.stackup)?;
+        let slot0 = slots_of(cs, dims);
+        let ns = slot0.len();
+        let nm = ns - 4;
+        let mut params = Vec::new();
+        let mut jac = Vec::new();
+        let dims_row = |dw: f64| {
+            let mut row = vec![0.0; ns];
+            row[nm + 1] = dw;
+            if dims.s.is_some() {
+                row[nm + 2] = -dw;
+            }
+            if dims.gap.is_some() {
+                row[nm + 3] = -dw;
+            }
+            row
+        };
+        let etch = process.etch_width.limit(dims.w);
+        check_limit(
+            "process.etch_width",
+            "etched trace width",
+            dims.w,
+            etch,
+            0.0,
+        )?;
+        if let Some(s) = dims.s {
+            check_limit("process.etch_width", "pair spacing", s, etch, 0.0)?;
+        }
+        if let Some(g) = dims.gap {
+            check_limit("process.etch_width", "gap to ground", g, etch, 0.0)?;
+        }
+        if etch > 0.0 {
+            params.push(Parameter {
+                name: "etched trace width".into(),
+                varies: Varied::EtchWidth,
+                unit: "m",
+                nominal: dims.w,
+                limit: etch,
+                distribution: process.etch_width.distribution,
+            });
+            jac.extend(dims_row(1.0));
+        }
+        if let Some(ef) = project.fab.etch_factor {
+            let limit = process.etch_factor.limit(ef);
+            check_limit("process.etch_factor", "etch factor", ef, limit, 0.0)?;
+            if limit > 0.0 && cs.t > 0.0 {
+                params.push(Parameter {
+                    name: "etch factor".into(),
+                    varies: Varied::EtchFactor,
+                    unit: "",
+                    nominal: ef,
+                    limit,
+                    distribution: process.etch_factor.distribution,
+                });
+                // d(w − t/EF)/dEF = t/EF².
+                jac.extend(dims_row(cs.t / (ef * ef)));
+            }
+        }
+        let family = cs.family();
+        let stackup = &project.stackup;
+        let mut scratch = stackup.clone();
+        for idx in 0..stackup.layers.len() {
+            let layer = &stackup.layers[idx];
+            let (tol, field) = process.thickness_of(stackup, idx);
+            let nominal = layer.thickness_m();
+            let limit = tol.limit(nominal);
+            if limit > 0.0 && nominal > 0.0 {
+                if let Some(row) = layer_row(&mut scratch, rule, idx, false, limit, family, ns)? {
+                    let what = format!("thickness of {} ({})", layer.name(), layer.kind_name());
+                    check_limit(&field, &what, nominal, limit, 0.0)?;
+                    params.push(Parameter {
+                        name: what,
+                        varies: Varied::Thickness(idx),
+                        unit: "m",
+                        nominal,
+                        limit,
+                        distribution: tol.distribution,
+                    });
+                    jac.extend(row);
+                }
+            }
+            if let (Some((tol, field)), Some(d)) = (process.dk_of(stackup, idx), layer.dielectric())
+            {
+                let limit = tol.limit(d.dk);
+                if limit > 0.0 {
+                    if let Some(row) = layer_row(&mut scratch, rule, idx, true, limit, family, ns)?
+                    {
+                        let what = format!("Dk of {} ({})", layer.name(), layer.kind_name());
+                        check_limit(&field, &what, d.dk, limit, 1.0)?;
+                        params.push(Parameter {
+                            name: what,
+                            varies: Varied::Dk(idx),
+                            unit: "",
+                            nominal: d.dk,
+                            limit,
+                            distribution: tol.distribution,
+                        });
+                        jac.extend(row);
+                    }
+                }
+            }
+        }
+        // A mixed-dielectric Dk is a series combination of layer heights and Dk: keep its second-order terms
+        // (curvature and height × Dk cross terms) from mixed differences of the resolve, so samples far out in
+        // the tails still see the Dk a full re-resolve would give.
+        let mut quad = Vec::new();
+        let knobs: Vec<Option<(usize, bool)>> = params
+            .iter()
+            .map(|p| match p.varies {
+                Varied::Thickness(i) => Some((i, false)),
+                Varied::Dk(i) => Some((i, true)),
+                _ => None,
+            })
+            .collect();
+        let dks = dk_slots(&cs.medium);
+        let touches = |k: usize| dks.iter().any(|&j| jac[k * ns + j] != 0.0);
+        let nominal = resolve_with(&mut scratch, rule, &[], family)?;
+        for a in 0..params.len() {
+            let Some((ia, da)) = knobs[a] else { continue };
+            if !touches(a) {
+                continue;
+            }
+            let la = params[a].limit;
+            let last = if params.len() <= MAX_CROSS_PARAMS {
+                params.len()
+            } else {
+                a + 1
+            };
+            for b in a..last {
+                let Some((ib, db)) = knobs[b] else { continue };
+                if !touches(b) {
+                    continue;
+                }
+                let lb = params[b].limit;
+                let coef: Vec<f64> = if a == b {
+                    let p = resolve_with(&mut scratch, rule, &[(ia, da, la)], family)?;
+                    let m = resolve_with(&mut scratch, rule, &[(ia, da, -la)], family)?;
+                    (0..p.len())
+                        .map(|j| 0.5 * (p[j] - 2.0 * nominal[j] + m[j]) / (la * la))
+                        .collect()
+                } else {
+                    let mut at = |sa: f64, sb: f64| {
+                        resolve_with(
+                            &mut scratch,
+                            rule,
+                            &[(ia, da, sa * la), (ib, db, sb * lb)],
+                            family,
+                        )
+                    };
+                    let (pp, pm, mp, mm) = (
+                        at(1.0, 1.0)?,
+                        at(1.0, -1.0)?,
+                        at(-1.0, 1.0)?,
+                        at(-1.0, -1.0)?,
+                    );
+                    (0..pp.len())
+                        .map(|j| (pp[j] - pm[j] - mp[j] + mm[j]) / (4.0 * la * lb))
+                        .collect()
+                };
+                for &j in dks {
+                    if coef[j] != 0.0 && coef[j].is_finite() {
+                        quad.push((j, a, b, coef[j]));
+                    }
+                }
+            }
+        }
+        let tol = rule.tolerance_pct / 100.0 * rule.target_ohm;
+        Ok(Setup {
+            structure: rule.structure,
+            params,
+            target_ohm: rule.target_ohm,
+            lower_ohm: rule.target_ohm - tol,
+            upper_ohm: rule.target_ohm + tol,
+            free: if rule.solve == Solve::Spacing {
+                Free::Spacing
+            } else {
+                Free::Width
+            },
+            base: CrossSection {
+                warnings: Vec::new(),
+                ..cs.clone()
+            },
+            base_dims: *dims,
+            slot0,
+            jac,
+            quad,
+            etch_tolerance: process.etch_width,
+        })
+    }
+
+    /// The free dimension's nominal value, m.
+    pub fn free_value(&self) -> f64 {
+        match self.free {
+            Free::Width => self.base_dims.w,
+            Free::Spacing => self.base_dims.s.unwrap_or(0.0),
+        }
+    }
+
+    /// The same setup with the free dimension at `x` (the etch limit follows the width when given in %).
+    pub fn with_free(&self, x: f64) -> Setup {
+        let mut s = self.clone();
+        let nm = s.slot0.len() - 4;
+        match s.free {
+            Free::Width => {
+                s.slot0[nm + 1] = x;
+                s.base_dims.w = x;
+                let limit = s.etch_tolerance.limit(x);
+                for p in &mut s.params {
+                    if p.varies == Varied::EtchWidth {
+                        p.nominal = x;
+                        p.limit = limit;
+                    }
+                }
+            }
+            Free::Spacing => {
+                s.slot0[nm + 2] = x;
+                s.base_dims.s = Some(x);
+            }
+        }
+        s
+    }
+
+    /// The perturbed cross-section and dimensions for `deviations` (what the evaluator hands the model).
+    pub fn cross_section_at(&self, deviations: &[f64]) -> (CrossSection, Dims) {
+        let mut ev = self.evaluator(&ClosedForm);
+        let dims = ev.apply(deviations);
+        (ev.cs, dims)
+    }
+
+    /// A per-sample evaluator over `model`.
+    pub fn evaluator<'a>(&'a self, model: &'a dyn ImpedanceModel) -> Evaluator<'a> {
+        Evaluator {
+            setup: self,
+            model,
+            cs: self.base.clone(),
+            slots: self.slot0.clone(),
+        }
+    }
+}
+
+/// Evaluates the impedance for a vector of parameter deviations (in each parameter's unit, same order as
+/// [`Setup::params`]), reusing one scratch cross-section: no allocation per sample beyond what the model does.
+pub struct Evaluator<'a> {
+    setup: &'a Setup,
+    model: &'a dyn ImpedanceModel,
+    cs: CrossSection,
+    slots: Vec<f64>,
+}
+
+impl Evaluator<'_> {
+    /// Z for the parameter deviations.
+    pub fn z(&mut self, deviations: &[f64]) -> Result<f64> {
+        let dims = self.apply(deviations);
+        self.model.impedance(&self.cs, self.setup.structure, &dims)
+    }
+
+    fn apply(&mut self, deviations: &[f64]) -> Dims {
+        let s = self.setup;
+        let ns = s.slot0.len();
+        self.slots.copy_from_slice(&s.slot0);
+        for (k, &d) in deviations.iter().enumerate().take(s.params.len()) {
+            if d != 0.0 {
+                let row = &s.jac[k * ns..(k + 1) * ns];
+                for (v, j) in self.slots.iter_mut().zip(row) {
+                    *v += j * d;
+                }
+            }
+        }
+        for &(j, a, b, c) in &s.quad {
+            if let (Some(da), Some(db)) = (deviations.get(a), deviations.get(b)) {
+                self.slots[j] += c * da * db;
+            }
+        }
+        let nm = ns - 4;
+        set_medium_slots(&mut self.cs.medium, &self.slots);
+        self.cs.t = self.slots[nm];
+        Dims {
+            w: self.slots[nm + 1],
+            s: s.base_dims.s.map(|_| self.slots[nm + 2]),
+            gap: s.base_dims.gap.map(|_| self.slots[nm + 3]),
+        }
+    }
+}
+
+/// Sensitivities by central differences (step: a tenth of each limit), in parameter order, and Z at nominal.
+pub fn sensitivities(
+    params: &[Parameter],
+    z: &mut dyn FnMut(&[f64]) -> Result<f64>,
+) -> Result<(f64, Vec<Sensitivity>)> {
+    let mut dev = vec![0.0; params.len()];
+    let z0 = z(&dev)?;
+    let mut out = Vec::with_capacity(params.len());
+    for (k, p) in params.iter().enumerate() {
+        let h = 0.1 * p.limit;
+        dev[k] = h;
+        let zp = z(&dev)?;
+        dev[k] = -h;
+        let zm = z(&dev)?;
+        dev[k] = 0.0;
+        let dz = (zp - zm) / (2.0 * h);
+        out.push(Sensitivity {
+            parameter: p.name.clone(),
+            unit: p.unit,
+            dz_dp: dz,
+            d2z_dp2: (zp - 2.0 * z0 + zm) / (h * h),
+            impact_ohm: dz * p.limit,
+        });
+    }
+    Ok((z0, out))
+}
+
+/// The extremes over the corners of the ± limits (see the module doc for which corners).
+pub fn corners(
+    params: &[Parameter],
+    sens: &[Sensitivity],
+    lower: f64,
+    upper: f64,
+    z: &mut dyn FnMut(&[f64]) -> Result<f64>,
+) -> Corners {
+    let n = params.len();
+    let mut dev = vec![0.0; n];
+    let (mut lo, mut hi) = (f64::INFINITY, f64::NEG_INFINITY);
+    let mut failed = 0;
+    let mut visit = |dev: &[f64], lo: &mut f64, hi: &mut f64| match z(dev) {
+        Ok(v) if v.is_finite() => {
+            *lo = lo.min(v);
+            *hi = hi.max(v);
+        }
+        _ => failed += 1,
+    };
+    let (method, evaluated) = if n <= MAX_FULL_CORNERS {
+        for mask in 0..(1usize << n) {
+            for (k, p) in params.iter().enumerate() {
+                dev[k] = if mask >> k & 1 == 1 {
+                    p.limit
+                } else {
+                    -p.limit
+                };
+            }
+            visit(&dev, &mut lo, &mut hi);
+        }
+        ("all 2^n combinations", 1usize << n)
+    } else {
+        for sign in [1.0, -1.0] {
+            for (k, p) in params.iter().enumerate() {
+                let s = if sens[k].dz_dp >= 0.0 { 1.0 } else { -1.0 };
+                dev[k] = sign * s * p.limit;
+            }
+            visit(&dev, &mut lo, &mut hi);
+        }
+        ("two corners from the sensitivity signs", 2)
+    };
+    if lo > hi {
+        (lo, hi) = (f64::NAN, f64::NAN);
+    }
+    Corners {
+        method,
+        evaluated,
+        failed,
+        min_ohm: lo,
+        max_ohm: hi,
+        all_inside: failed == 0 && lo >= lower && hi <= upper,
+    }
+}
+
+/// Percentile `q` (0–100) of sorted values by linear interpolation between order statistics.
+pub fn percentile(sorted: &[f64], q: f64) -> f64 {
+    if sorted.is_empty() {
+        return f64::NAN;
+    }
+    let pos = (q / 100.0).clamp(0.0, 1.0) * (sorted.len() - 1) as f64;
+    let i = pos.floor() as usize;
+    let f = pos - i as f64;
+    match sorted.get(i + 1) {
+        Some(next) => sorted[i] + f * (next - sorted[i]),
+        None => sorted[i],
+    }
+}
+
+/// The seeded standard deviates of a run: `samples` rows of one value per parameter, N(0, 1) for normal and
+/// U(−1, 1) for uniform parameters (scaled by each limit when used). Drawn once so that a second run (tolerance
+/// centring) reuses the very same deviates.
+pub fn standard_draws(params: &[Parameter], samples: usize, seed: u64) -> Result<Vec<f64>> {
+    crate::base::error::in_range(
+        "samples",
+        samples as f64,
+        MIN_SAMPLES as f64,
+        MAX_SAMPLES as f64,
+        "",
+    )?;
+    let mut rng = Rng::new(seed);
+    let mut out = Vec::with_capacity(samples * params.len());
+    for _ in 0..samples {
+        for p in params {
+            out.push(match p.distribution {
+                Distribution::Normal => rng.normal(),
+                Distribution::Uniform => rng.symmetric(),
+            });
+        }
+    }
+    Ok(out)
+}
+
+/// Seeded Monte Carlo of `samples` draws. Returns the statistics and the sorted successful values.
+pub fn monte_carlo(
+    params: &[Parameter],
+    samples: usize,
+    seed: u64,
+    lower: f64,
+    upper: f64,
+    z: &mut dyn FnMut(&[f64]) -> Result<f64>,
+) -> Result<(MonteCarlo, Vec<f64>)> {
+    let draws = standard_draws(params, samples, seed)?;
+    monte_carlo_on(params, &draws, lower, upper, z)
+}
+
+/// Monte Carlo over deviates from [`standard_draws`].
+pub fn monte_carlo_on(
+    params: &[Parameter],
+    draws: &[f64],
+    lower: f64,
+    upper: f64,
+    z: &mut dyn FnMut(&[f64]) -> Result<f64>,
+) -> Result<(MonteCarlo, Vec<f64>)> {
+    let n = params.len().max(1);
+    let samples = if params.is_empty() {
+        draws.len()
+    } else {
+        draws.len() / n
+    };
+    let scale: Vec<f64> = params
+        .iter()
+        .map(|p| match p.distribution {
+            Distribution::Normal => p.limit / 3.0,
+            Distribution::Uniform => p.limit,
+        })
+        .collect();
+    let mut dev = vec![0.0; params.len()];
+    let mut values = Vec::with_capacity(samples);
+    let mut first_error = None;
+    for row in draws.chunks_exact(n).take(samples) {
+        for ((d, s), r) in dev.iter_mut().zip(&scale).zip(row) {
+            *d = s * r;
+        }
+        match z(&dev) {
+            Ok(v) if v.is_finite() => values.push(v),
+            Ok(_) => {}
+            Err(e) => {
+                first_error.get_or_insert(e);
+            }
+        }
+    }
+    let ok = values.len();
+    if ok < 2 {
+        return Err(Error::Invalid {
+            field: "process".into(),
+            reason: format!(
+                "almost every Monte Carlo sample failed ({})",
+                first_error.map(|e| e.to_string()).unwrap_or_default()
+            ),
+        });
+    }
+    let mean = values.iter().sum::<f64>() / ok as f64;
+    let var = values.iter().map(|v| (v - mean).powi(2)).sum::<f64>() / (ok - 1) as f64;
+    let sigma = var.sqrt();
+    let inside = values.iter().filter(|&&v| v >= lower && v <= upper).count();
+    values.sort_unstable_by(f64::total_cmp);
+    let (min, max) = (values[0], values[ok - 1]);
+    let mut counts = vec![0u32; HISTOGRAM_BINS];
+    let span = max - min;
+    for &v in &values {
+        let b = if span > 0.0 {
+            (((v - min) / span) * HISTOGRAM_BINS as f64) as usize
+        } else {
+            0
+        };
+        counts[b.min(HISTOGRAM_BINS - 1)] += 1;
+    }
+    let cpk = (sigma > 0.0).then(|| (upper - mean).min(mean - lower) / (3.0 * sigma));
+    let p = |q| percentile(&values, q);
+    let mc = MonteCarlo {
+        samples,
+        failed: samples - ok,
+        mean_ohm: mean,
+        sigma_ohm: sigma,
+        min_ohm: min,
+        max_ohm: max,
+        percentiles: Percentiles {
+            p1: p(1.0),
+            p5: p(5.0),
+            p50: p(50.0),
+            p95: p(95.0),
+            p99: p(99.0),
+        },
+        histogram: Histogram {
+            lo_ohm: min,
+            hi_ohm: max,
+            counts,
+        },
+        yield_pct: 100.0 * inside as f64 / samples as f64,
+        cpk,
+    };
+    Ok((mc, values))
+}
+
+/// Mean and yield (% of all samples inside `[lower, upper]`) over deviates from [`standard_draws`]: the cheap
+/// part of [`monte_carlo_on`], for the centring re-run (no sort, no histogram).
+pub fn mean_and_yield_on(
+    params: &[Parameter],
+    draws: &[f64],
+    lower: f64,
+    upper: f64,
+    z: &mut dyn FnMut(&[f64]) -> Result<f64>,
+) -> (f64, f64) {
+    let n = params.len().max(1);
+    let scale: Vec<f64> = params
+        .iter()
+        .map(|p| match p.distribution {
+            Distribution::Normal => p.limit / 3.0,
+            Distribution::Uniform => p.limit,
+        })
+        .collect();
+    let mut dev = vec![0.0; params.len()];
+    let (mut sum, mut ok, mut inside, mut total) = (0.0, 0usize, 0usize, 0usize);
+    for row in draws.chunks_exact(n) {
+        total += 1;
+        for ((d, s), r) in dev.iter_mut().zip(&scale).zip(row) {
+            *d = s * r;
+        }
+        if let Ok(v) = z(&dev) {
+            if v.is_finite() {
+                sum += v;
+                ok += 1;
+                if v >= lower && v <= upper {
+                    inside += 1;
+                }
+            }
+        }
+    }
+    (
+        if ok > 0 { sum / ok as f64 } else { f64::NAN },
+        100.0 * inside as f64 / total.max(1) as f64,
+    )
+}
+
+/// The shift of the nominal impedance that puts the most sorted samples inside `[lower, upper]` (see the module
+/// doc); the midpoint of the best position, the smallest shift on ties.
+pub fn best_shift(sorted: &[f64], lower: f64, upper: f64) -> f64 {
+    let width = upper - lower;
+    let n = sorted.len();
+    let (mut best_count, mut best_abs, mut best) = (0usize, f64::INFINITY, 0.0);
+    let mut j = 0;
+    for i in 0..n {
+        j = j.max(i);
+        while j + 1 < n && sorted[j + 1] <= sorted[i] + width {
+            j += 1;
+        }
+        let count = j - i + 1;
+        let a_lo = (sorted[j] - width).max(if i > 0 { sorted[i - 1] } else { f64::MIN });
+        let a_hi = sorted[i].min(if j + 1 < n {
+            sorted[j + 1] - width
+        } else {
+            f64::MAX
+        });
+        if a_lo > a_hi {
+            continue;
+        }
+        let d = lower - 0.5 * (a_lo + a_hi);
+        if count > best_count || (count == best_count && d.abs() < best_abs) {
+            (best_count, best_abs, best) = (count, d.abs(), d);
+        }
+    }
+    best
+}
+
+/// An independent stream per rule: the seed mixed with the rule's name (FNV-1a), so reordering rules does not
+/// change any rule's samples.
+pub fn rule_seed(seed: u64, name: &str) -> u64 {
+    let mut h: u64 = 0xcbf2_9ce4_8422_2325;
+    for b in name.bytes() {
+        h ^= u64::from(b);
+        h = h.wrapping_mul(0x0000_0100_0000_01b3);
+    }
+    let mut s = seed ^ h;
+    rng::splitmix64(&mut s)
+}
+
+/// True when two cross-section families are the same structure for the spread. Symmetric and offset stripline are
+/// one model (the stripline module blends them continuously at the 1e-3 threshold), so a centred trace whose
+/// heights move apart under a thickness tolerance stays the same structure.
+fn same_structure(a: &str, b: &str) -> bool {
+    let stripline = |f: &str| f == "symmetric stripline" || f == "offset stripline";
+    a == b || (stripline(a) && stripline(b))
+}
+
+/// Runs the whole spread for an analysed rule with the closed-form models.
+pub fn run(
+    project: &Project,
+    rule: &ImpedanceRule,
+    result: &RuleResult,
+    opts: &SpreadOptions,
+) -> Result<SpreadSummary> {
+    run_with_model(project, rule, result, opts, &ClosedForm)
+}
+
+/// The closed form times a constant: calibrated to the field solver at a rule's nominal line, so the spread of a
+/// field-solver rule keeps the closed form's sensitivities around the field solver's nominal impedance.
+#[derive(Debug, Clone, Copy)]
+pub struct ScaledClosedForm {
+    pub factor: f64,
+}
+
+impl ImpedanceModel for ScaledClosedForm {
+    fn impedance(&self, cs: &CrossSection, structure: Structure, dims: &Dims) -> Result<f64> {
+        ClosedForm
+            .impedance(cs, structure, dims)
+            .map(|z| self.factor * z)
+    }
+}
+
+/// The model a planned rule's spread samples: the closed form (factor 1) for a closed-form rule; for a
+/// field-solver rule the closed form scaled to the field solver's nominal.
+pub fn result_model(rule: &ImpedanceRule, result: &RuleResult) -> Result<ScaledClosedForm> {
+    if rule.model == crate::design::project::RuleModel::ClosedForm {
+        return Ok(ScaledClosedForm { factor: 1.0 });
+    }
+    let dims = Dims {
+        w: result.width_m,
+        s: result.spacing_m,
+        gap: result.gap_m,
+    };
+    let closed = ClosedForm.impedance(&result.cross_section, rule.structure, &dims)?;
+    Ok(ScaledClosedForm {
+        factor: result.impedance_ohm / closed,
+    })
+}
+
+/// The spread of a planned rule with [`result_model`] (a note says when it is scaled).
+pub fn run_for_result(
+    project: &Project,
+    rule: &ImpedanceRule,
+    result: &RuleResult,
+    opts: &SpreadOptions,
+) -> Result<SpreadSummary> {
+    let model = result_model(rule, result)?;
+    let mut s = run_with_model(project, rule, result, opts, &model)?;
+    if rule.model != crate::design::project::RuleModel::ClosedForm {
+        s.warnings.push(Warning::new(format!(
+            "spread from the closed form's sensitivities, scaled by {} to the field solver's nominal",
+            format_sig(model.factor, 4)
+        )));
+    }
+    Ok(s)
+}
+
+/// Analyses `rule` (synthesis included) and runs its spread.
+pub fn run_rule(
+    project: &Project,
+    rule: &ImpedanceRule,
+    opts: &SpreadOptions,
+) -> Result<SpreadSummary> {
+    let result = crate::plan::evaluate_rule(project, rule)?;
+    run_for_result(project, rule, &result, opts)
+}
+
+/// Runs the whole spread with any impedance model (the hook for a field-solver response surface).
+pub fn run_with_model(
+    project: &Project,
+    rule: &ImpedanceRule,
+    result: &RuleResult,
+    opts: &SpreadOptions,
+    model: &dyn ImpedanceModel,
+) -> Result<SpreadSummary> {
+    let dims = Dims {
+        w: result.width_m,
+        s: result.spacing_m,
+        gap: result.gap_m,
+    };
+    let setup = Setup::new(project, rule, &result.cross_section, &dims)?;
+    if setup.params.is_empty() {
+        return Err(Error::Invalid {
+            field: "process".into(),
+            reason: "no process tolerance varies this rule (every limit that touches it is zero)"
+                .into(),
+        });
+    }
+    let seed = rule_seed(opts.seed, &rule.name);
+    let (lower, upper) = (setup.lower_ohm, setup.upper_ohm);
+    let mut ev = setup.evaluator(model);
+    let mut direct = |d: &[f64]| ev.z(d);
+    let (z0, sens) = sensitivities(&setup.params, &mut direct)?;
+    let surface = match opts.model {
+        SampleModel::Direct => None,
+        SampleModel::Quadratic => Some(Quadratic::fit(&setup.params, &mut direct)?),
+    };
+    let mut f = |d: &[f64]| match &surface {
+        Some(q) => Ok(q.z(d)),
+        None => direct(d),
+    };
+    let corners = corners(&setup.params, &sens, lower, upper, &mut f);
+    let draws = standard_draws(&setup.params, opts.samples, seed)?;
+    let (mc, sorted) = monte_carlo_on(&setup.params, &draws, lower, upper, &mut f)?;
+    let linear_sigma = sens
+        .iter()
+        .zip(&setup.params)
+        .map(|(s, p)| (s.dz_dp * p.sigma()).powi(2))
+        .sum::<f64>()
+        .sqrt();
+    let second_order_mean = z0
+        + 0.5
+            * sens
+                .iter()
+                .zip(&setup.params)
+                .map(|(s, p)| s.d2z_dp2 * p.sigma().powi(2))
+                .sum::<f64>();
+    let mut warnings = Vec::new();
+    if mc.failed > 0 {
+        warnings.push(Warning::new(format!(
+            "{} of {} samples could not be evaluated and count as out of tolerance",
+            mc.failed, mc.samples
+        )));
+    }
+    let centred = if opts.centre {
+        match centre(project, &setup, model, &sorted, z0, &mc, opts, &draws) {
+            Ok(c) => Some(c),
+            Err(e) => {
+                warnings.push(Warning::new(format!("tolerance centring: {e}")));
+                None
+            }
+        }
+    } else {
+        None
+    };
+    let mut sorted_sens = sens;
+    sorted_sens.sort_by(|a, b| b.impact_ohm.abs().total_cmp(&a.impact_ohm.abs()));
+    Ok(SpreadSummary {
+        seed: opts.seed,
+        model: opts.model,
+        target_ohm: setup.target_ohm,
+        lower_ohm: lower,
+        upper_ohm: upper,
+        nominal_ohm: z0,
+        parameters: setup.params.clone(),
+        sensitivities: sorted_sens,
+        linear_sigma_ohm: linear_sigma,
+        second_order_mean_ohm: second_order_mean,
+        corners,
+        monte_carlo: mc,
+        centred,
+        warnings,
+    })
+}
+
+#[allow(clippy::too_many_arguments)]
+fn centre(
+    project: &Project,
+    setup: &Setup,
+    model: &dyn ImpedanceModel,
+    sorted: &[f64],
+    z0: f64,
+    mc: &MonteCarlo,
+    opts: &SpreadOptions,
+    draws: &[f64],
+) -> Result<Centred> {
+    let x0 = setup.free_value();
+    let keep = || Centred {
+        dimension: setup.free.name(),
+        nominal_m: x0,
+        centred_m: x0,
+        nominal_yield_pct: mc.yield_pct,
+        centred_yield_pct: mc.yield_pct,
+        centred_nominal_ohm: z0,
+        centred_mean_ohm: mc.mean_ohm,
+    };
+    let shift = best_shift(sorted, setup.lower_ohm, setup.upper_ohm);
+    if shift.abs() <= 1e-9 * setup.target_ohm {
+        return Ok(keep());
+    }
+    let (lo, lo_reason) = match setup.free {
+        Free::Width => (
+            project.fab.min_trace_m,
+            "the fabricator's minimum trace width",
+        ),
+        Free::Spacing => (project.fab.min_space_m, "the fabricator's minimum space"),
+    };
+    let hi = (100.0 * setup.base.scale_height()).min(MAX_LENGTH_M);
+    let bracket = Bracket {
+        lo,
+        hi,
+        lo_reason,
+        hi_reason: "the widest dimension searched",
+    };
+    let zero = vec![0.0; setup.params.len()];
+    let x = roots::solve(setup.free.name(), z0 + shift, &bracket, |x| {
+        let s = setup.with_free(x);
+        let mut ev = s.evaluator(model);
+        ev.z(&zero)
+    })?;
+    let moved = setup.with_free(x);
+    let mut ev = moved.evaluator(model);
+    let mut direct = |d: &[f64]| ev.z(d);
+    let surface = match opts.model {
+        SampleModel::Direct => None,
+        SampleModel::Quadratic => Some(Quadratic::fit(&moved.params, &mut direct)?),
+    };
+    let mut f = |d: &[f64]| match &surface {
+        Some(q) => Ok(q.z(d)),
+        None => direct(d),
+    };
+    let (mean_c, yield_c) = mean_and_yield_on(
+        &moved.params,
+        draws,
+        moved.lower_ohm,
+        moved.upper_ohm,
+        &mut f,
+    );
+    if yield_c < mc.yield_pct {
+        return Ok(keep());
+    }
+    Ok(Centred {
+        dimension: setup.free.name(),
+        nominal_m: x0,
+        centred_m: x,
+        nominal_yield_pct: mc.yield_pct,
+        centred_yield_pct: yield_c,
+        centred_nominal_ohm: z0 + shift,
+        centred_mean_ohm: mean_c,
+    })
+}
+
+#[cfg(test)]
+mod tests;

@@ -1,0 +1,416 @@
+//! From a stackup and a rule to the cross-section a model needs: which planes the trace references, the dielectric
+//! heights (pressed) and Dk between them, and what lies over the trace (air, solder mask, more dielectric).
+//!
+//! A trace with planes on both sides is stripline; with a plane on one side only it is microstrip, and the side
+//! away from the plane decides the variant (surface, coated by solder mask, or embedded under dielectric).
+
+use crate::base::error::{Error, Result};
+use crate::base::validity::Warning;
+use crate::design::project::{ImpedanceRule, Structure};
+use crate::design::stackup::{CopperRole, Layer, Stackup};
+use serde::Serialize;
+
+pub mod lines;
+
+pub use lines::{Analysis, CoupledPair, SingleLine};
+
+/// The free dimensions of a rule's traces, m.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Dims {
+    pub w: f64,
+    pub s: Option<f64>,
+    pub gap: Option<f64>,
+}
+
+/// What covers a microstrip trace on the side away from its plane.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+#[serde(tag = "kind", rename_all = "snake_case")]
+pub enum Cover {
+    Air,
+    /// Solder mask of the given thickness over the trace and the substrate.
+    Mask {
+        thickness_m: f64,
+        er: f64,
+    },
+    /// Further dielectric (prepreg/core) of the given height above the trace, then air.
+    Dielectric {
+        thickness_m: f64,
+        er: f64,
+    },
+}
+
+/// The dielectric surroundings of the trace(s).
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+#[serde(tag = "kind", rename_all = "snake_case")]
+pub enum Medium {
+    /// One plane: `h` is the dielectric height from the plane to the trace, `er` its Dk.
+    Microstrip { h: f64, er: f64, cover: Cover },
+    /// No plane at all: the trace sits on a dielectric sheet of height `h` (coplanar structures only).
+    NoPlane { h: f64, er: f64 },
+    /// Two planes, one on each side of the trace.
+    Stripline {
+        /// Dielectric height from the trace's lower face to the plane below, m.
+        h_below: f64,
+        /// Dielectric height from the trace's upper face to the plane above, m.
+        h_above: f64,
+        er: f64,
+        /// Another signal layer lies between the same planes (dual stripline).
+        dual: bool,
+    },
+    /// Two traces on adjacent layers between the same two planes (broadside pair).
+    Broadside {
+        /// Plane above to the upper trace, m.
+        h_above: f64,
+        /// Dielectric between the two traces, m.
+        separation: f64,
+        /// Lower trace to the plane below, m.
+        h_below: f64,
+        er: f64,
+    },
+}
+
+/// A resolved cross-section for one rule.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct CrossSection {
+    pub medium: Medium,
+    /// Trace copper thickness, m.
+    pub t: f64,
+    /// Names of the reference plane layers.
+    pub references: Vec<String>,
+    /// Notes from resolving (mixed dielectrics, unusual references).
+    pub warnings: Vec<Warning>,
+}
+
+impl CrossSection {
+    /// A plain name for the family this cross-section belongs to.
+    pub fn family(&self) -> &'static str {
+        match self.medium {
+            Medium::Microstrip {
+                cover: Cover::Air, ..
+            } => "surface microstrip",
+            Medium::Microstrip {
+                cover: Cover::Mask { .. },
+                ..
+            } => "coated microstrip",
+            Medium::Microstrip {
+                cover: Cover::Dielectric { .. },
+                ..
+            } => "embedded microstrip",
+            Medium::Stripline { dual: true, .. } => "dual stripline",
+            Medium::Stripline {
+                h_below, h_above, ..
+            } if (h_below - h_above).abs() <= 1e-3 * h_below.max(h_above) => "symmetric stripline",
+            Medium::Stripline { .. } => "offset stripline",
+            Medium::Broadside { .. } => "broadside-coupled stripline",
+            Medium::NoPlane { .. } => "coplanar without plane",
+        }
+    }
+
+    /// The family name as the rule's structure sees it: coplanar rules over a plane are grounded coplanar, not
+    /// microstrip; everything else is [`CrossSection::family`].
+    pub fn family_for(&self, structure: Structure) -> &'static str {
+        let coplanar = matches!(structure, Structure::Coplanar | Structure::CoplanarPair);
+        match (coplanar, self.medium) {
+            (
+                true,
+                Medium::Microstrip {
+                    cover: Cover::Air, ..
+                },
+            ) => "grounded coplanar",
+            (
+                true,
+                Medium::Microstrip {
+                    cover: Cover::Mask { .. },
+                    ..
+                },
+            ) => "grounded coplanar under solder mask",
+            (
+                true,
+                Medium::Microstrip {
+                    cover: Cover::Dielectric { .. },
+                    ..
+                },
+            ) => "embedded grounded coplanar",
+            (true, Medium::Stripline { .. }) => "coplanar between planes",
+            _ => self.family(),
+        }
+    }
+
+    /// The height that sets the scale of the structure (for search bounds and validity): the plane distance for
+    /// microstrip, the plane-to-plane spacing for stripline.
+    pub fn scale_height(&self) -> f64 {
+        match self.medium {
+            Medium::Microstrip { h, .. } | Medium::NoPlane { h, .. } => h,
+            Medium::Stripline {
+                h_below, h_above, ..
+            } => h_below + h_above + self.t,
+            Medium::Broadside {
+                h_above,
+                separation,
+                h_below,
+                ..
+            } => h_above + separation + h_below + 2.0 * self.t,
+        }
+    }
+}
+
+fn is_reference(layer: &Layer, named: &[String]) -> bool {
+    match layer {
+        Layer::Copper(c) if named.is_empty() => c.role == CopperRole::Plane,
+        Layer::Copper(c) => named.iter().any(|n| n == &c.name),
+        _ => false,
+    }
+}
+
+/// Pressed height and series-capacitance Dk of the layers strictly between `from` and `to` (either order).
+/// Copper layers in between count as height (their Dk is that of the surrounding dielectric).
+fn region(stackup: &Stackup, from: usize, to: usize) -> (f64, f64, bool) {
+    let (lo, hi) = if from < to {
+        (from + 1, to)
+    } else {
+        (to + 1, from)
+    };
+    let mut h_total = 0.0;
+    let mut h_dielectric = 0.0;
+    let mut h_over_er = 0.0;
+    let mut dks: Vec<f64> = Vec::new();
+    for idx in lo..hi {
+        let h = stackup.pressed_thickness_m(idx);
+        h_total += h;
+        if let Some(d) = stackup.layers[idx].dielectric() {
+            h_dielectric += h;
+            h_over_er += h / d.dk;
+            dks.push(d.dk);
+        }
+    }
+    let er = if h_over_er > 0.0 {
+        h_dielectric / h_over_er
+    } else {
+        1.0
+    };
+    let mixed = dks.iter().any(|&dk| (dk - dks[0]).abs() > 0.01 * dks[0]);
+    (h_total, er, mixed)
+}
+
+/// Pressed height and series Dk of the dielectric from layer `idx` to the board's outer face (downward when `down`).
+fn region_to_edge(stackup: &Stackup, idx: usize, down: bool) -> (f64, f64, bool) {
+    if down {
+        region(stackup, idx, stackup.layers.len())
+    } else {
+        // `region` excludes both ends; pretend there is a layer just above the top.
+        let (mut h, mut h_over_er) = (0.0, 0.0);
+        for j in 0..idx {
+            let hj = stackup.pressed_thickness_m(j);
+            h += hj;
+            h_over_er += hj / stackup.layers[j].dielectric().map(|d| d.dk).unwrap_or(1.0);
+        }
+        (h, if h_over_er > 0.0 { h / h_over_er } else { 1.0 }, false)
+    }
+}
+
+/// Resolves the cross-section of `rule` in `stackup`.
+pub fn resolve(stackup: &Stackup, rule: &ImpedanceRule) -> Result<CrossSection> {
+    let idx = stackup.find(&rule.layer).ok_or_else(|| Error::Invalid {
+        field: "layer".into(),
+        reason: format!("no layer named {:?}", rule.layer),
+    })?;
+    let Layer::Copper(trace) = &stackup.layers[idx] else {
+        return Err(Error::Invalid {
+            field: "layer".into(),
+            reason: format!("{:?} is not copper", rule.layer),
+        });
+    };
+    let mut warnings = Vec::new();
+    if trace.role == CopperRole::Plane {
+        warnings.push(Warning::new(format!(
+            "{} is marked as a plane layer but routes this rule",
+            trace.name
+        )));
+    }
+    let partner = if rule.structure == Structure::BroadsidePair {
+        let name = rule.partner_layer.as_deref().unwrap_or_default();
+        let p = stackup
+            .find(name)
+            .filter(|&p| stackup.layers[p].copper().is_some())
+            .ok_or_else(|| Error::Invalid {
+                field: "partner_layer".into(),
+                reason: format!("no copper layer named {name:?}"),
+            })?;
+        if p == idx {
+            return Err(Error::Invalid {
+                field: "partner_layer".into(),
+                reason: "must differ from the rule's layer".into(),
+            });
+        }
+        Some(p)
+    } else {
+        None
+    };
+    let (top_trace, bottom_trace) = match partner {
+        Some(p) => (idx.min(p), idx.max(p)),
+        None => (idx, idx),
+    };
+    let excluded = |j: usize| j == idx || Some(j) == partner;
+    let above = (0..top_trace)
+        .rev()
+        .find(|&j| !excluded(j) && is_reference(&stackup.layers[j], &rule.references));
+    let below = (bottom_trace + 1..stackup.layers.len())
+        .find(|&j| !excluded(j) && is_reference(&stackup.layers[j], &rule.references));
+    let mut references: Vec<String> = Vec::new();
+    for j in [above, below].into_iter().flatten() {
+        references.push(stackup.layers[j].name().to_string());
+    }
+    let mixed_note = |side: &str, er: f64, warnings: &mut Vec<Warning>| {
+        warnings.push(Warning::new(format!(
+            "dielectrics of different Dk {side} the trace: combined as series capacitance into Dk {er:.3}"
+        )));
+    };
+    let t = trace.thickness_m;
+    let medium = match (above, below, partner) {
+        (Some(a), Some(b), Some(_)) => {
+            let (h_above, er_a, m_a) = region(stackup, a, top_trace);
+            let (separation, er_s, m_s) = region(stackup, top_trace, bottom_trace);
+            let (h_below, er_b, m_b) = region(stackup, bottom_trace, b);
+            let hs = [h_above, separation, h_below];
+            let ers = [er_a, er_s, er_b];
+            let er = hs.iter().sum::<f64>() / hs.iter().zip(ers).map(|(h, e)| h / e).sum::<f64>();
+            if m_a || m_s || m_b || ers.iter().any(|&e| (e - er).abs() > 0.01 * er) {
+                mixed_note("around", er, &mut warnings);
+            }
+            Medium::Broadside {
+                h_above,
+                separation,
+                h_below,
+                er,
+            }
+        }
+        (_, _, Some(_)) => {
+            return Err(Error::Invalid {
+                field: "references".into(),
+                reason: "a broadside pair needs a reference plane above and below both traces"
+                    .into(),
+            })
+        }
+        (Some(a), Some(b), None) => {
+            let (h_above, er_a, m_a) = region(stackup, a, idx);
+            let (h_below, er_b, m_b) = region(stackup, idx, b);
+            // Each side is a parallel-plate capacitance ε/h; the line sees their sum, so weight each side's Dk by 1/h.
+            let er = (er_a / h_above + er_b / h_below) / (1.0 / h_above + 1.0 / h_below);
+            if m_a || m_b || (er_a - er_b).abs() > 0.01 * er {
+                mixed_note("around", er, &mut warnings);
+            }
+            let dual = (a + 1..b).any(|j| j != idx && stackup.layers[j].copper().is_some());
+            Medium::Stripline {
+                h_below,
+                h_above,
+                er,
+                dual,
+            }
+        }
+        (Some(plane), None, None) | (None, Some(plane), None) => {
+            let (h, er, mixed) = region(stackup, plane, idx);
+            if mixed {
+                mixed_note("under", er, &mut warnings);
+            }
+            // Walk outward, away from the plane, to find what covers the trace.
+            let outward: Vec<usize> = if plane > idx {
+                (0..idx).rev().collect()
+            } else {
+                (idx + 1..stackup.layers.len()).collect()
+            };
+            let mut cover = Cover::Air;
+            let mut h_cover = 0.0;
+            let mut h_over_er = 0.0;
+            let mut masked = false;
+            for j in outward {
+                match &stackup.layers[j] {
+                    Layer::Copper(_) => break,
+                    Layer::SolderMask(d) if h_cover == 0.0 || masked => {
+                        masked = true;
+                        h_cover += d.thickness_m;
+                        h_over_er += d.thickness_m / d.dk;
+                    }
+                    Layer::SolderMask(_) => break,
+                    Layer::Core(_) | Layer::Prepreg(_) if masked => break,
+                    layer => {
+                        let hj = stackup.pressed_thickness_m(j);
+                        h_cover += hj;
+                        h_over_er += hj / layer.dielectric().map(|d| d.dk).unwrap_or(1.0);
+                    }
+                }
+            }
+            if h_cover > 0.0 {
+                let er_c = h_cover / h_over_er;
+                cover = if masked {
+                    Cover::Mask {
+                        thickness_m: h_cover,
+                        er: er_c,
+                    }
+                } else {
+                    Cover::Dielectric {
+                        thickness_m: h_cover,
+                        er: er_c,
+                    }
+                };
+            }
+            Medium::Microstrip { h, er, cover }
+        }
+        (None, None, None)
+            if matches!(
+                rule.structure,
+                Structure::Coplanar | Structure::CoplanarPair
+            ) =>
+        {
+            // Coplanar grounds are the only reference: the substrate is the dielectric on the thicker side.
+            let (h_a, er_a, _) = if idx > 0 {
+                region_to_edge(stackup, idx, false)
+            } else {
+                (0.0, 1.0, false)
+            };
+            let (h_b, er_b, _) = region_to_edge(stackup, idx, true);
+            let (h, er) = if h_b >= h_a { (h_b, er_b) } else { (h_a, er_a) };
+            warnings.push(Warning::new(
+                "no reference plane: coplanar grounds are the only return path",
+            ));
+            Medium::NoPlane { h, er }
+        }
+        (None, None, None) => {
+            return Err(Error::Invalid {
+                field: "references".into(),
+                reason: format!(
+                    "no reference plane found for {}; mark a copper layer as a plane",
+                    trace.name
+                ),
+            })
+        }
+    };
+    Ok(CrossSection {
+        medium,
+        t,
+        references,
+        warnings,
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::design::demo;
+
+    #[test]
+    fn demo_top_layer_is_coated_microstrip() {
+        let p = demo::project();
+        let cs = resolve(&p.stackup, &p.rules[0]).unwrap();
+        assert_eq!(cs.family(), "coated microstrip");
+        assert_eq!(cs.references.len(), 1);
+    }
+
+    #[test]
+    fn inner_layer_between_planes_is_stripline() {
+        let p = demo::project();
+        let rule = p.rules.iter().find(|r| r.layer.starts_with("L3")).unwrap();
+        let cs = resolve(&p.stackup, rule).unwrap();
+        assert!(cs.family().contains("stripline"), "{}", cs.family());
+        assert_eq!(cs.references.len(), 2);
+    }
+}
