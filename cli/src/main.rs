@@ -749,7 +749,7 @@ fn spread(args: &[String]) -> Result<()> {
         centre: !use_field,
         model,
     };
-    let field_model = ohmstack_core::plan::field_check::FieldModel {
+    let field_model = ohmstack_core::engine::Engine::FieldSolver {
         etch_factor: project.fab.etch_factor,
         options: FieldOptions::default(),
     };

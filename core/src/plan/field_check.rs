@@ -5,7 +5,6 @@ use crate::base::error::Result;
 use crate::base::validity::Warning;
 use crate::design::project::{ImpedanceRule, Project};
 use crate::field::{build, compare, Comparison, FieldOptions, FieldResult, FieldSolve, Progress};
-use crate::plan::analyze_rule;
 use crate::section;
 use crate::section::Dims;
 use serde::Serialize;
@@ -50,7 +49,7 @@ impl RuleFieldJob {
     ) -> Result<RuleFieldJob> {
         rule.validate(&project.stackup)?;
         let cs = section::resolve(&project.stackup, rule)?;
-        let (dims, closed, note) = starting_dims(project, rule);
+        let (dims, closed, note) = crate::plan::synthesis::closed_form_start(project, rule);
         let mut notes: Vec<Warning> = note.into_iter().collect();
         let etch = project.fab.etch_factor;
         if etch.is_some() && closed.is_some() {
@@ -115,36 +114,6 @@ impl RuleFieldJob {
     }
 }
 
-/// Where a field solve of `rule` starts: the closed form's dimensions and its (method, impedance), or, when the
-/// closed form fails, the rule's own dimensions and a note saying so.
-pub(crate) fn starting_dims(
-    project: &Project,
-    rule: &ImpedanceRule,
-) -> (Dims, Option<(&'static str, f64)>, Option<Warning>) {
-    match analyze_rule(project, rule) {
-        Ok(r) => (
-            Dims {
-                w: r.width_m,
-                s: r.spacing_m,
-                gap: r.gap_m,
-            },
-            Some((r.method, r.impedance_ohm)),
-            None,
-        ),
-        Err(e) => (
-            Dims {
-                w: rule.width_m,
-                s: rule.spacing_m,
-                gap: rule.gap_m,
-            },
-            None,
-            Some(Warning::new(format!(
-                "no closed-form result ({e}); the field solve starts from the rule's dimensions as given"
-            ))),
-        ),
-    }
-}
-
 /// Field-checks one rule of `project` (blocking; bounded by the options' caps).
 pub fn check_rule(
     project: &Project,
@@ -160,28 +129,6 @@ pub fn check_rule(
             residual: f64::NAN,
         })
     })
-}
-
-/// The field solver as the impedance model of a tolerance spread, for `ohmstack spread --model field`: every call
-/// is a whole field solve, so use it with the quadratic response surface (about 1 + 2n + 2n(n−1) solves per rule for
-/// n varied parameters), which the spread then samples.
-#[derive(Debug, Clone, Copy)]
-pub struct FieldModel {
-    /// The project's etch factor (trapezoidal traces), if any.
-    pub etch_factor: Option<f64>,
-    pub options: FieldOptions,
-}
-
-impl crate::plan::spread::ImpedanceModel for FieldModel {
-    fn impedance(
-        &self,
-        cs: &crate::section::CrossSection,
-        structure: crate::design::project::Structure,
-        dims: &Dims,
-    ) -> Result<f64> {
-        crate::field::solve_cross_section(cs, structure, dims, self.etch_factor, self.options)
-            .map(|r| r.controlled_ohm)
-    }
 }
 
 /// Field-checks every rule; a rule that fails carries its error message.

@@ -83,7 +83,7 @@ impl FieldSynthesis {
     ) -> Result<FieldSynthesis> {
         rule.validate(&project.stackup)?;
         let cs = section::resolve(&project.stackup, rule)?;
-        let (base, closed, note) = crate::plan::field_check::starting_dims(project, rule);
+        let (base, closed, note) = crate::plan::synthesis::closed_form_start(project, rule);
         let closed = closed.is_some();
         let warnings: Vec<Warning> = note.into_iter().collect();
         let (which, lower) = match rule.solve {
@@ -350,108 +350,6 @@ impl FieldSynthesis {
     }
 }
 
-/// The method a field-solver rule reports.
-pub const FIELD_METHOD: &str = "2D field solver (finite volumes, extrapolated)";
-
-/// Field results kept per (stack, fabrication limits, rule): a field-solver rule is planned, drawn, plotted and put
-/// in the fab notes from one synthesis, not one each. Small: a project has a few such rules.
-const CACHE_SIZE: usize = 16;
-
-thread_local! {
-    static CACHE: std::cell::RefCell<Vec<(String, crate::plan::RuleResult)>> =
-        const { std::cell::RefCell::new(Vec::new()) };
-}
-
-/// The figures of a field-solver rule: its free dimension solved on the field solver (or its dimensions as given
-/// when it solves nothing), impedance, εeff and the mode figures from the field solve; loss from the closed-form
-/// loss models at those dimensions.
-pub fn rule_result(project: &Project, rule: &ImpedanceRule) -> Result<crate::plan::RuleResult> {
-    rule.validate(&project.stackup)?;
-    // Everything the result depends on: the stack, the fabrication limits and etch, the frequency, the rule.
-    let key = serde_json::to_string(&(
-        &project.stackup,
-        &project.fab,
-        project.analysis_freq_hz,
-        project.units,
-        rule,
-    ))
-    .map_err(|e| Error::Invalid {
-        field: "project".into(),
-        reason: e.to_string(),
-    })?;
-    if let Some(hit) = CACHE.with(|c| {
-        c.borrow()
-            .iter()
-            .find(|(k, _)| *k == key)
-            .map(|(_, r)| r.clone())
-    }) {
-        return Ok(hit);
-    }
-    let result = compute_rule_result(project, rule)?;
-    CACHE.with(|c| {
-        let mut c = c.borrow_mut();
-        if c.len() >= CACHE_SIZE {
-            c.remove(0);
-        }
-        c.push((key, result.clone()));
-    });
-    Ok(result)
-}
-
-fn compute_rule_result(project: &Project, rule: &ImpedanceRule) -> Result<crate::plan::RuleResult> {
-    let cs = section::resolve(&project.stackup, rule)?;
-    let options = FieldOptions::default();
-    let mut notes = Vec::new();
-    let (dims, solved, field) = if rule.solve == Solve::Nothing {
-        let dims = Dims {
-            w: rule.width_m,
-            s: rule.spacing_m,
-            gap: rule.gap_m,
-        };
-        let field = crate::field::solve_cross_section(
-            &cs,
-            rule.structure,
-            &dims,
-            project.fab.etch_factor,
-            options,
-        )?;
-        (dims, None, field)
-    } else {
-        let mut s = FieldSynthesis::start(project, rule, options)?;
-        s.run();
-        let r = s.result().ok_or_else(|| Error::Invalid {
-            field: "field".into(),
-            reason: "the field synthesis did not finish".into(),
-        })??;
-        notes.extend(r.warnings.iter().cloned());
-        let dims = Dims {
-            w: r.width_m,
-            s: r.spacing_m,
-            gap: r.gap_m,
-        };
-        (dims, Some(r.dimension), r.field)
-    };
-    notes.push(Warning::new(format!(
-        "figures from the 2D field solver (estimated error {} %); loss from the closed-form models at these dimensions",
-        crate::base::units::format_sig(field.error_estimate_pct, 2)
-    )));
-    let mut result = crate::plan::rule_figures(
-        project,
-        rule,
-        cs,
-        dims,
-        solved,
-        FIELD_METHOD,
-        field.analysis,
-    );
-    for n in notes {
-        if !result.warnings.contains(&n) {
-            result.warnings.push(n);
-        }
-    }
-    Ok(result)
-}
-
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -538,7 +436,7 @@ mod tests {
         let direct = synth(&p, "Radio feed 50 Ω");
         let plan = crate::plan_with(&p, &crate::PlanOptions::with_spread()).unwrap();
         let r = plan.rules[i].ok().unwrap();
-        assert_eq!(r.method, FIELD_METHOD);
+        assert_eq!(r.method, crate::engine::FIELD_METHOD);
         assert_eq!(r.width_m, direct.value_m);
         assert_eq!(r.impedance_ohm, direct.field_ohm);
         assert!(r.deviation_pct.abs() < 0.1 && r.within_tolerance);

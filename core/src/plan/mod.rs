@@ -1,23 +1,23 @@
 //! The whole-project computation: for each rule resolve its cross-section, solve the free dimension, analyse, and
 //! collect the figures the results table and fab notes show. Pure and deterministic.
 
-use self::spread::{SampleModel, SpreadOptions, SpreadSummary};
+use self::spread::{SampleModel, SpreadOptions};
 use crate::base::error::Result;
-use crate::base::roots::{self, Bracket};
-use crate::base::units::{format_length, MAX_LENGTH_M};
 use crate::base::validity::Warning;
-use crate::closed_form;
-use crate::design::project::{ImpedanceRule, Project, RuleModel, Solve};
+use crate::design::project::Project;
 use crate::design::stackup::Layer;
-use crate::section::lines::{reflection, return_loss_db, SingleLine};
-use crate::section::{self, CrossSection};
-use crate::section::{Analysis, Dims};
 use serde::Serialize;
 
 pub mod case;
 pub mod field_check;
 pub mod field_synth;
+pub mod rule;
 pub mod spread;
+pub mod synthesis;
+
+pub use rule::{
+    analyze_rule, evaluate_rule, evaluate_rule_with, rule_figures, RuleOutcome, RuleResult,
+};
 
 /// One row of the stack table.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -32,58 +32,6 @@ pub struct LayerRow {
     pub df: Option<f64>,
     pub copper_oz: Option<f64>,
     pub role: Option<&'static str>,
-}
-
-/// The computed figures of one rule.
-#[derive(Debug, Clone, PartialEq, Serialize)]
-pub struct RuleResult {
-    pub name: String,
-    pub layer: String,
-    /// Plain family name, e.g. "coated microstrip".
-    pub family: &'static str,
-    /// The structure as chosen in the rule, e.g. "edge-coupled pair".
-    pub structure: &'static str,
-    pub method: &'static str,
-    pub references: Vec<String>,
-    pub width_m: f64,
-    pub spacing_m: Option<f64>,
-    pub gap_m: Option<f64>,
-    /// Which dimension synthesis solved, if any.
-    pub solved: Option<&'static str>,
-    pub target_ohm: f64,
-    pub tolerance_pct: f64,
-    /// The controlled impedance (Z0, or Zdiff for pairs), Ω.
-    pub impedance_ohm: f64,
-    pub deviation_pct: f64,
-    pub within_tolerance: bool,
-    /// Reflection coefficient of the line against the target impedance, and its return loss.
-    pub gamma: f64,
-    pub return_loss_db: f64,
-    /// Effective Dk of the mode that carries the signal (odd mode for pairs).
-    pub eps_eff: f64,
-    pub velocity_m_per_s: f64,
-    pub delay_s_per_m: f64,
-    /// Per-length L and C of the signal mode (per line for pairs).
-    pub inductance_per_m: f64,
-    pub capacitance_per_m: f64,
-    pub analysis: Analysis,
-    /// Loss, complex Z0 and delay at the project's analysis frequency (`None` when the loss model does not apply;
-    /// the reason is then among the warnings).
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub loss: Option<crate::line::loss::LossAt>,
-    pub cross_section: CrossSection,
-    pub warnings: Vec<Warning>,
-    /// Tolerance spread and yield, when asked for with [`PlanOptions::spread_samples`].
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub spread: Option<SpreadSummary>,
-}
-
-/// One rule's outcome: figures, or the reason it could not be computed.
-#[derive(Debug, Clone, PartialEq, Serialize)]
-#[serde(tag = "status", rename_all = "snake_case")]
-pub enum RuleOutcome {
-    Ok(Box<RuleResult>),
-    Error { name: String, message: String },
 }
 
 /// Everything computed for a project.
@@ -204,157 +152,6 @@ pub fn plan_with(project: &Project, options: &PlanOptions) -> Result<Plan> {
     })
 }
 
-/// Solves and analyses one rule with its own model (see [`RuleModel`]): the closed form, or the 2D field solver.
-pub fn evaluate_rule(project: &Project, rule: &ImpedanceRule) -> Result<RuleResult> {
-    match rule.model {
-        RuleModel::ClosedForm => analyze_rule(project, rule),
-        RuleModel::FieldSolver => crate::plan::field_synth::rule_result(project, rule),
-    }
-}
-
-/// Solves and analyses one rule by the closed form (whatever the rule's model; the field solver starts from this).
-pub fn analyze_rule(project: &Project, rule: &ImpedanceRule) -> Result<RuleResult> {
-    rule.validate(&project.stackup)?;
-    let cs = section::resolve(&project.stackup, rule)?;
-    let mut dims = Dims {
-        w: rule.width_m,
-        s: rule.spacing_m,
-        gap: rule.gap_m,
-    };
-    let solved = solve_dims(project, rule, &cs, &mut dims)?;
-    let evaluated = closed_form::evaluate(&cs, rule.structure, &dims)?;
-    Ok(rule_figures(
-        project,
-        rule,
-        cs,
-        dims,
-        solved,
-        evaluated.method,
-        evaluated.analysis,
-    ))
-}
-
-/// The figures of a rule's line from its analysis (closed form or field solver): deviation, reflection, the signal
-/// mode's per-length figures, loss at the analysis frequency, and the warnings of all of them.
-pub(crate) fn rule_figures(
-    project: &Project,
-    rule: &ImpedanceRule,
-    cs: CrossSection,
-    dims: Dims,
-    solved: Option<&'static str>,
-    method: &'static str,
-    analysis: Analysis,
-) -> RuleResult {
-    let signal: SingleLine = match &analysis {
-        Analysis::Single(line) => line.clone(),
-        Analysis::Pair(pair) => pair.odd(),
-    };
-    let z = analysis.controlled();
-    let gamma = reflection(z, rule.target_ohm);
-    let deviation_pct = (z - rule.target_ohm) / rule.target_ohm * 100.0;
-    let mut warnings = cs.warnings.clone();
-    warnings.extend(analysis.warnings().iter().cloned());
-    let loss = match crate::line::loss::for_rule(project, rule, &cs, &dims)
-        .and_then(|m| m.at(project.analysis_freq_hz))
-    {
-        Ok(at) => {
-            warnings.extend(at.warnings.iter().cloned());
-            Some(at)
-        }
-        Err(e) => {
-            warnings.push(Warning::new(format!("loss not computed: {e}")));
-            None
-        }
-    };
-    RuleResult {
-        name: rule.name.clone(),
-        layer: rule.layer.clone(),
-        family: cs.family_for(rule.structure),
-        structure: rule.structure.label(),
-        method,
-        references: cs.references.clone(),
-        width_m: dims.w,
-        spacing_m: dims.s,
-        gap_m: dims.gap,
-        solved,
-        target_ohm: rule.target_ohm,
-        tolerance_pct: rule.tolerance_pct,
-        impedance_ohm: z,
-        deviation_pct,
-        within_tolerance: deviation_pct.abs() <= rule.tolerance_pct,
-        gamma,
-        return_loss_db: return_loss_db(gamma),
-        eps_eff: signal.eps_eff,
-        velocity_m_per_s: signal.velocity(),
-        delay_s_per_m: signal.delay_per_m(),
-        inductance_per_m: signal.inductance_per_m(),
-        capacitance_per_m: signal.capacitance_per_m(),
-        analysis,
-        loss,
-        cross_section: cs,
-        warnings,
-        spread: None,
-    }
-}
-
-/// Runs synthesis for the rule's free dimension, writing the solution into `dims`.
-fn solve_dims(
-    project: &Project,
-    rule: &ImpedanceRule,
-    cs: &CrossSection,
-    dims: &mut Dims,
-) -> Result<Option<&'static str>> {
-    let scale = cs.scale_height();
-    let upper = (100.0 * scale).min(MAX_LENGTH_M);
-    let unit = project.units;
-    match rule.solve {
-        Solve::Nothing => Ok(None),
-        Solve::Width => {
-            let lo_reason = format!(
-                "the fabricator's minimum trace width ({})",
-                format_length(project.fab.min_trace_m, unit)
-            );
-            let hi_reason = format!("the widest trace searched ({})", format_length(upper, unit));
-            let bracket = Bracket {
-                lo: project.fab.min_trace_m,
-                hi: upper,
-                lo_reason: &lo_reason,
-                hi_reason: &hi_reason,
-            };
-            let base = *dims;
-            let w = roots::solve("width", rule.target_ohm, &bracket, |w| {
-                closed_form::evaluate(cs, rule.structure, &Dims { w, ..base })
-                    .map(|e| e.analysis.controlled())
-            })?;
-            dims.w = w;
-            Ok(Some("width"))
-        }
-        Solve::Spacing => {
-            let lo_reason = format!(
-                "the fabricator's minimum space ({})",
-                format_length(project.fab.min_space_m, unit)
-            );
-            let hi_reason = format!(
-                "the widest spacing searched ({})",
-                format_length(upper, unit)
-            );
-            let bracket = Bracket {
-                lo: project.fab.min_space_m,
-                hi: upper,
-                lo_reason: &lo_reason,
-                hi_reason: &hi_reason,
-            };
-            let base = *dims;
-            let s = roots::solve("spacing", rule.target_ohm, &bracket, |s| {
-                closed_form::evaluate(cs, rule.structure, &Dims { s: Some(s), ..base })
-                    .map(|e| e.analysis.controlled())
-            })?;
-            dims.s = Some(s);
-            Ok(Some("spacing"))
-        }
-    }
-}
-
 impl Plan {
     /// The outcome of the rule called `name`.
     pub fn rule(&self, name: &str) -> Option<&RuleOutcome> {
@@ -362,14 +159,5 @@ impl Plan {
             RuleOutcome::Ok(r) => r.name == name,
             RuleOutcome::Error { name: n, .. } => n == name,
         })
-    }
-}
-
-impl RuleOutcome {
-    pub fn ok(&self) -> Option<&RuleResult> {
-        match self {
-            RuleOutcome::Ok(r) => Some(r),
-            RuleOutcome::Error { .. } => None,
-        }
     }
 }

@@ -1,0 +1,284 @@
+//! One rule from its stack to its figures: resolve the cross-section, solve the free dimension on the rule's
+//! engine, analyse, and collect what the results table and fab notes show (deviation, reflection, the signal
+//! mode's per-length figures, loss at the analysis frequency). Written once for every engine.
+
+use crate::base::error::{Error, Result};
+use crate::base::units::format_sig;
+use crate::base::validity::Warning;
+use crate::design::project::{ImpedanceRule, Project, Solve};
+use crate::engine::{Answer, Engine};
+use crate::plan::field_synth::FieldSynthesis;
+use crate::plan::spread::summary::SpreadSummary;
+use crate::plan::synthesis;
+use crate::section::lines::{reflection, return_loss_db, SingleLine};
+use crate::section::{self, Analysis, CrossSection, Dims};
+use serde::Serialize;
+
+/// The computed figures of one rule.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct RuleResult {
+    pub name: String,
+    pub layer: String,
+    /// Plain family name, e.g. "coated microstrip".
+    pub family: &'static str,
+    /// The structure as chosen in the rule, e.g. "edge-coupled pair".
+    pub structure: &'static str,
+    pub method: &'static str,
+    pub references: Vec<String>,
+    pub width_m: f64,
+    pub spacing_m: Option<f64>,
+    pub gap_m: Option<f64>,
+    /// Which dimension synthesis solved, if any.
+    pub solved: Option<&'static str>,
+    pub target_ohm: f64,
+    pub tolerance_pct: f64,
+    /// The controlled impedance (Z0, or Zdiff for pairs), Ω.
+    pub impedance_ohm: f64,
+    pub deviation_pct: f64,
+    pub within_tolerance: bool,
+    /// Reflection coefficient of the line against the target impedance, and its return loss.
+    pub gamma: f64,
+    pub return_loss_db: f64,
+    /// Effective Dk of the mode that carries the signal (odd mode for pairs).
+    pub eps_eff: f64,
+    pub velocity_m_per_s: f64,
+    pub delay_s_per_m: f64,
+    /// Per-length L and C of the signal mode (per line for pairs).
+    pub inductance_per_m: f64,
+    pub capacitance_per_m: f64,
+    pub analysis: Analysis,
+    /// Loss, complex Z0 and delay at the project's analysis frequency (`None` when the loss model does not apply;
+    /// the reason is then among the warnings).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub loss: Option<crate::line::loss::LossAt>,
+    pub cross_section: CrossSection,
+    pub warnings: Vec<Warning>,
+    /// Tolerance spread and yield, when asked for with [`PlanOptions::spread_samples`].
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub spread: Option<SpreadSummary>,
+}
+
+/// One rule's outcome: figures, or the reason it could not be computed.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+#[serde(tag = "status", rename_all = "snake_case")]
+pub enum RuleOutcome {
+    Ok(Box<RuleResult>),
+    Error { name: String, message: String },
+}
+
+/// Solves and analyses one rule on its own engine (see [`crate::design::project::RuleModel`]).
+pub fn evaluate_rule(project: &Project, rule: &ImpedanceRule) -> Result<RuleResult> {
+    evaluate_rule_with(project, rule, &Engine::for_rule(project, rule))
+}
+
+/// Solves and analyses one rule by the closed form, whatever the rule's model (the field solver starts from this).
+pub fn analyze_rule(project: &Project, rule: &ImpedanceRule) -> Result<RuleResult> {
+    evaluate_rule_with(project, rule, &Engine::ClosedForm)
+}
+
+/// Solves and analyses one rule on `engine`. Field-solver results are cached per (stack, fabrication limits,
+/// frequency, rule), so the plan, drawings, plots and fab notes share one synthesis.
+pub fn evaluate_rule_with(
+    project: &Project,
+    rule: &ImpedanceRule,
+    engine: &Engine,
+) -> Result<RuleResult> {
+    rule.validate(&project.stackup)?;
+    if engine.is_closed_form() {
+        return compute(project, rule, engine);
+    }
+    // Everything the result depends on: the stack, the fabrication limits and etch, the frequency, the rule.
+    let key = serde_json::to_string(&(
+        &project.stackup,
+        &project.fab,
+        project.analysis_freq_hz,
+        project.units,
+        rule,
+        engine.name(),
+    ))
+    .map_err(|e| Error::Invalid {
+        field: "project".into(),
+        reason: e.to_string(),
+    })?;
+    if let Some(hit) = CACHE.with(|c| {
+        c.borrow()
+            .iter()
+            .find(|(k, _)| *k == key)
+            .map(|(_, r)| r.clone())
+    }) {
+        return Ok(hit);
+    }
+    let result = compute(project, rule, engine)?;
+    CACHE.with(|c| {
+        let mut c = c.borrow_mut();
+        if c.len() >= CACHE_SIZE {
+            c.remove(0);
+        }
+        c.push((key, result.clone()));
+    });
+    Ok(result)
+}
+
+/// Field results kept per rule and stack: a project has a few field-solver rules, each planned, drawn, plotted
+/// and put in the fab notes from one synthesis.
+const CACHE_SIZE: usize = 16;
+
+thread_local! {
+    static CACHE: std::cell::RefCell<Vec<(String, RuleResult)>> =
+        const { std::cell::RefCell::new(Vec::new()) };
+}
+
+/// A rule's dimensions after synthesis on an engine, with that engine's answer when the synthesis already has it.
+struct Solved {
+    dims: Dims,
+    dimension: Option<&'static str>,
+    answer: Option<Answer>,
+    notes: Vec<Warning>,
+}
+
+/// Solves the rule's free dimension on `engine`: bracketed root finding on the closed form (exact for it), or
+/// for a field solver the secant refinement that starts from the closed form's answer ([`FieldSynthesis`]).
+fn solve_free_dimension(
+    project: &Project,
+    rule: &ImpedanceRule,
+    cs: &CrossSection,
+    engine: &Engine,
+) -> Result<Solved> {
+    let mut dims = Dims {
+        w: rule.width_m,
+        s: rule.spacing_m,
+        gap: rule.gap_m,
+    };
+    match *engine {
+        Engine::FieldSolver { options, .. } if rule.solve != Solve::Nothing => {
+            let mut job = FieldSynthesis::start(project, rule, options)?;
+            job.run();
+            let r = job.result().ok_or_else(|| Error::Invalid {
+                field: "field".into(),
+                reason: "the field synthesis did not finish".into(),
+            })??;
+            Ok(Solved {
+                dims: Dims {
+                    w: r.width_m,
+                    s: r.spacing_m,
+                    gap: r.gap_m,
+                },
+                dimension: Some(r.dimension),
+                answer: Some(Answer::from_field(r.field)),
+                notes: r.warnings,
+            })
+        }
+        _ => {
+            let dimension = synthesis::solve_bracketed(project, rule, cs, engine, &mut dims)?;
+            Ok(Solved {
+                dims,
+                dimension,
+                answer: None,
+                notes: Vec::new(),
+            })
+        }
+    }
+}
+
+fn compute(project: &Project, rule: &ImpedanceRule, engine: &Engine) -> Result<RuleResult> {
+    let cs = section::resolve(&project.stackup, rule)?;
+    let solved = solve_free_dimension(project, rule, &cs, engine)?;
+    let answer = match solved.answer {
+        Some(a) => a,
+        None => engine.analyze(&cs, rule.structure, &solved.dims)?,
+    };
+    let mut notes = solved.notes;
+    if let Some(err) = answer.error_estimate_pct {
+        notes.push(Warning::new(format!(
+            "figures from the 2D field solver (estimated error {} %); loss from the closed-form models at these dimensions",
+            format_sig(err, 2)
+        )));
+    }
+    let mut result = rule_figures(
+        project,
+        rule,
+        cs,
+        solved.dims,
+        solved.dimension,
+        answer.method,
+        answer.analysis,
+    );
+    for n in notes {
+        if !result.warnings.contains(&n) {
+            result.warnings.push(n);
+        }
+    }
+    Ok(result)
+}
+
+/// The figures of a rule's line from its analysis (closed form or field solver): deviation, reflection, the signal
+/// mode's per-length figures, loss at the analysis frequency, and the warnings of all of them.
+pub fn rule_figures(
+    project: &Project,
+    rule: &ImpedanceRule,
+    cs: CrossSection,
+    dims: Dims,
+    solved: Option<&'static str>,
+    method: &'static str,
+    analysis: Analysis,
+) -> RuleResult {
+    let signal: SingleLine = match &analysis {
+        Analysis::Single(line) => line.clone(),
+        Analysis::Pair(pair) => pair.odd(),
+    };
+    let z = analysis.controlled();
+    let gamma = reflection(z, rule.target_ohm);
+    let deviation_pct = (z - rule.target_ohm) / rule.target_ohm * 100.0;
+    let mut warnings = cs.warnings.clone();
+    warnings.extend(analysis.warnings().iter().cloned());
+    let loss = match crate::line::loss::for_rule(project, rule, &cs, &dims)
+        .and_then(|m| m.at(project.analysis_freq_hz))
+    {
+        Ok(at) => {
+            warnings.extend(at.warnings.iter().cloned());
+            Some(at)
+        }
+        Err(e) => {
+            warnings.push(Warning::new(format!("loss not computed: {e}")));
+            None
+        }
+    };
+    RuleResult {
+        name: rule.name.clone(),
+        layer: rule.layer.clone(),
+        family: cs.family_for(rule.structure),
+        structure: rule.structure.label(),
+        method,
+        references: cs.references.clone(),
+        width_m: dims.w,
+        spacing_m: dims.s,
+        gap_m: dims.gap,
+        solved,
+        target_ohm: rule.target_ohm,
+        tolerance_pct: rule.tolerance_pct,
+        impedance_ohm: z,
+        deviation_pct,
+        within_tolerance: deviation_pct.abs() <= rule.tolerance_pct,
+        gamma,
+        return_loss_db: return_loss_db(gamma),
+        eps_eff: signal.eps_eff,
+        velocity_m_per_s: signal.velocity(),
+        delay_s_per_m: signal.delay_per_m(),
+        inductance_per_m: signal.inductance_per_m(),
+        capacitance_per_m: signal.capacitance_per_m(),
+        analysis,
+        loss,
+        cross_section: cs,
+        warnings,
+        spread: None,
+    }
+}
+
+impl RuleOutcome {
+    pub fn ok(&self) -> Option<&RuleResult> {
+        match self {
+            RuleOutcome::Ok(r) => Some(r),
+            RuleOutcome::Error { .. } => None,
+        }
+    }
+}
