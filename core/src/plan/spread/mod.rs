@@ -17,7 +17,7 @@
 //! - Corners: when a rule has at most [`MAX_FULL_CORNERS`] varied parameters, all 2^n combinations of the limits
 //!   are evaluated and the extremes kept; with more, only the two corners picked by the signs of the sensitivities
 //!   (exact for a model monotone in each parameter). Corners use the same sample model as the Monte Carlo.
-//! - Monte Carlo: N seeded samples (xoshiro256**, ziggurat normals; see [`rng`]); mean, σ, percentiles by linear
+//! - Monte Carlo: N seeded samples (xoshiro256** from rand_xoshiro, normals from rand_distr; see [`rng`]); mean, σ, percentiles by linear
 //!   interpolation between order statistics, a histogram, yield = share of all samples inside the rule's
 //!   tolerance window (failed samples count as outside), and the process capability
 //!   Cpk = min(USL − µ, µ − LSL)/(3σ). Each rule draws its own stream (the seed mixed with the rule's name).
@@ -992,8 +992,7 @@ pub fn rule_seed(seed: u64, name: &str) -> u64 {
         h = h.wrapping_mul(0x0000_0100_0000_01b3);
     }
 
-    let mut s = seed ^ h;
-    rng::splitmix64(&mut s)
+    rng::mix(seed ^ h)
 }
 
 /// True when two cross-section families are the same structure for the spread. Symmetric and offset stripline are
