@@ -3,6 +3,7 @@
 //! frequency sweep and the foil what-if.
 
 use ohmstack_core::case;
+use ohmstack_core::loss::Sweep;
 use ohmstack_core::roughness::Foil;
 use ohmstack_core::units::{parse_frequency, parse_length, parse_number};
 
@@ -225,8 +226,8 @@ pub struct SweepArgs {
 
 impl SweepArgs {
     /// The sweep, defaults filled in and checked.
-    pub fn sweep(&self) -> anyhow::Result<ohmstack_core::loss::Sweep> {
-        let mut sweep = ohmstack_core::loss::Sweep::default();
+    pub fn sweep(&self) -> anyhow::Result<Sweep> {
+        let mut sweep = Sweep::default();
         if let Some(f) = self.from {
             sweep.from_hz = f;
         }
