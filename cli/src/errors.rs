@@ -121,6 +121,16 @@ fn or_list(v: &[String]) -> String {
     }
 }
 
+/// Options that belong to another command, with the pointer the message gives instead of "not an option".
+const ELSEWHERE: &[(&str, &str, &str)] = &[
+    ("calc", "--target", "only `solve` takes a target"),
+    (
+        "field-calc",
+        "--target",
+        "field-calc analyses the given width; use `solve` for synthesis",
+    ),
+];
+
 /// clap's error as one line, without the `error: ` prefix.
 pub fn one_line(e: &clap::Error, command: &str) -> String {
     let arg = context(e, ContextKind::InvalidArg)
@@ -154,7 +164,12 @@ pub fn one_line(e: &clap::Error, command: &str) -> String {
             let tip = context(e, ContextKind::SuggestedArg)
                 .map(|s| format!(" (did you mean {s}?)"))
                 .unwrap_or_default();
-            if arg.starts_with('-') && arg != "-" {
+            if let Some((_, _, hint)) = ELSEWHERE
+                .iter()
+                .find(|(c, a, _)| *c == command && *a == arg)
+            {
+                format!("{arg}: {hint}")
+            } else if arg.starts_with('-') && arg != "-" {
                 format!("{arg}: not an option of {command}{tip}")
             } else {
                 format!("{arg:?}: unexpected argument to {command}; {help}")

@@ -178,6 +178,14 @@ fn argument_errors_are_one_line_naming_the_option() {
             &["kinds", "--json"],
             "error: --json: not an option of kinds",
         ),
+        (
+            &["calc", "microstrip", "--target", "50"],
+            "error: --target: only `solve` takes a target",
+        ),
+        (
+            &["field-calc", "microstrip", "--target=50"],
+            "error: --target: field-calc analyses the given width",
+        ),
     ];
     for (args, start) in cases {
         let (code, out, err) = ohmstack(args, "");
