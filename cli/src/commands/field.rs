@@ -19,15 +19,15 @@ use std::time::Instant;
 /// The options `field` and `field-solve` share.
 #[derive(clap::Args)]
 pub struct ProjectFieldArgs {
-    /// Print the results as JSON
-    #[arg(long)]
-    pub json: bool,
     /// Project file (- reads stdin)
     #[arg(value_name = "FILE")]
     pub file: String,
     /// Only the rule of this name
     #[arg(long, value_name = "NAME", allow_hyphen_values = true)]
     pub rule: Option<String>,
+    /// Print the results as JSON
+    #[arg(long)]
+    pub json: bool,
     #[command(flatten)]
     pub solver: SolverArgs,
 }

@@ -19,9 +19,6 @@ use serde_json::json;
     after_help = "Without --freq, the sweep runs from 10 MHz to 40 GHz in 50 log-spaced points."
 )]
 pub struct Args {
-    /// Print the points as JSON
-    #[arg(long)]
-    pub json: bool,
     /// Project file (- reads stdin)
     #[arg(value_name = "FILE")]
     pub file: String,
@@ -32,6 +29,9 @@ pub struct Args {
     #[arg(long, value_name = "FREQ", value_parser = Frequency, allow_hyphen_values = true,
           conflicts_with_all = ["from", "to", "points"])]
     pub freq: Option<f64>,
+    /// Print the points as JSON
+    #[arg(long)]
+    pub json: bool,
     #[command(flatten)]
     pub sweep: SweepArgs,
     #[command(flatten)]
