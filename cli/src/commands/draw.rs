@@ -1,0 +1,36 @@
+//! `ohmstack draw FILE`: an SVG cross-section of the stack, and of one rule's traces with `--rule`.
+
+use ohmstack_core::output::draw::cross_section_svg;
+use ohmstack_core::Project;
+
+use crate::files::{read_input, write_svg};
+use anyhow::{anyhow, Result};
+
+#[derive(clap::Args)]
+pub struct Args {
+    /// Project file (- reads stdin)
+    #[arg(value_name = "FILE")]
+    pub file: String,
+    /// Draw this rule's traces on their layer
+    #[arg(long, value_name = "NAME", allow_hyphen_values = true)]
+    pub rule: Option<String>,
+    /// Write the SVG here instead of stdout
+    #[arg(short = 'o', long, value_name = "OUT.svg", allow_hyphen_values = true)]
+    pub output: Option<String>,
+}
+
+pub fn run(args: Args) -> Result<()> {
+    let project = Project::from_json(&read_input(&args.file)?)?;
+    let rule_idx = match &args.rule {
+        Some(name) => Some(
+            project
+                .rules
+                .iter()
+                .position(|r| &r.name == name)
+                .ok_or_else(|| anyhow!("--rule: no rule named {name:?}"))?,
+        ),
+        None => None,
+    };
+    let svg = cross_section_svg(&project, rule_idx)?;
+    write_svg(args.output, &svg)
+}

@@ -1,0 +1,109 @@
+//! `ohmstack field-calc KIND`: a 2D field solve of one structure given by its dimensions, next to the closed form.
+
+use ohmstack_core::base::units::parse_length;
+use ohmstack_core::field::{build, compare, FieldSolve};
+use ohmstack_core::plan::case;
+use ohmstack_core::Structure;
+
+use crate::args::{CaseArgs, Number};
+use crate::commands::field::{comparison_line, field_json, print_field, write_map, SolverArgs};
+use anyhow::{anyhow, Result};
+use serde_json::json;
+use std::time::Instant;
+
+#[derive(clap::Args)]
+#[command(
+    after_help = "KIND and its fields as for calc. For the plain single-line kinds, --spacing makes an \
+edge-coupled pair, --gap a coplanar line, both a coplanar pair.\n\
+Example: ohmstack field-calc microstrip --width 0.2mm --height 0.1mm --thickness 35um --dk 4 --spacing 0.15mm"
+)]
+pub struct Args {
+    /// Print the result as JSON
+    #[arg(long)]
+    pub json: bool,
+    #[command(flatten)]
+    pub case: CaseArgs,
+    /// Etch factor of the trace sides (default: a rectangular trace)
+    #[arg(long, value_name = "NUMBER", value_parser = Number, allow_hyphen_values = true,
+          help_heading = "Field solver")]
+    pub etch_factor: Option<f64>,
+    #[command(flatten)]
+    pub solver: SolverArgs,
+}
+
+pub fn run(args: Args) -> Result<()> {
+    let kind = args.case.kind.as_str();
+    let mut map = args.case.fields();
+    let options = args.solver.options()?;
+    let etch = args.etch_factor;
+    let map_path = args.solver.map;
+    let json = args.json;
+    // Kinds that name their own pattern (pairs, coplanar) take --spacing/--gap as `calc` does; for the plain
+    // single-line kinds, --spacing and --gap turn the line into a pair or a coplanar line.
+    let own_pattern = case::parse(kind, &map)
+        .ok()
+        .filter(|c| c.structure != Structure::Single);
+    let case = match own_pattern {
+        Some(case) => case,
+        None => {
+            let spacing = map
+                .remove("spacing")
+                .map(|t| parse_length("spacing", &t))
+                .transpose()?;
+            let gap = map
+                .remove("gap")
+                .map(|t| parse_length("gap", &t))
+                .transpose()?;
+            let mut case = case::parse(kind, &map)?;
+            case.structure = match (spacing, gap) {
+                (None, None) => Structure::Single,
+                (Some(_), None) => Structure::EdgePair,
+                (None, Some(_)) => Structure::Coplanar,
+                (Some(_), Some(_)) => Structure::CoplanarPair,
+            };
+            case.dims.s = spacing;
+            case.dims.gap = gap;
+            case
+        }
+    };
+    let closed = case.analyze().ok();
+    let started = Instant::now();
+    let geometry = build(&case.cross_section, case.structure, &case.dims, etch)?;
+    let mut solve = FieldSolve::new(geometry, options)?;
+    solve.run();
+    let r = solve
+        .result()
+        .ok_or_else(|| anyhow!("the field solve did not finish"))??;
+    let elapsed_ms = started.elapsed().as_secs_f64() * 1e3;
+    if let Some(target) = &map_path {
+        let title = format!("{} {}", case.cross_section.family(), case.structure.label());
+        write_map(target, solve.potential_map(), &title)?;
+    }
+    let cmp = compare(
+        closed.as_ref().map(|e| (e.method, e.analysis.controlled())),
+        r.controlled_ohm,
+        r.error_estimate_pct,
+    );
+    if json {
+        let mut v = field_json(&r);
+        v["structure"] = json!(case.kind);
+        v["pattern"] = json!(case.structure.label());
+        v["family"] = json!(case.cross_section.family());
+        v["comparison"] = serde_json::to_value(&cmp)?;
+        v["time_ms"] = json!(elapsed_ms);
+        println!("{}", serde_json::to_string_pretty(&v)?);
+        return Ok(());
+    }
+    println!(
+        "{} {} (2D field solve, {:.0} ms)",
+        case.cross_section.family(),
+        case.structure.label(),
+        elapsed_ms
+    );
+    print_field(&r);
+    println!("  {}", comparison_line(&cmp));
+    for w in r.warnings.iter().chain(cmp.warnings.iter()) {
+        println!("  note: {}", w.message);
+    }
+    Ok(())
+}

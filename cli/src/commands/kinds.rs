@@ -1,0 +1,15 @@
+//! `ohmstack kinds`: the structures a line case may name, with the fields each one takes.
+
+use ohmstack_core::plan::case;
+
+use anyhow::Result;
+
+#[derive(clap::Args)]
+pub struct Args {}
+
+pub fn run(_: Args) -> Result<()> {
+    for (name, what) in case::KINDS {
+        println!("{name:<24} {what}");
+    }
+    Ok(())
+}
