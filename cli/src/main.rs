@@ -223,7 +223,7 @@ fn analyze(args: &[String]) -> Result<()> {
     );
     println!();
     println!(
-        "{:<26} {:<10} {:<52} {:>10} {:>12} {:>9} {:>8} {:>7} {:>9} {:>10}",
+        "{:<26} {:<10} {:<52} {:>10} {:>12} {:>17} {:>8} {:>7} {:>9} {:>10}",
         "rule",
         "layer",
         "structure",
@@ -239,7 +239,7 @@ fn analyze(args: &[String]) -> Result<()> {
         match outcome {
             RuleOutcome::Ok(r) => {
                 println!(
-                    "{:<26} {:<10} {:<52} {:>10} {:>12} {:>9} {:>8} {:>7} {:>9} {:>10}{}",
+                    "{:<26} {:<10} {:<52} {:>10} {:>12} {:>17} {:>8} {:>7} {:>9} {:>10}{}",
                     r.name,
                     r.layer,
                     format!(
@@ -255,7 +255,11 @@ fn analyze(args: &[String]) -> Result<()> {
                     r.spacing_m
                         .map(|s| format_length(s, unit))
                         .unwrap_or_else(|| "-".into()),
-                    format!("{:.2}", r.impedance_ohm),
+                    // A wide measured band goes next to the number, not only in a note below.
+                    match r.model_band_pct {
+                        Some(b) => format!("{:.2} (±{} %)", r.impedance_ohm, format_sig(b, 3)),
+                        None => format!("{:.2}", r.impedance_ohm),
+                    },
                     format!("{:.1}", r.target_ohm),
                     format!("{:.3}", r.eps_eff),
                     format!("{:.3}", r.delay_s_per_m * 1e9),
@@ -1238,10 +1242,14 @@ fn field_calc(args: &[String]) -> Result<()> {
         let title = format!("{} {}", case.cross_section.family(), case.structure.label());
         write_map(target, solve.potential_map(), &title)?;
     }
-    let cmp = ohmstack_core::field::compare(
+    let cmp = ohmstack_core::field::extract::compare_in_band(
         closed.as_ref().map(|e| (e.method, e.analysis.controlled())),
         r.controlled_ohm,
         r.error_estimate_pct,
+        ohmstack_core::field::bands::measured(
+            case.cross_section.family_for(case.structure),
+            case.structure,
+        ),
     );
     if json {
         let mut v = field_json(&r);

@@ -67,6 +67,10 @@ pub struct RuleResult {
     pub loss: Option<crate::loss::LossAt>,
     pub cross_section: CrossSection,
     pub warnings: Vec<Warning>,
+    /// The closed form's measured band against the field solver, ± % (docs/accuracy.md), when it is wider than
+    /// [`crate::field::bands::WIDE_BAND_PCT`]: shown next to the number. `None` for field-solver rules.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub model_band_pct: Option<f64>,
     /// Tolerance spread and yield, when asked for with [`PlanOptions::spread_samples`].
     #[serde(skip_serializing_if = "Option::is_none")]
     pub spread: Option<SpreadSummary>,
@@ -260,7 +264,20 @@ pub(crate) fn rule_figures(
             None
         }
     };
+    let model_band_pct = match rule.model {
+        crate::project::RuleModel::ClosedForm => {
+            crate::field::bands::wide(cs.family_for(rule.structure), rule.structure)
+        }
+        crate::project::RuleModel::FieldSolver => None,
+    };
+    if let Some(band) = model_band_pct {
+        warnings.push(Warning::new(format!(
+            "this closed form differs from the 2D field solver by up to ±{band} % on this structure (measured, \
+             docs/accuracy.md): solve the rule with the field solver before building to it"
+        )));
+    }
     RuleResult {
+        model_band_pct,
         name: rule.name.clone(),
         layer: rule.layer.clone(),
         family: cs.family_for(rule.structure),

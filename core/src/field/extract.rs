@@ -144,11 +144,21 @@ pub fn compare(
     field_ohm: f64,
     field_error_pct: f64,
 ) -> Comparison {
+    compare_in_band(closed, field_ohm, field_error_pct, None)
+}
+
+/// [`compare`] with the band given (the measured one of the family, `super::bands`) instead of the method's.
+pub fn compare_in_band(
+    closed: Option<(&'static str, f64)>,
+    field_ohm: f64,
+    field_error_pct: f64,
+    band: Option<f64>,
+) -> Comparison {
     let mut warnings = Vec::new();
     let (method, closed_form_ohm, difference_pct, band) = match closed {
         Some((method, z)) => {
             let diff = (z - field_ohm) / field_ohm * 100.0;
-            let band = band_pct(method);
+            let band = band.unwrap_or_else(|| band_pct(method));
             if diff.abs() > band + field_error_pct {
                 warnings.push(Warning::new(format!(
                     "{method} differs from the field solve by {diff:+.2} %, more than its stated ±{band} %"

@@ -1,7 +1,7 @@
 //! Closed form against field solve for the rules of a project: each rule's solved dimensions are re-analysed by the
 //! field solver (with the project's etch factor) and the two controlled impedances compared.
 
-use super::{build, compare, Comparison, FieldOptions, FieldResult, FieldSolve, Progress};
+use super::{build, Comparison, FieldOptions, FieldResult, FieldSolve, Progress};
 use crate::cross_section;
 use crate::error::Result;
 use crate::models::Dims;
@@ -34,6 +34,7 @@ pub struct RuleFieldJob {
     layer: String,
     family: &'static str,
     structure: &'static str,
+    kind: crate::project::Structure,
     dims: Dims,
     etch: Option<f64>,
     closed: Option<(&'static str, f64)>,
@@ -65,6 +66,7 @@ impl RuleFieldJob {
             layer: rule.layer.clone(),
             family: cs.family_for(rule.structure),
             structure: rule.structure.label(),
+            kind: rule.structure,
             dims,
             etch,
             closed,
@@ -98,7 +100,13 @@ impl RuleFieldJob {
             Ok(f) => f,
             Err(e) => return Some(Err(e)),
         };
-        let mut comparison = compare(self.closed, field.controlled_ohm, field.error_estimate_pct);
+        let band = super::bands::measured(self.family, self.kind);
+        let mut comparison = super::extract::compare_in_band(
+            self.closed,
+            field.controlled_ohm,
+            field.error_estimate_pct,
+            band,
+        );
         comparison.warnings.extend(self.notes.iter().cloned());
         Some(Ok(RuleCheck {
             name: self.name.clone(),
