@@ -273,7 +273,8 @@ pub(crate) fn rule_figures(
     if let Some(band) = model_band_pct {
         warnings.push(Warning::new(format!(
             "this closed form differs from the 2D field solver by up to ±{band} % on this structure (measured, \
-             docs/accuracy.md): solve the rule with the field solver before building to it"
+             docs/accuracy.md), and a solved width can be off by far more where Z changes slowly with width: \
+             solve the rule with the field solver before building to it"
         )));
     }
     RuleResult {
