@@ -1246,10 +1246,7 @@ fn field_calc(args: &[String]) -> Result<()> {
         closed.as_ref().map(|e| (e.method, e.analysis.controlled())),
         r.controlled_ohm,
         r.error_estimate_pct,
-        ohmstack_core::field::bands::measured(
-            case.cross_section.family_for(case.structure),
-            case.structure,
-        ),
+        ohmstack_core::field::bands::measured_for(&case.cross_section, case.structure, &case.dims),
     );
     if json {
         let mut v = field_json(&r);

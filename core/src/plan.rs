@@ -266,7 +266,7 @@ pub(crate) fn rule_figures(
     };
     let model_band_pct = match rule.model {
         crate::project::RuleModel::ClosedForm => {
-            crate::field::bands::wide(cs.family_for(rule.structure), rule.structure)
+            crate::field::bands::wide_for(&cs, rule.structure, &dims)
         }
         crate::project::RuleModel::FieldSolver => None,
     };

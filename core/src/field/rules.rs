@@ -34,7 +34,8 @@ pub struct RuleFieldJob {
     layer: String,
     family: &'static str,
     structure: &'static str,
-    kind: crate::project::Structure,
+    /// The closed form's measured band for this cross-section (`super::bands`).
+    band: Option<f64>,
     dims: Dims,
     etch: Option<f64>,
     closed: Option<(&'static str, f64)>,
@@ -66,7 +67,7 @@ impl RuleFieldJob {
             layer: rule.layer.clone(),
             family: cs.family_for(rule.structure),
             structure: rule.structure.label(),
-            kind: rule.structure,
+            band: super::bands::measured_for(&cs, rule.structure, &dims),
             dims,
             etch,
             closed,
@@ -100,12 +101,11 @@ impl RuleFieldJob {
             Ok(f) => f,
             Err(e) => return Some(Err(e)),
         };
-        let band = super::bands::measured(self.family, self.kind);
         let mut comparison = super::extract::compare_in_band(
             self.closed,
             field.controlled_ohm,
             field.error_estimate_pct,
-            band,
+            self.band,
         );
         comparison.warnings.extend(self.notes.iter().cloned());
         Some(Ok(RuleCheck {
