@@ -196,6 +196,13 @@ proptest! {
 
     #[test]
     fn impedance_falls_with_width_and_rises_with_height(c in case()) {
+        // Where copper closes most of a coplanar slot the thickness correction is capped and the result says it
+        // is rough (a warning on the rule); the capped correction no longer follows the width, so this law is
+        // checked only where the model does not disown its number.
+        let capped = |c: &Case| c.analyze().warnings().iter().any(|w| w.message.contains("capped"));
+        if capped(&c) || capped(&Case { w: c.w * 1.1, ..c }) {
+            return Ok(());
+        }
         let z = |c: &Case| -> Vec<f64> { modes(&c.analyze()).into_iter().map(|m| m.0).collect() };
         let base = z(&c);
         let wider = z(&Case { w: c.w * 1.1, ..c });
