@@ -1,6 +1,8 @@
 //! Workspace integration tests: exact analytic references and regressions, against the public core API.
 
 mod closed_form;
+mod field_sweep;
+mod physical_bounds;
 mod properties;
 mod regression;
 mod schema;

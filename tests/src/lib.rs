@@ -1,1 +1,2 @@
 //! Shared helpers for the integration tests (fixtures and comparisons).
+pub mod stacks;

@@ -37,7 +37,7 @@ pub fn run(args: Args) -> Result<()> {
     );
     println!();
     println!(
-        "{:<26} {:<10} {:<52} {:>10} {:>12} {:>9} {:>8} {:>7} {:>9} {:>10}",
+        "{:<26} {:<10} {:<52} {:>10} {:>12} {:>17} {:>8} {:>7} {:>9} {:>10}",
         "rule",
         "layer",
         "structure",
@@ -53,7 +53,7 @@ pub fn run(args: Args) -> Result<()> {
         match outcome {
             RuleOutcome::Ok(r) => {
                 println!(
-                    "{:<26} {:<10} {:<52} {:>10} {:>12} {:>9} {:>8} {:>7} {:>9} {:>10}{}",
+                    "{:<26} {:<10} {:<52} {:>10} {:>12} {:>17} {:>8} {:>7} {:>9} {:>10}{}",
                     r.name,
                     r.layer,
                     format!(
@@ -69,7 +69,11 @@ pub fn run(args: Args) -> Result<()> {
                     r.spacing_m
                         .map(|s| format_length(s, unit))
                         .unwrap_or_else(|| "-".into()),
-                    format!("{:.2}", r.impedance_ohm),
+                    // A wide measured band goes next to the number, not only in a note below.
+                    match r.model_band_pct {
+                        Some(b) => format!("{:.2} (±{} %)", r.impedance_ohm, format_sig(b, 3)),
+                        None => format!("{:.2}", r.impedance_ohm),
+                    },
                     format!("{:.1}", r.target_ohm),
                     format!("{:.3}", r.eps_eff),
                     format!("{:.3}", r.delay_s_per_m * 1e9),

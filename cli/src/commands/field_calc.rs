@@ -1,7 +1,9 @@
 //! `ohmstack field-calc KIND`: a 2D field solve of one structure given by its dimensions, next to the closed form.
 
 use ohmstack_core::base::units::parse_length;
-use ohmstack_core::field::{build, compare, FieldSolve};
+use ohmstack_core::closed_form::bands;
+use ohmstack_core::field::extract::compare_in_band;
+use ohmstack_core::field::{build, FieldSolve};
 use ohmstack_core::plan::case;
 use ohmstack_core::Structure;
 
@@ -79,10 +81,11 @@ pub fn run(args: Args) -> Result<()> {
         let title = format!("{} {}", case.cross_section.family(), case.structure.label());
         write_map(target, solve.potential_map(), &title)?;
     }
-    let cmp = compare(
+    let cmp = compare_in_band(
         closed.as_ref().map(|e| (e.method, e.analysis.controlled())),
         r.controlled_ohm,
         r.error_estimate_pct,
+        bands::measured_for(&case.cross_section, case.structure, &case.dims),
     );
     if json {
         let mut v = field_json(&r);

@@ -27,7 +27,8 @@
 //! εeff,t = εeff − 0.7(εeff−1)(t/G)/(q(k1) + 0.7t/G), Z0 = η0/(4√εeff,t·q(ke)). Written as partial capacitances,
 //! (7.100) adds an air-filled wall capacitance ΔC = 2.8ε0·t/G to both the real and the air-filled line. For the
 //! conductor-backed line (not covered by Gupta et al.) we add the same ΔC to the capacitances of that line and use
-//! ke in its coplanar (upper) term only; this is our extension, flagged as such in the module doc (scikit-rf keeps
+//! ke in its coplanar (upper) term only; under a cover the wall term of the real line takes the cover's Dk in the
+//! slot (`slot_fill_dk`); both are our extensions, flagged as such in the module doc (scikit-rf keeps
 //! (7.100) with q(k1) alone in the denominator, which counts the wall term against half the air capacitance).
 //!
 //! Validity: the partial-capacitance split assumes the substrate–air interface away from the slots is a magnetic
@@ -215,6 +216,22 @@ pub(crate) fn cover_layer(
     }
 }
 
+/// The Dk the thickness term's slot walls see (Gupta et al.'s wall capacitance 1.4ε0·t/gap per wall pair is
+/// air-filled): a dielectric cover (pressed prepreg, core) fills the slot, so εc; a conformal mask of thickness c
+/// coats both walls and leaves air between them, so the series value gap/(2c/εc + gap − 2c) (parallel-plate
+/// series, exact for plane walls; our extension, no source); nothing over the copper, 1. Without it a thick cover
+/// of the substrate's Dk gave εeff below that Dk (the physical-bound property tests found it).
+pub(crate) fn slot_fill_dk(backing: Backing, gap: f64) -> f64 {
+    match backing {
+        Backing::None | Backing::Plane(Cover::Air) => 1.0,
+        Backing::Plane(Cover::Dielectric { er, .. }) => er,
+        Backing::Plane(Cover::Mask { thickness_m, er }) => {
+            let c = thickness_m.min(gap / 2.0);
+            gap / (2.0 * c / er + gap - 2.0 * c)
+        }
+    }
+}
+
 /// Gupta et al. 1996 eq. (7.98): the widening Δ of a strip of width `w` from its thickness `t`.
 ///
 /// The formula is made for t ≪ w; for t > 4πw·e it turns negative (a thick strip would "narrow"), which drove
@@ -294,7 +311,7 @@ impl Coplanar {
         }
         let qe = k_ratio(ke);
         let wall = 2.8 * self.t / self.g;
-        let eps_eff = (c + wall) / (c_air + wall);
+        let eps_eff = (c + slot_fill_dk(self.backing, self.g) * wall) / (c_air + wall);
         let c_air_e = match self.backing {
             Backing::None => 4.0 * qe,
             Backing::Plane(_) => c_air - 2.0 * q1 + 2.0 * qe,

@@ -1,6 +1,7 @@
 //! Dispatch from a resolved cross-section and a rule's structure to the family module that models it.
 //! This is the one place that knows which published method serves which geometry.
 
+pub mod bands;
 pub mod coated_microstrip;
 pub mod coplanar;
 pub mod coupled_coplanar;

@@ -144,14 +144,25 @@ pub fn compare(
     field_ohm: f64,
     field_error_pct: f64,
 ) -> Comparison {
+    compare_in_band(closed, field_ohm, field_error_pct, None)
+}
+
+/// [`compare`] with the band given (the measured one of the family, `super::bands`) instead of the method's.
+pub fn compare_in_band(
+    closed: Option<(&'static str, f64)>,
+    field_ohm: f64,
+    field_error_pct: f64,
+    band: Option<f64>,
+) -> Comparison {
     let mut warnings = Vec::new();
     let (method, closed_form_ohm, difference_pct, band) = match closed {
         Some((method, z)) => {
             let diff = (z - field_ohm) / field_ohm * 100.0;
-            let band = band_pct(method);
+            let kind = if band.is_some() { "measured" } else { "stated" };
+            let band = band.unwrap_or_else(|| band_pct(method));
             if diff.abs() > band + field_error_pct {
                 warnings.push(Warning::new(format!(
-                    "{method} differs from the field solve by {diff:+.2} %, more than its stated ±{band} %"
+                    "{method} differs from the field solve by {diff:+.2} %, more than its {kind} ±{band} %"
                 )));
             }
             (Some(method), Some(z), Some(diff), Some(band))
@@ -193,6 +204,20 @@ mod tests {
         assert!((p.eps_eff_odd - 1.0).abs() < 1e-12 && (p.eps_eff_even - 1.0).abs() < 1e-12);
         let z_odd = 1.0 / (C0 * 120e-12);
         assert!((p.z_odd - z_odd).abs() / z_odd < 1e-12);
+    }
+
+    #[test]
+    fn a_given_band_replaces_the_methods_and_is_called_measured() {
+        // Arithmetic: +20 % is outside ±19 % + 0.5 % and inside ±20 % + 0.5 %.
+        let c = compare_in_band(Some(("Ghione–Naldi 1983", 60.0)), 50.0, 0.5, Some(19.0));
+        assert_eq!(c.band_pct, Some(19.0));
+        assert!(
+            c.warnings[0].message.contains("measured ±19 %"),
+            "{:?}",
+            c.warnings
+        );
+        let inside = compare_in_band(Some(("Ghione–Naldi 1983", 60.0)), 50.0, 0.5, Some(20.0));
+        assert!(inside.warnings.is_empty());
     }
 
     #[test]

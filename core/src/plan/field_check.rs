@@ -3,8 +3,9 @@
 
 use crate::base::error::Result;
 use crate::base::validity::Warning;
+use crate::closed_form::bands;
 use crate::design::project::{ImpedanceRule, Project};
-use crate::field::{build, compare, Comparison, FieldOptions, FieldResult, FieldSolve, Progress};
+use crate::field::{build, Comparison, FieldOptions, FieldResult, FieldSolve, Progress};
 use crate::section;
 use crate::section::Dims;
 use serde::Serialize;
@@ -33,6 +34,8 @@ pub struct RuleFieldJob {
     layer: String,
     family: &'static str,
     structure: &'static str,
+    /// The closed form's measured band for this cross-section (`closed_form::bands`).
+    band: Option<f64>,
     dims: Dims,
     etch: Option<f64>,
     closed: Option<(&'static str, f64)>,
@@ -64,6 +67,7 @@ impl RuleFieldJob {
             layer: rule.layer.clone(),
             family: cs.family_for(rule.structure),
             structure: rule.structure.label(),
+            band: bands::measured_for(&cs, rule.structure, &dims),
             dims,
             etch,
             closed,
@@ -97,7 +101,12 @@ impl RuleFieldJob {
             Ok(f) => f,
             Err(e) => return Some(Err(e)),
         };
-        let mut comparison = compare(self.closed, field.controlled_ohm, field.error_estimate_pct);
+        let mut comparison = crate::field::extract::compare_in_band(
+            self.closed,
+            field.controlled_ohm,
+            field.error_estimate_pct,
+            self.band,
+        );
         comparison.warnings.extend(self.notes.iter().cloned());
         Some(Ok(RuleCheck {
             name: self.name.clone(),

@@ -53,6 +53,10 @@ pub struct RuleResult {
     pub loss: Option<crate::line::loss::LossAt>,
     pub cross_section: CrossSection,
     pub warnings: Vec<Warning>,
+    /// The closed form's measured band against the field solver, ± % (docs/accuracy.md), when it is wider than
+    /// [`crate::closed_form::bands::WIDE_BAND_PCT`]: shown next to the number. `None` for field-solver figures.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub model_band_pct: Option<f64>,
     /// Tolerance spread and yield, when asked for with [`PlanOptions::spread_samples`].
     #[serde(skip_serializing_if = "Option::is_none")]
     pub spread: Option<SpreadSummary>,
@@ -243,7 +247,20 @@ pub fn rule_figures(
             None
         }
     };
+    let model_band_pct = if method == crate::engine::FIELD_METHOD {
+        None
+    } else {
+        crate::closed_form::bands::wide_for(&cs, rule.structure, &dims)
+    };
+    if let Some(band) = model_band_pct {
+        warnings.push(Warning::new(format!(
+            "this closed form differs from the 2D field solver by up to ±{band} % on this structure (measured, \
+             docs/accuracy.md), and a solved width can be off by far more where Z changes slowly with width: \
+             solve the rule with the field solver before building to it"
+        )));
+    }
     RuleResult {
+        model_band_pct,
         name: rule.name.clone(),
         layer: rule.layer.clone(),
         family: cs.family_for(rule.structure),

@@ -372,6 +372,17 @@ pub fn resolve(stackup: &Stackup, rule: &ImpedanceRule) -> Result<CrossSection> 
             warnings.push(Warning::new(
                 "no reference plane: coplanar grounds are the only return path",
             ));
+            // The no-plane models (closed form and field solver alike) have no cover: say so rather than
+            // let a mask go unnoticed (a dielectric over the slots only adds capacitance, so the bare Z reads high).
+            let masked = [idx.checked_sub(1), Some(idx + 1)]
+                .into_iter()
+                .flatten()
+                .any(|j| matches!(stackup.layers.get(j), Some(Layer::SolderMask(_))));
+            if masked {
+                warnings.push(Warning::new(
+                    "solder mask over a coplanar line without a plane is not modelled: computed bare, so Z reads somewhat high",
+                ));
+            }
             Medium::NoPlane { h, er }
         }
         (None, None, None) => {
