@@ -458,6 +458,7 @@ impl Family {
         LineCase {
             kind: format!("{self:?}"),
             cross_section: CrossSection {
+                loss: Default::default(),
                 medium,
                 t,
                 references: Vec::new(),
@@ -551,6 +552,7 @@ proptest! {
     ) {
         for structure in [Structure::Single, Structure::EdgePair] {
             let cs = |a, b| CrossSection {
+                loss: Default::default(),
                 medium: Medium::Stripline { h_below: a, h_above: b, er, dual: false },
                 t,
                 references: Vec::new(),

@@ -141,6 +141,7 @@ fn fuzz_models_coplanar_thick_narrow_strip() {
     use ohmstack_core::section::{CrossSection, Medium};
     use ohmstack_core::Structure;
     let cs = CrossSection {
+        loss: Default::default(),
         medium: Medium::NoPlane {
             h: 0.04725843667006398,
             er: 1.0054834447335024,

@@ -234,6 +234,7 @@ mod properties {
         LineCase {
             kind: "coated-microstrip".into(),
             cross_section: CrossSection {
+                loss: Default::default(),
                 medium: Medium::Microstrip { h: H, er, cover },
                 t: tn * H,
                 references: Vec::new(),

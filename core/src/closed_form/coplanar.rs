@@ -518,6 +518,7 @@ mod tests {
         use crate::design::project::Structure;
         use crate::section::{CrossSection, Medium};
         let cs = |medium| CrossSection {
+            loss: Default::default(),
             medium,
             t: 0.0,
             references: Vec::new(),
@@ -582,6 +583,7 @@ mod tests {
             LineCase {
                 kind: "test".into(),
                 cross_section: CrossSection {
+                    loss: Default::default(),
                     medium,
                     t,
                     references: Vec::new(),

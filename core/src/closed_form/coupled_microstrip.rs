@@ -576,6 +576,7 @@ mod properties {
         LineCase {
             kind: "edge-coupled-microstrip".into(),
             cross_section: CrossSection {
+                loss: Default::default(),
                 medium: Medium::Microstrip { h: H, er, cover },
                 t: tn * H,
                 references: Vec::new(),

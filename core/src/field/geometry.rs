@@ -643,6 +643,7 @@ mod tests {
 
     fn ms(cover: Cover) -> CrossSection {
         CrossSection {
+            loss: Default::default(),
             medium: Medium::Microstrip {
                 h: 100e-6,
                 er: 4.0,

@@ -332,6 +332,7 @@ mod tests {
 
     fn microstrip() -> CrossSection {
         CrossSection {
+            loss: Default::default(),
             medium: Medium::Microstrip {
                 h: 170e-6,
                 er: 4.2,
@@ -455,6 +456,7 @@ mod tests {
     #[test]
     fn broadside_map_drives_upper_positive() {
         let cs = CrossSection {
+            loss: Default::default(),
             medium: Medium::Broadside {
                 h_above: 150e-6,
                 separation: 120e-6,

@@ -42,6 +42,7 @@ fn cohn_coupled(w: f64, s: f64, b: f64, er: f64) -> (f64, f64) {
 
 fn stripline(h: f64, er: f64, t: f64) -> CrossSection {
     CrossSection {
+        loss: Default::default(),
         medium: Medium::Stripline {
             h_below: h,
             h_above: h,
@@ -131,6 +132,7 @@ fn edge_coupled_stripline_matches_cohn_within_0_3_pct() {
 
 fn microstrip(h: f64, er: f64, t: f64, cover: Cover) -> CrossSection {
     CrossSection {
+        loss: Default::default(),
         medium: Medium::Microstrip { h, er, cover },
         t,
         references: vec![],
@@ -194,6 +196,7 @@ fn coplanar_in_air_matches_the_exact_conformal_map() {
     // Z0 = η0/4 · K(k′)/K(k), k = w/(w + 2g) (Wen 1969 conformal map with εr = 1, from memory).
     let (w, g) = (100e-6, 50e-6);
     let cs = CrossSection {
+        loss: Default::default(),
         medium: Medium::NoPlane { h: 100e-6, er: 1.0 },
         t: 0.0,
         references: vec![],
@@ -386,6 +389,7 @@ fn explicit_layers_of_equal_dk_match_the_merged_slab() {
 fn broadside_pair_in_one_dielectric() {
     // Homogeneous dielectric: both modes have εeff = εr exactly; the odd mode (strong coupling) is below the even.
     let cs = CrossSection {
+        loss: Default::default(),
         medium: Medium::Broadside {
             h_above: 150e-6,
             separation: 100e-6,
@@ -464,6 +468,7 @@ fn bad_options_and_geometry_are_errors() {
     .unwrap_err();
     assert!(e.to_string().starts_with("width"), "{e}");
     let bad = CrossSection {
+        loss: Default::default(),
         medium: Medium::Stripline {
             h_below: -1.0,
             h_above: 1e-4,
@@ -488,6 +493,7 @@ fn bad_options_and_geometry_are_errors() {
     let e = solve_cross_section(&cs, Structure::Single, &single(1e-4), None, tiny).unwrap_err();
     assert!(e.to_string().starts_with("grid"), "{e}");
     let none = CrossSection {
+        loss: Default::default(),
         medium: Medium::NoPlane { h: 1e-4, er: 3.0 },
         ..cs
     };

@@ -67,8 +67,8 @@ use crate::closed_form::microstrip;
 use crate::design::dielectric::Dispersive;
 pub use crate::design::loss_options::{LossOptions, COPPER_CONDUCTIVITY};
 use crate::design::project::{ImpedanceRule, Project, Structure};
-use crate::design::roughness::Roughness;
-use crate::design::stackup::Stackup;
+pub use crate::section::Surfaces;
+
 use crate::line::dispersion;
 use crate::section::{Analysis, Dims};
 use crate::section::{Cover, CrossSection, Medium};
@@ -91,15 +91,6 @@ pub fn skin_depth(f_hz: f64, conductivity: f64) -> f64 {
 /// Surface resistance Rs = 1/(σδ) = √(π f µ0/σ), Ω per square.
 pub fn surface_resistance(f_hz: f64, conductivity: f64) -> f64 {
     (PI * f_hz * MU0 / conductivity).sqrt()
-}
-
-/// The copper surfaces of a line: the trace layer (also its coplanar grounds) and the planes on each side.
-/// For a microstrip the one plane is `plane_below` (whatever side it is on); `plane_above` is then unused.
-#[derive(Debug, Clone, Copy, PartialEq, Default, Serialize)]
-pub struct Surfaces {
-    pub trace: Roughness,
-    pub plane_above: Roughness,
-    pub plane_below: Roughness,
 }
 
 /// Everything beyond geometry that loss needs.
@@ -726,123 +717,21 @@ pub fn propagation(r: f64, l: f64, g: f64, c: f64, omega: f64) -> (Complex64, Co
     (zc, gamma)
 }
 
-/// Series (energy-weighted) Dk, Df and log-mean spec frequency of the dielectric layers strictly between two
-/// layer indices: in series the field D is common, so each layer's stored energy goes as h/ε.
-fn series_group(stackup: &Stackup, a: usize, b: usize) -> Option<(f64, f64, f64, f64)> {
-    series_range(stackup, a.min(b) + 1..a.max(b))
-}
-
-/// As [`series_group`] over the layers in `range`.
-fn series_range(stackup: &Stackup, range: std::ops::Range<usize>) -> Option<(f64, f64, f64, f64)> {
-    let (mut h, mut h_over_e, mut tan_w, mut logf_w) = (0.0, 0.0, 0.0, 0.0);
-    for idx in range.start..range.end.min(stackup.layers.len()) {
-        if let Some(d) = stackup.layers[idx].dielectric() {
-            let hi_ = stackup.pressed_thickness_m(idx);
-            h += hi_;
-            h_over_e += hi_ / d.dk;
-            tan_w += hi_ / d.dk * d.df;
-            logf_w += hi_ / d.dk * d.spec_freq_hz.log10();
-        }
-    }
-    (h > 0.0).then(|| (h, h / h_over_e, tan_w / h_over_e, logf_w / h_over_e))
-}
-
-/// Df and spec frequency of the dielectric a rule's line sees: each dielectric region between the trace and a
-/// plane (and between the traces of a broadside pair) is combined in series, the regions in parallel weighted
-/// by their capacitance ε/h. Solder mask and cover layers are left out (their share of the field is small).
-/// An approximate energy weighting (our choice, no source).
-fn rule_dielectric(stackup: &Stackup, rule: &ImpedanceRule, cs: &CrossSection) -> (f64, f64) {
-    let Some(idx) = stackup.find(&rule.layer) else {
-        return (0.0, 1e9);
-    };
-    let partner = rule.partner_layer.as_deref().and_then(|p| stackup.find(p));
-    let mut groups = Vec::new();
-    for name in &cs.references {
-        if let Some(j) = stackup.find(name) {
-            let near = match partner {
-                Some(p) if (p as i64 - j as i64).abs() < (idx as i64 - j as i64).abs() => p,
-                _ => idx,
-            };
-            groups.extend(series_group(stackup, j, near));
-        }
-    }
-    if let Some(p) = partner {
-        groups.extend(series_group(stackup, idx, p));
-    }
-    if groups.is_empty() {
-        // No plane: the thicker dielectric side, to the board edge.
-        let up = series_range(stackup, 0..idx);
-        let down = series_range(stackup, idx + 1..stackup.layers.len());
-        let pick = match (up, down) {
-            (Some(u), Some(d)) => Some(if u.0 > d.0 { u } else { d }),
-            (u, d) => u.or(d),
-        };
-        groups.extend(pick);
-    }
-    let (mut w, mut tan, mut logf) = (0.0, 0.0, 0.0);
-    for (h, er, t, lf) in groups {
-        let c = er / h;
-        w += c;
-        tan += c * t;
-        logf += c * lf;
-    }
-    if w > 0.0 {
-        (tan / w, 10f64.powf(logf / w))
-    } else {
-        (0.0, 1e9)
-    }
-}
-
-/// Builds the loss inputs of `rule` (already resolved to `cs`) from the project's stackup and loss options.
-pub fn inputs_for_rule(
-    project: &Project,
-    rule: &ImpedanceRule,
-    cs: &CrossSection,
-) -> Result<LossInputs> {
-    let stackup = &project.stackup;
-    project.loss.validate()?;
-    let roughness_of = |name: &str| -> Roughness {
-        stackup
-            .find(name)
-            .and_then(|i| stackup.layers[i].copper())
-            .and_then(|c| c.roughness)
-            .unwrap_or_default()
-    };
-    let trace = roughness_of(&rule.layer);
-    let idx = stackup.find(&rule.layer).unwrap_or(0);
-    let mut surfaces = Surfaces {
-        trace,
-        ..Surfaces::default()
-    };
-    match cs.medium {
-        Medium::Microstrip { .. } => {
-            if let Some(name) = cs.references.first() {
-                surfaces.plane_below = roughness_of(name);
-            }
-        }
-        _ => {
-            for name in &cs.references {
-                let r = roughness_of(name);
-                match stackup.find(name) {
-                    Some(j) if j < idx => surfaces.plane_above = r,
-                    Some(_) => surfaces.plane_below = r,
-                    None => {}
-                }
-            }
-        }
-    }
-    let (df, spec) = rule_dielectric(stackup, rule, cs);
+/// The loss inputs of a resolved cross-section under the project's loss options: the section carries the loss
+/// tangent, its spec frequency and the copper surfaces the stack gives the line ([`crate::section::SectionLoss`]).
+pub fn inputs_for_section(options: &LossOptions, cs: &CrossSection) -> Result<LossInputs> {
+    options.validate()?;
     let dielectric = Dispersive::fit(
-        project.loss.dielectric,
+        options.dielectric,
         medium_er(&cs.medium),
-        df.clamp(0.0, 1.0),
-        spec.clamp(1.0, 1e12),
+        cs.loss.df.clamp(0.0, 1.0),
+        cs.loss.spec_freq_hz.clamp(1.0, 1e12),
     )?;
     Ok(LossInputs {
-        conductivity_s_per_m: project.loss.conductivity_s_per_m,
-        surfaces,
+        conductivity_s_per_m: options.conductivity_s_per_m,
+        surfaces: cs.loss.surfaces,
         dielectric,
-        dispersion: project.loss.dispersion,
+        dispersion: options.dispersion,
     })
 }
 
@@ -853,7 +742,7 @@ pub fn for_rule(
     cs: &CrossSection,
     dims: &Dims,
 ) -> Result<LineModel> {
-    let inputs = inputs_for_rule(project, rule, cs)?;
+    let inputs = inputs_for_section(&project.loss, cs)?;
     LineModel::new(cs, rule.structure, dims, inputs)
 }
 
@@ -861,9 +750,11 @@ pub fn for_rule(
 mod tests {
     use super::*;
     use crate::design::dielectric::DielectricModel;
+    use crate::design::roughness::Roughness;
 
     fn microstrip_model(w: f64, h: f64, t: f64, er: f64, df: f64, rough: Roughness) -> LineModel {
         let cs = CrossSection {
+            loss: Default::default(),
             medium: Medium::Microstrip {
                 h,
                 er,
@@ -1070,7 +961,7 @@ mod tests {
         rule.structure = Structure::Single;
         rule.solve = crate::design::project::Solve::Nothing;
         let cs = crate::section::resolve(&p.stackup, &rule).unwrap();
-        let (df, spec) = rule_dielectric(&p.stackup, &rule, &cs);
+        let (df, spec) = crate::section::rule_dielectric(&p.stackup, &rule, &cs);
         let expect = (100e-6 / 3.0 * 0.002 + 200e-6 / 4.0 * 0.02) / (100e-6 / 3.0 + 200e-6 / 4.0);
         assert!((df - expect).abs() < 1e-15, "{df} vs {expect}");
         assert!((spec - 1e9).abs() < 1e-3);
@@ -1083,13 +974,14 @@ mod tests {
             / (20e-6 / 3.5 + 100e-6 / 3.0 + 200e-6 / 4.0);
         rule.structure = Structure::Coplanar;
         let cs = CrossSection {
+            loss: Default::default(),
             medium: Medium::NoPlane { h: 335e-6, er: 3.6 },
             t: 35e-6,
             references: vec![],
             warnings: vec![],
         };
         rule.layer = "G".into();
-        let (df_up, _) = rule_dielectric(&p.stackup, &rule, &cs);
+        let (df_up, _) = crate::section::rule_dielectric(&p.stackup, &rule, &cs);
         assert!((df_up - expect).abs() < 1e-15, "{df_up}");
     }
 
@@ -1111,6 +1003,7 @@ mod tests {
     #[test]
     fn zero_thickness_is_an_error_not_a_panic() {
         let cs = CrossSection {
+            loss: Default::default(),
             medium: Medium::Microstrip {
                 h: 1e-4,
                 er: 4.0,

@@ -205,6 +205,7 @@ mod tests {
         use crate::line::loss::{LossInputs, Surfaces};
         use crate::section::{Cover, CrossSection, Medium};
         let cs = CrossSection {
+            loss: Default::default(),
             medium: Medium::Microstrip {
                 h: 170e-6,
                 er: 4.2,

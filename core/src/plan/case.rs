@@ -237,6 +237,7 @@ pub fn parse(kind: &str, fields: &BTreeMap<String, String>) -> Result<LineCase> 
     Ok(LineCase {
         kind: kind.to_string(),
         cross_section: CrossSection {
+            loss: Default::default(),
             medium,
             t,
             references: Vec::new(),

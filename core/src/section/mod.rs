@@ -7,6 +7,7 @@
 use crate::base::error::{Error, Result};
 use crate::base::validity::Warning;
 use crate::design::project::{ImpedanceRule, Structure};
+use crate::design::roughness::Roughness;
 use crate::design::stackup::{CopperRole, Layer, Stackup};
 use serde::Serialize;
 
@@ -79,6 +80,38 @@ pub struct CrossSection {
     pub references: Vec<String>,
     /// Notes from resolving (mixed dielectrics, unusual references).
     pub warnings: Vec<Warning>,
+    /// What the loss models need of the stack (not part of the geometry; lossless and smooth when a section is
+    /// built by hand rather than resolved).
+    #[serde(skip)]
+    pub loss: SectionLoss,
+}
+
+/// The copper surfaces of a line: the trace layer (also its coplanar grounds) and the planes on each side.
+/// For a microstrip the one plane is `plane_below` (whatever side it is on); `plane_above` is then unused.
+#[derive(Debug, Clone, Copy, PartialEq, Default, Serialize)]
+pub struct Surfaces {
+    pub trace: Roughness,
+    pub plane_above: Roughness,
+    pub plane_below: Roughness,
+}
+
+/// The loss side of a resolved section: the loss tangent and its spec frequency of the dielectric the line sees,
+/// and its copper surfaces.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct SectionLoss {
+    pub df: f64,
+    pub spec_freq_hz: f64,
+    pub surfaces: Surfaces,
+}
+
+impl Default for SectionLoss {
+    fn default() -> Self {
+        SectionLoss {
+            df: 0.0,
+            spec_freq_hz: 1e9,
+            surfaces: Surfaces::default(),
+        }
+    }
 }
 
 impl CrossSection {
@@ -395,12 +428,127 @@ pub fn resolve(stackup: &Stackup, rule: &ImpedanceRule) -> Result<CrossSection> 
             })
         }
     };
-    Ok(CrossSection {
+    let mut cs = CrossSection {
         medium,
         t,
         references,
         warnings,
-    })
+        loss: SectionLoss::default(),
+    };
+    let (df, spec_freq_hz) = rule_dielectric(stackup, rule, &cs);
+    cs.loss = SectionLoss {
+        df,
+        spec_freq_hz,
+        surfaces: surfaces(stackup, idx, &cs),
+    };
+    Ok(cs)
+}
+
+/// The copper surfaces a resolved line sees: its own layer's and those of its reference planes.
+fn surfaces(stackup: &Stackup, idx: usize, cs: &CrossSection) -> Surfaces {
+    let roughness_of = |name: &str| -> Roughness {
+        stackup
+            .find(name)
+            .and_then(|i| stackup.layers[i].copper())
+            .and_then(|c| c.roughness)
+            .unwrap_or_default()
+    };
+    let mut surfaces = Surfaces {
+        trace: stackup.layers[idx]
+            .copper()
+            .and_then(|c| c.roughness)
+            .unwrap_or_default(),
+        ..Surfaces::default()
+    };
+    match cs.medium {
+        Medium::Microstrip { .. } => {
+            if let Some(name) = cs.references.first() {
+                surfaces.plane_below = roughness_of(name);
+            }
+        }
+        _ => {
+            for name in &cs.references {
+                let r = roughness_of(name);
+                match stackup.find(name) {
+                    Some(j) if j < idx => surfaces.plane_above = r,
+                    Some(_) => surfaces.plane_below = r,
+                    None => {}
+                }
+            }
+        }
+    }
+    surfaces
+}
+
+/// Series (energy-weighted) Dk, Df and log-mean spec frequency of the dielectric layers strictly between two
+/// layer indices: in series the field D is common, so each layer's stored energy goes as h/ε.
+fn series_group(stackup: &Stackup, a: usize, b: usize) -> Option<(f64, f64, f64, f64)> {
+    series_range(stackup, a.min(b) + 1..a.max(b))
+}
+
+/// As [`series_group`] over the layers in `range`.
+fn series_range(stackup: &Stackup, range: std::ops::Range<usize>) -> Option<(f64, f64, f64, f64)> {
+    let (mut h, mut h_over_e, mut tan_w, mut logf_w) = (0.0, 0.0, 0.0, 0.0);
+    for idx in range.start..range.end.min(stackup.layers.len()) {
+        if let Some(d) = stackup.layers[idx].dielectric() {
+            let hi_ = stackup.pressed_thickness_m(idx);
+            h += hi_;
+            h_over_e += hi_ / d.dk;
+            tan_w += hi_ / d.dk * d.df;
+            logf_w += hi_ / d.dk * d.spec_freq_hz.log10();
+        }
+    }
+    (h > 0.0).then(|| (h, h / h_over_e, tan_w / h_over_e, logf_w / h_over_e))
+}
+
+/// Df and spec frequency of the dielectric a rule's line sees: each dielectric region between the trace and a
+/// plane (and between the traces of a broadside pair) is combined in series, the regions in parallel weighted
+/// by their capacitance ε/h. Solder mask and cover layers are left out (their share of the field is small).
+/// An approximate energy weighting (our choice, no source).
+pub(crate) fn rule_dielectric(
+    stackup: &Stackup,
+    rule: &ImpedanceRule,
+    cs: &CrossSection,
+) -> (f64, f64) {
+    let Some(idx) = stackup.find(&rule.layer) else {
+        return (0.0, 1e9);
+    };
+    let partner = rule.partner_layer.as_deref().and_then(|p| stackup.find(p));
+    let mut groups = Vec::new();
+    for name in &cs.references {
+        if let Some(j) = stackup.find(name) {
+            let near = match partner {
+                Some(p) if (p as i64 - j as i64).abs() < (idx as i64 - j as i64).abs() => p,
+                _ => idx,
+            };
+            groups.extend(series_group(stackup, j, near));
+        }
+    }
+    if let Some(p) = partner {
+        groups.extend(series_group(stackup, idx, p));
+    }
+    if groups.is_empty() {
+        // No plane: the thicker dielectric side, to the board edge.
+        let up = series_range(stackup, 0..idx);
+        let down = series_range(stackup, idx + 1..stackup.layers.len());
+        let pick = match (up, down) {
+            (Some(u), Some(d)) => Some(if u.0 > d.0 { u } else { d }),
+            (u, d) => u.or(d),
+        };
+        groups.extend(pick);
+    }
+    let (mut w, mut tan, mut logf) = (0.0, 0.0, 0.0);
+    for (h, er, t, lf) in groups {
+        let c = er / h;
+        w += c;
+        tan += c * t;
+        logf += c * lf;
+    }
+    if w > 0.0 {
+        (tan / w, 10f64.powf(logf / w))
+    } else {
+        (0.0, 1e9)
+    }
 }
 
 #[cfg(test)]

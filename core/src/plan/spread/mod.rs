@@ -587,6 +587,7 @@ impl Setup {
                 Free::Width
             },
             base: CrossSection {
+                loss: Default::default(),
                 warnings: Vec::new(),
                 ..cs.clone()
             },
