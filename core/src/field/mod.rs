@@ -44,6 +44,7 @@
 // Index loops over grid nodes read closer to the stencil formulas than iterator chains.
 #![allow(clippy::needless_range_loop)]
 
+pub mod boundary;
 pub mod extract;
 pub mod geometry;
 pub mod grid;
