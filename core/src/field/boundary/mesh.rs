@@ -63,6 +63,8 @@ const TOL: f64 = 1e-7;
 const SYMMETRY_START: f64 = 100.0;
 /// First panel at a junction of dielectrics only, in units of `MeshParams::first` (weaker singularity).
 const DIELECTRIC_START: f64 = 10.0;
+/// Interfaces of at least this contrast |ε+ − ε−|/(ε+ + ε−) that meet a conductor get `growth_interface`.
+const STRONG_CONTRAST: f64 = 0.15;
 
 fn near(a: [f64; 2], b: [f64; 2]) -> bool {
     (a[0] - b[0]).abs() < TOL && (a[1] - b[1]).abs() < TOL
@@ -438,10 +440,18 @@ pub fn build(g: &Geometry, p: MeshParams) -> Mesh {
                 sb = Some(sym);
             }
         }
-        let growth = if matches!(kind, Kind::Interface { .. }) {
-            p.growth_interface
-        } else {
-            p.growth
+        // The polarisation charge scales with the contrast (ε+ − ε−)/(ε+ + ε−); only a strong interface that meets
+        // a conductor needs the finer interface grading (measured: air over the substrate at a trace corner).
+        let growth = match kind {
+            Kind::Interface {
+                eps_plus,
+                eps_minus,
+            } if ((eps_plus - eps_minus) / (eps_plus + eps_minus)).abs() >= STRONG_CONTRAST
+                && (conductor_vertex(seg.a) || conductor_vertex(seg.b)) =>
+            {
+                p.growth_interface
+            }
+            _ => p.growth,
         };
         let far = if matches!(kind, Kind::Interface { .. }) {
             (p.growth_far, p.far)
