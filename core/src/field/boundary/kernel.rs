@@ -169,9 +169,42 @@ pub fn two_plates(c: [f64; 2], p: [f64; 2], y0: f64, b: f64) -> (f64, [f64; 2]) 
     (g, [gx, gy])
 }
 
+/// [`two_plates`] without the gradient (potential rows need only the value).
+fn two_plates_value(c: [f64; 2], p: [f64; 2], y0: f64, b: f64) -> f64 {
+    let k = std::f64::consts::PI / b;
+    let u = k * (c[0] - p[0]);
+    if u.abs() > 80.0 {
+        return 0.0;
+    }
+    let (y, yp) = (c[1] - y0, p[1] - y0);
+    let sh = (0.5 * u).sinh();
+    let sd = (0.5 * k * (y - yp)).sin();
+    0.5 * ((k * y).sin() * (k * yp).sin() / (sh * sh + sd * sd)).ln_1p()
+}
+
 /// The smooth rest of the two-plate Green's function once the source and its first image in each plane are taken
-/// out: G − (−ln r + ln r_below + ln r_above), and its gradient.
-fn two_plates_rest(c: [f64; 2], p: [f64; 2], y0: f64, b: f64) -> (f64, [f64; 2]) {
+/// out: G − (−ln r + ln r_below + ln r_above), and (when `grad`) its gradient.
+fn two_plates_rest(c: [f64; 2], p: [f64; 2], y0: f64, b: f64, grad: bool) -> (f64, [f64; 2]) {
+    if !grad {
+        // One logarithm: ½·ln(N/D) + ln r − ln r_below − ln r_above = ½·ln(N·r² / (D·r_below²·r_above²)).
+        let k = std::f64::consts::PI / b;
+        let u = k * (c[0] - p[0]);
+        let d = [c[0] - p[0], c[1] - p[1]];
+        let db = c[1] - (2.0 * y0 - p[1]);
+        let dt = c[1] - (2.0 * (y0 + b) - p[1]);
+        let r2 = d[0] * d[0] + d[1] * d[1];
+        let rb2 = d[0] * d[0] + db * db;
+        let rt2 = d[0] * d[0] + dt * dt;
+        if u.abs() > 80.0 {
+            return (0.5 * (r2 / (rb2 * rt2)).ln(), [0.0, 0.0]);
+        }
+        let (y, yp) = (c[1] - y0, p[1] - y0);
+        let sh = (0.5 * u).sinh();
+        let sd = (0.5 * k * (y - yp)).sin();
+        let den = sh * sh + sd * sd;
+        let num = den + (k * y).sin() * (k * yp).sin();
+        return (0.5 * (num * r2 / (den * rb2 * rt2)).ln(), [0.0, 0.0]);
+    }
     let (g, gr) = two_plates(c, p, y0, b);
     let mut v = g;
     let mut grad = gr;
@@ -209,8 +242,15 @@ fn gauss_points(s: &Seg, hmax: f64, mut f: impl FnMut([f64; 2], f64)) {
     }
 }
 
-/// (P, field) at `c` of a unit density on `s` with the grounded `planes`.
-pub fn with_planes(c: [f64; 2], s: &Seg, self_panel: bool, planes: Planes) -> (f64, [f64; 2]) {
+/// (P, field) at `c` of a unit density on `s` with the grounded `planes`; with two planes the field is only
+/// computed when `need_field` (it is zero otherwise).
+pub fn with_planes(
+    c: [f64; 2],
+    s: &Seg,
+    self_panel: bool,
+    planes: Planes,
+    need_field: bool,
+) -> (f64, [f64; 2]) {
     let add = |a: (f64, [f64; 2]), b: (f64, [f64; 2]), sign: f64| {
         (
             a.0 + sign * b.0,
@@ -232,7 +272,11 @@ pub fn with_planes(c: [f64; 2], s: &Seg, self_panel: bool, planes: Planes) -> (f
             if dx > 3.0 * b {
                 // Smooth everywhere on the panel: Gauss on the whole Green's function.
                 gauss_points(s, 0.5 * b, |p, w| {
-                    let (g, gr) = two_plates(c, p, y0, b);
+                    let (g, gr) = if need_field {
+                        two_plates(c, p, y0, b)
+                    } else {
+                        (two_plates_value(c, p, y0, b), [0.0, 0.0])
+                    };
                     acc = add(acc, (w * g, [-w * gr[0], -w * gr[1]]), 1.0);
                 });
                 return acc;
@@ -241,7 +285,7 @@ pub fn with_planes(c: [f64; 2], s: &Seg, self_panel: bool, planes: Planes) -> (f
             acc = add(acc, free(c, &s.mirror_y(y0), false), -1.0);
             acc = add(acc, free(c, &s.mirror_y(y0 + b), false), -1.0);
             gauss_points(s, 0.25 * b, |p, w| {
-                let (g, gr) = two_plates_rest(c, p, y0, b);
+                let (g, gr) = two_plates_rest(c, p, y0, b, need_field);
                 acc = add(acc, (w * g, [-w * gr[0], -w * gr[1]]), 1.0);
             });
             acc
@@ -432,6 +476,21 @@ mod tests {
             - two_plates([c[0], c[1] - e], p, y0, b).0)
             / (2.0 * e);
         assert!((gx - gr[0]).abs() < 1e-7 && (gy - gr[1]).abs() < 1e-7);
+    }
+
+    #[test]
+    fn two_plate_rest_value_matches_the_gradient_path() {
+        // The one-logarithm value used by potential rows against the value of the gradient path.
+        let (y0, b) = (0.0, 1.0);
+        for (c, p) in [
+            ([0.3, 0.7], [0.0, 0.2]),
+            ([0.01, 0.5], [0.0, 0.51]),
+            ([5.0, 0.1], [0.0, 0.9]),
+        ] {
+            let v = two_plates_rest(c, p, y0, b, false).0;
+            let w = two_plates_rest(c, p, y0, b, true).0;
+            assert!((v - w).abs() < 1e-10, "{v} {w}");
+        }
     }
 
     #[test]

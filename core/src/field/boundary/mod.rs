@@ -119,17 +119,20 @@ fn interactions(mesh: &Mesh, need_mirror: bool) -> Interactions {
         .collect();
     let mut field_direct = vec![vec![0.0; n]; strips.len()];
     let mut field_mirror = vec![vec![0.0; n]; strips.len()];
-    // One plane: the source, its mirror in x = 0 and their images in the plane, all precomputed.
+    // No plane or one plane: the source, its mirror in x = 0 and (with a plane) their images, all precomputed.
     let plane = match mesh.planes {
-        Planes::Below(y) | Planes::Above(y) => Some(y),
-        _ => None,
+        Planes::Below(y) | Planes::Above(y) => Some(Some(y)),
+        Planes::None => Some(None),
+        Planes::Both(..) => None,
     };
-    if let (Some(y0), true) = (plane, need_mirror) {
+    if let (Some(plane), true) = (plane, need_mirror) {
         let src: Vec<[Src; 4]> = mesh
             .panels
             .iter()
             .map(|p| {
                 let m = p.seg.mirror_x();
+                // Without a plane the image slots are unused (`plane` is None there).
+                let y0 = plane.unwrap_or(0.0);
                 [
                     Src::new(&p.seg),
                     Src::new(&p.seg.mirror_y(y0)),
@@ -138,18 +141,23 @@ fn interactions(mesh: &Mesh, need_mirror: bool) -> Interactions {
                 ]
             })
             .collect();
+        let imaged = plane.is_some();
         for (i, pi) in mesh.panels.iter().enumerate() {
             let c = pi.seg.mid();
             let nrm = pi.seg.normal();
-            let dot = |f: [f64; 2], g: [f64; 2]| (f[0] - g[0]) * nrm[0] + (f[1] - g[1]) * nrm[1];
+            let dot = |f: [f64; 2]| f[0] * nrm[0] + f[1] * nrm[1];
             let strip = strips.iter().position(|&k| k == i);
             let interface = matches!(pi.kind, Kind::Interface { .. });
             let row = i * n;
             for (j, s) in src.iter().enumerate() {
                 let me = i == j;
                 if interface || strip.is_some() {
-                    let fd = dot(s[0].field(c, me), s[1].field(c, false));
-                    let fm = dot(s[2].field(c, false), s[3].field(c, false));
+                    let mut fd = dot(s[0].field(c, me));
+                    let mut fm = dot(s[2].field(c, false));
+                    if imaged {
+                        fd -= dot(s[1].field(c, false));
+                        fm -= dot(s[3].field(c, false));
+                    }
                     if let Some(k) = strip {
                         field_direct[k][j] = fd;
                         field_mirror[k][j] = fm;
@@ -159,8 +167,14 @@ fn interactions(mesh: &Mesh, need_mirror: bool) -> Interactions {
                     }
                 }
                 if !interface {
-                    direct[row + j] = s[0].potential(c, me) - s[1].potential(c, false);
-                    mirror[row + j] = s[2].potential(c, false) - s[3].potential(c, false);
+                    let mut pd = s[0].potential(c, me);
+                    let mut pm = s[2].potential(c, false);
+                    if imaged {
+                        pd -= s[1].potential(c, false);
+                        pm -= s[3].potential(c, false);
+                    }
+                    direct[row + j] = pd;
+                    mirror[row + j] = pm;
                 }
             }
         }
@@ -179,11 +193,23 @@ fn interactions(mesh: &Mesh, need_mirror: bool) -> Interactions {
         let strip = strips.iter().position(|&k| k == i);
         let interface = matches!(pi.kind, Kind::Interface { .. });
         for (j, pj) in mesh.panels.iter().enumerate() {
-            let (p, f) = kernel::with_planes(c, &pj.seg, i == j, mesh.planes);
+            let (p, f) = kernel::with_planes(
+                c,
+                &pj.seg,
+                i == j,
+                mesh.planes,
+                interface || strip.is_some(),
+            );
             let dot = |f: [f64; 2]| f[0] * nrm[0] + f[1] * nrm[1];
             direct[i * n + j] = if interface { dot(f) } else { p };
             let m = if need_mirror {
-                let (pm, fm) = kernel::with_planes(c, &mirrored[j], false, mesh.planes);
+                let (pm, fm) = kernel::with_planes(
+                    c,
+                    &mirrored[j],
+                    false,
+                    mesh.planes,
+                    interface || strip.is_some(),
+                );
                 mirror[i * n + j] = if interface { dot(fm) } else { pm };
                 Some(fm)
             } else {
