@@ -62,7 +62,7 @@ const TOL: f64 = 1e-7;
 /// First panel at the symmetry line of a piece that has no singular end, in units of `MeshParams::first`.
 const SYMMETRY_START: f64 = 100.0;
 /// First panel at a junction of dielectrics only, in units of `MeshParams::first` (weaker singularity).
-const DIELECTRIC_START: f64 = 10.0;
+const DIELECTRIC_START: f64 = 30.0;
 /// Interfaces of at least this contrast |ε+ − ε−|/(ε+ + ε−) that meet a conductor get `growth_interface`.
 const STRONG_CONTRAST: f64 = 0.15;
 
