@@ -421,10 +421,17 @@ pub fn build(g: &Geometry, p: MeshParams) -> Mesh {
         // Start sizes: conductor corners and the points where an interface meets a conductor carry the strongest
         // singularities; other dielectric junctions start coarser; the symmetry line only when nothing else grades
         // the piece (it then starts near the feature size); never at the far wall.
+        let strong = match kind {
+            Kind::Interface {
+                eps_plus,
+                eps_minus,
+            } => ((eps_plus - eps_minus) / (eps_plus + eps_minus)).abs() >= STRONG_CONTRAST,
+            Kind::Conductor { .. } => true,
+        };
         let start = |q: [f64; 2]| -> Option<f64> {
             if q[0].abs() < TOL || (q[0] - x_max).abs() < TOL {
                 None
-            } else if matches!(kind, Kind::Conductor { .. }) || conductor_vertex(q) {
+            } else if matches!(kind, Kind::Conductor { .. }) || (strong && conductor_vertex(q)) {
                 Some(p.first)
             } else {
                 Some(DIELECTRIC_START * p.first)
