@@ -242,7 +242,10 @@ fn a_field_solver_rule_flows_into_analyze_and_notes() {
         .iter()
         .find(|r| r["name"] == rule)
         .unwrap();
-    assert_eq!(row["width_m"].as_f64().unwrap(), width);
+    // `analyze` solves the rule on the fast field engine, `field-solve` on the reference solver: the widths agree
+    // within the two engines' errors (0.1 % each in Z, about 0.6 % of Z per 1 % of width here).
+    let planned = row["width_m"].as_f64().unwrap();
+    assert!((planned / width - 1.0).abs() < 5e-3, "{planned} vs {width}");
     assert!(row["method"]
         .as_str()
         .unwrap()
@@ -253,7 +256,7 @@ fn a_field_solver_rule_flows_into_analyze_and_notes() {
     assert_eq!(code, 0, "{err}");
     let line = csv.lines().find(|l| l.contains(rule)).unwrap();
     assert!(
-        line.contains(&format!("{:.1}", width * 1e6)),
-        "{line} vs {width}"
+        line.contains(&format!("{:.1}", planned * 1e6)),
+        "{line} vs {planned}"
     );
 }

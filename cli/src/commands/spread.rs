@@ -3,7 +3,6 @@
 
 use ohmstack_core::base::units::{format_length, format_sig, LengthUnit};
 use ohmstack_core::engine::Engine;
-use ohmstack_core::field::FieldOptions;
 use ohmstack_core::plan::evaluate_rule;
 use ohmstack_core::plan::spread::{self, SampleModel, SpreadOptions, SpreadSummary};
 use ohmstack_core::{Project, RuleResult};
@@ -84,10 +83,8 @@ pub fn run(args: Args) -> Result<()> {
         centre: !use_field,
         model,
     };
-    let field_model = Engine::FieldSolver {
-        etch_factor: project.fab.etch_factor,
-        options: FieldOptions::default(),
-    };
+    // The spread's field model is the fast field engine (the quadratic surface needs tens of solves per rule).
+    let field_model = Engine::field(&project);
     let mut out = Vec::new();
     for rule in rules {
         let result = evaluate_rule(&project, rule).and_then(|r| {

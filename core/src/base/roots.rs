@@ -27,6 +27,18 @@ pub fn solve(
     bracket: &Bracket<'_>,
     z: impl Fn(f64) -> Result<f64>,
 ) -> Result<f64> {
+    solve_to(field, target, bracket, REL_TOL, z)
+}
+
+/// [`solve`] stopping at relative impedance distance `rel_tol` from the target (a field engine stops at a
+/// fraction of its own error instead of at round-off).
+pub fn solve_to(
+    field: &str,
+    target: f64,
+    bracket: &Bracket<'_>,
+    rel_tol: f64,
+    z: impl Fn(f64) -> Result<f64>,
+) -> Result<f64> {
     crate::base::error::positive("target", target, "Ω")?;
     if !(bracket.lo > 0.0 && bracket.hi > bracket.lo && bracket.hi.is_finite()) {
         return Err(Error::Invalid {
@@ -69,7 +81,7 @@ pub fn solve(
         }
         let x = c.exp();
         let fc = z(x)? - target;
-        if fc.abs() <= REL_TOL * target || (b - a).abs() < 1e-14 {
+        if fc.abs() <= rel_tol * target || (b - a).abs() < 1e-14 {
             return Ok(x);
         }
         if fc.signum() == fb.signum() {

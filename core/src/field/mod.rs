@@ -26,6 +26,7 @@
 //! use ohmstack_core::Structure;
 //!
 //! let cs = CrossSection {
+//!     loss: Default::default(),
 //!     medium: Medium::Microstrip { h: 170e-6, er: 4.2, cover: Cover::Air },
 //!     t: 35e-6,
 //!     references: vec![],
@@ -44,6 +45,7 @@
 // Index loops over grid nodes read closer to the stencil formulas than iterator chains.
 #![allow(clippy::needless_range_loop)]
 
+pub mod boundary;
 pub mod extract;
 pub mod geometry;
 pub mod grid;

@@ -436,9 +436,15 @@ mod tests {
         let direct = synth(&p, "Radio feed 50 Ω");
         let plan = crate::plan_with(&p, &crate::PlanOptions::with_spread()).unwrap();
         let r = plan.rules[i].ok().unwrap();
-        assert_eq!(r.method, crate::engine::FIELD_METHOD);
-        assert_eq!(r.width_m, direct.value_m);
-        assert_eq!(r.impedance_ohm, direct.field_ohm);
+        // The plan solves the rule on the fast field engine; this synthesis on the reference solver lands within
+        // the two engines' errors (0.1 % each in Z; Z moves about 0.6 % per 1 % of width here).
+        assert_eq!(r.method, crate::engine::BOUNDARY_METHOD);
+        assert!(
+            (r.width_m / direct.value_m - 1.0).abs() < 5e-3,
+            "{} vs {}",
+            r.width_m,
+            direct.value_m
+        );
         assert!(r.deviation_pct.abs() < 0.1 && r.within_tolerance);
         assert!(r
             .warnings
@@ -476,7 +482,7 @@ mod tests {
             .iter()
             .find(|row| row.net_class == "Radio feed 50 Ω")
             .unwrap();
-        assert_eq!(row.width_m, direct.value_m);
+        assert_eq!(row.width_m, r.width_m);
     }
 
     #[test]

@@ -140,8 +140,9 @@ struct Solved {
     notes: Vec<Warning>,
 }
 
-/// Solves the rule's free dimension on `engine`: bracketed root finding on the closed form (exact for it), or
-/// for a field solver the secant refinement that starts from the closed form's answer ([`FieldSynthesis`]).
+/// Solves the rule's free dimension on `engine`: bracketed root finding on the closed form (exact for it); on the
+/// fast field engine the same root finding in a narrow bracket around the closed form's answer; on the reference
+/// solver its secant refinement from that answer ([`FieldSynthesis`]).
 fn solve_free_dimension(
     project: &Project,
     rule: &ImpedanceRule,
@@ -154,7 +155,7 @@ fn solve_free_dimension(
         gap: rule.gap_m,
     };
     match *engine {
-        Engine::FieldSolver { options, .. } if rule.solve != Solve::Nothing => {
+        Engine::Reference { options, .. } if rule.solve != Solve::Nothing => {
             let mut job = FieldSynthesis::start(project, rule, options)?;
             job.run();
             let r = job.result().ok_or_else(|| Error::Invalid {
@@ -170,6 +171,17 @@ fn solve_free_dimension(
                 dimension: Some(r.dimension),
                 answer: Some(Answer::from_field(r.field)),
                 notes: r.warnings,
+            })
+        }
+        Engine::Field { .. } if rule.solve != Solve::Nothing => {
+            let (start, _, note) = synthesis::closed_form_start(project, rule);
+            dims = start;
+            let dimension = synthesis::solve_near(project, rule, cs, engine, &mut dims)?;
+            Ok(Solved {
+                dims,
+                dimension,
+                answer: None,
+                notes: note.into_iter().collect(),
             })
         }
         _ => {
@@ -194,7 +206,8 @@ fn compute(project: &Project, rule: &ImpedanceRule, engine: &Engine) -> Result<R
     let mut notes = solved.notes;
     if let Some(err) = answer.error_estimate_pct {
         notes.push(Warning::new(format!(
-            "figures from the 2D field solver (estimated error {} %); loss from the closed-form models at these dimensions",
+            "figures from the {} (estimated error {} %); loss from the closed-form models at these dimensions",
+            answer.method,
             format_sig(err, 2)
         )));
     }
@@ -247,11 +260,12 @@ pub fn rule_figures(
             None
         }
     };
-    let model_band_pct = if method == crate::engine::FIELD_METHOD {
-        None
-    } else {
-        crate::closed_form::bands::wide_for(&cs, rule.structure, &dims)
-    };
+    let model_band_pct =
+        if method == crate::engine::FIELD_METHOD || method == crate::engine::BOUNDARY_METHOD {
+            None
+        } else {
+            crate::closed_form::bands::wide_for(&cs, rule.structure, &dims)
+        };
     if let Some(band) = model_band_pct {
         warnings.push(Warning::new(format!(
             "this closed form differs from the 2D field solver by up to ±{band} % on this structure (measured, \

@@ -9,6 +9,11 @@ use crate::design::project::{ImpedanceRule, Project, Solve};
 use crate::engine::Engine;
 use crate::section::{self, CrossSection, Dims};
 
+/// Relative distance from the target at which a field engine's synthesis stops: a tenth of the engine's 0.1 %.
+pub const FIELD_TOLERANCE: f64 = 1e-4;
+/// Half-width (a factor) of the first bracket a field engine searches around the closed form's answer.
+const NEAR_FACTOR: f64 = 1.25;
+
 /// Solves the rule's free dimension on `engine` by bracketed root finding between the fabricator's minimum and
 /// a hundred dielectric heights, writing the solution into `dims`; `None` when the rule solves nothing.
 pub fn solve_bracketed(
@@ -18,53 +23,102 @@ pub fn solve_bracketed(
     engine: &Engine,
     dims: &mut Dims,
 ) -> Result<Option<&'static str>> {
+    solve_in(project, rule, cs, engine, dims, None, roots::REL_TOL)
+}
+
+/// Solves the free dimension on a field engine, starting from the closed form's answer in `dims`: first inside a
+/// bracket a factor [`NEAR_FACTOR`] either side of it (the closed forms miss by a few per cent, so a few solves
+/// suffice), then over the whole search range when the target lies outside that bracket. Stops at
+/// [`FIELD_TOLERANCE`].
+pub fn solve_near(
+    project: &Project,
+    rule: &ImpedanceRule,
+    cs: &CrossSection,
+    engine: &Engine,
+    dims: &mut Dims,
+) -> Result<Option<&'static str>> {
+    let start = match rule.solve {
+        Solve::Nothing => return Ok(None),
+        Solve::Width => dims.w,
+        Solve::Spacing => dims.s.unwrap_or(dims.w),
+    };
+    let mut near = *dims;
+    match solve_in(
+        project,
+        rule,
+        cs,
+        engine,
+        &mut near,
+        Some(start),
+        FIELD_TOLERANCE,
+    ) {
+        Ok(solved) => {
+            *dims = near;
+            Ok(solved)
+        }
+        Err(_) => solve_in(project, rule, cs, engine, dims, None, FIELD_TOLERANCE),
+    }
+}
+
+/// Bracketed root finding of the free dimension; `near` narrows the bracket to [`NEAR_FACTOR`] around a start.
+fn solve_in(
+    project: &Project,
+    rule: &ImpedanceRule,
+    cs: &CrossSection,
+    engine: &Engine,
+    dims: &mut Dims,
+    near: Option<f64>,
+    rel_tol: f64,
+) -> Result<Option<&'static str>> {
     let scale = cs.scale_height();
     let upper = (100.0 * scale).min(MAX_LENGTH_M);
     let unit = project.units;
-    match rule.solve {
-        Solve::Nothing => Ok(None),
-        Solve::Width => {
-            let lo_reason = format!(
+    let (name, lower, lo_reason) = match rule.solve {
+        Solve::Nothing => return Ok(None),
+        Solve::Width => (
+            "width",
+            project.fab.min_trace_m,
+            format!(
                 "the fabricator's minimum trace width ({})",
                 format_length(project.fab.min_trace_m, unit)
-            );
-            let hi_reason = format!("the widest trace searched ({})", format_length(upper, unit));
-            let bracket = Bracket {
-                lo: project.fab.min_trace_m,
-                hi: upper,
-                lo_reason: &lo_reason,
-                hi_reason: &hi_reason,
-            };
-            let base = *dims;
-            let w = roots::solve("width", rule.target_ohm, &bracket, |w| {
-                engine.impedance(cs, rule.structure, &Dims { w, ..base })
-            })?;
-            dims.w = w;
-            Ok(Some("width"))
-        }
-        Solve::Spacing => {
-            let lo_reason = format!(
+            ),
+        ),
+        Solve::Spacing => (
+            "spacing",
+            project.fab.min_space_m,
+            format!(
                 "the fabricator's minimum space ({})",
                 format_length(project.fab.min_space_m, unit)
-            );
-            let hi_reason = format!(
-                "the widest spacing searched ({})",
-                format_length(upper, unit)
-            );
-            let bracket = Bracket {
-                lo: project.fab.min_space_m,
-                hi: upper,
-                lo_reason: &lo_reason,
-                hi_reason: &hi_reason,
-            };
-            let base = *dims;
-            let s = roots::solve("spacing", rule.target_ohm, &bracket, |s| {
-                engine.impedance(cs, rule.structure, &Dims { s: Some(s), ..base })
-            })?;
-            dims.s = Some(s);
-            Ok(Some("spacing"))
-        }
+            ),
+        ),
+    };
+    let hi_reason = format!(
+        "the widest {name} searched ({})",
+        format_length(upper, unit)
+    );
+    let (lo, hi) = match near {
+        Some(x) => ((x / NEAR_FACTOR).max(lower), (x * NEAR_FACTOR).min(upper)),
+        None => (lower, upper),
+    };
+    let bracket = Bracket {
+        lo,
+        hi,
+        lo_reason: &lo_reason,
+        hi_reason: &hi_reason,
+    };
+    let base = *dims;
+    let x = roots::solve_to(name, rule.target_ohm, &bracket, rel_tol, |x| {
+        let d = match rule.solve {
+            Solve::Spacing => Dims { s: Some(x), ..base },
+            _ => Dims { w: x, ..base },
+        };
+        engine.impedance(cs, rule.structure, &d)
+    })?;
+    match rule.solve {
+        Solve::Spacing => dims.s = Some(x),
+        _ => dims.w = x,
     }
+    Ok(Some(name))
 }
 
 /// Where a slower engine's solve of `rule` starts: the closed form's solved dimensions and its (method, impedance),
