@@ -14,9 +14,9 @@
 //! and junction ([`mesh`]); closed-form panel integrals of ln r and of its gradient ([`kernel`]); dense LU
 //! ([`lu`]). The vacuum problem is the conductor-only sub-block of the same matrix.
 //!
-//! Error estimate: the solve runs on two meshes (the finer one has about 1.7× the panels); the estimate is the
-//! largest relative change of the impedances between them plus [`ESTIMATE_FLOOR`] (0.02 %) for what both meshes
-//! share. The tests check that it covers the true error against the exact results, a much finer mesh, and (together
+//! Error estimate: the solve runs on two meshes (the finer one has about 1.7× the panels); the estimate is twice the
+//! largest relative change of each mode's Z and εeff between them plus [`ESTIMATE_FLOOR`] (0.05 %) for what both
+//! meshes share (factor and floor set from the scikit-fem checks, see [`ESTIMATE_FLOOR`]). The tests check that it covers the true error against the exact results, a much finer mesh, and (together
 //! with the reference's own estimate) the finite-volume solver.
 //!
 //! Validity: every cross-section the builders of [`crate::field::geometry`] make. Open sides are truncated where
@@ -49,7 +49,14 @@ use std::f64::consts::PI;
 /// Added to the two-mesh change in the error estimate: the grading ratios the two meshes share (start sizes at
 /// dielectric junctions and the symmetry line, the lateral truncation) are not seen by that change. Measured against
 /// meshes 4–7× finer on every test cross-section, their part stays below 0.015 %.
-pub const ESTIMATE_FLOOR: f64 = 2e-4;
+///
+/// Raised from 0.02 % to 0.05 %, with the two-mesh change doubled ([`ESTIMATE_FACTOR`]), after the independent
+/// scikit-fem solves of `tests/python/test_field.py` showed the plain change under-reading the true error on thick
+/// grounded coplanar (0.08 % against an estimate of 0.02 %) and on the plane-less line's εeff (0.28 % against
+/// 0.23 %): both meshes share the grading near the thick copper's corners.
+pub const ESTIMATE_FLOOR: f64 = 5e-4;
+/// Safety factor on the two-mesh change of every mode's Z and εeff (see [`ESTIMATE_FLOOR`]).
+pub const ESTIMATE_FACTOR: f64 = 2.0;
 
 /// Knobs of a boundary-element solve.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -58,7 +65,7 @@ pub struct BemOptions {
     pub fine: MeshParams,
     /// Coarser mesh for the error estimate.
     pub coarse: MeshParams,
-    /// `converged` is set when the error estimate is below this (0.001 = 0.1 %).
+    /// `converged` is set when the error estimate is below this (0.003 = 0.3 %, as the reference solver's default).
     pub tolerance: f64,
 }
 
@@ -79,7 +86,7 @@ impl Default for BemOptions {
                 growth_far: 2.5,
                 far: 4.0,
             },
-            tolerance: 1e-3,
+            tolerance: 3e-3,
         }
     }
 }
@@ -398,10 +405,11 @@ pub fn capacitances(g: &Geometry, params: MeshParams) -> Result<BemLevel> {
 }
 
 /// Impedances of an analysis (Z0, or Zodd and Zeven), for the error estimate.
+/// The figures the error estimate watches: each mode's impedance and effective Dk.
 fn impedances(a: &Analysis) -> Vec<f64> {
     match a {
-        Analysis::Single(s) => vec![s.z0],
-        Analysis::Pair(p) => vec![p.z_odd, p.z_even],
+        Analysis::Single(s) => vec![s.z0, s.eps_eff],
+        Analysis::Pair(p) => vec![p.z_odd, p.z_even, p.eps_eff_odd, p.eps_eff_even],
     }
 }
 
@@ -421,6 +429,7 @@ pub fn solve(g: &Geometry, options: &BemOptions) -> Result<FieldResult> {
         .zip(impedances(&a_coarse))
         .map(|(f, c)| ((f - c) / f).abs())
         .fold(0.0, f64::max)
+        * ESTIMATE_FACTOR
         + ESTIMATE_FLOOR;
     let controlled = analysis.controlled();
     if !controlled.is_finite() {

@@ -10,7 +10,10 @@ use crate::section::Dims;
 use crate::section::{Cover, CrossSection, Medium};
 
 fn z_of(r: &FieldResult) -> Vec<f64> {
-    impedances(&r.analysis)
+    match &r.analysis {
+        Analysis::Single(s) => vec![s.z0],
+        Analysis::Pair(p) => vec![p.z_odd, p.z_even],
+    }
 }
 
 /// Cohn 1954, exact for a zero-thickness strip centred between planes b apart: Z0 = η0/(4√εr)·K(k)/K(k′),
