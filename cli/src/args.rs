@@ -298,3 +298,38 @@ pub struct FoilArgs {
     #[arg(long, value_name = "MODEL", ignore_case = true)]
     pub foil_model: Option<FoilModel>,
 }
+
+/// `--engine`: which engine answers every rule, over each rule's own choice.
+#[derive(clap::Args)]
+#[command(next_help_heading = "Engine")]
+pub struct EngineArgs {
+    /// Engine for every rule: `closed-form` (published formulas, instant), `field` (2D field engine, boundary
+    /// elements); default: each rule's own model
+    #[arg(long, value_enum, value_name = "ENGINE")]
+    pub engine: Option<RuleEngine>,
+}
+
+/// The engines a whole project can be planned on from the command line.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
+pub enum RuleEngine {
+    /// The published closed-form models
+    ClosedForm,
+    /// The 2D field engine (boundary elements)
+    Field,
+}
+
+impl EngineArgs {
+    /// Sets every rule's model to the chosen engine (nothing when none was chosen).
+    pub fn apply(&self, project: &mut ohmstack_core::Project) {
+        use ohmstack_core::design::project::RuleModel;
+        if let Some(engine) = self.engine {
+            let model = match engine {
+                RuleEngine::ClosedForm => RuleModel::ClosedForm,
+                RuleEngine::Field => RuleModel::FieldSolver,
+            };
+            for rule in &mut project.rules {
+                rule.model = model;
+            }
+        }
+    }
+}

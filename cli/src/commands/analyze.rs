@@ -14,10 +14,13 @@ pub struct Args {
     /// Print the plan as JSON
     #[arg(long)]
     pub json: bool,
+    #[command(flatten)]
+    pub engine: crate::args::EngineArgs,
 }
 
 pub fn run(args: Args) -> Result<()> {
-    let project = Project::from_json(&read_input(&args.file)?)?;
+    let mut project = Project::from_json(&read_input(&args.file)?)?;
+    args.engine.apply(&mut project);
     let plan = plan(&project)?;
     if args.json {
         println!("{}", serde_json::to_string_pretty(&plan)?);

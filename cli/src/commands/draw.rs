@@ -17,10 +17,13 @@ pub struct Args {
     /// Write the SVG here instead of stdout
     #[arg(short = 'o', long, value_name = "OUT.svg", allow_hyphen_values = true)]
     pub output: Option<String>,
+    #[command(flatten)]
+    pub engine: crate::args::EngineArgs,
 }
 
 pub fn run(args: Args) -> Result<()> {
-    let project = Project::from_json(&read_input(&args.file)?)?;
+    let mut project = Project::from_json(&read_input(&args.file)?)?;
+    args.engine.apply(&mut project);
     let rule_idx = match &args.rule {
         Some(name) => Some(
             project

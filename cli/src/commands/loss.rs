@@ -36,6 +36,8 @@ pub struct Args {
     pub sweep: SweepArgs,
     #[command(flatten)]
     pub foil: FoilArgs,
+    #[command(flatten)]
+    pub engine: crate::args::EngineArgs,
 }
 
 pub fn run(args: Args) -> Result<()> {
@@ -43,7 +45,7 @@ pub fn run(args: Args) -> Result<()> {
         Some(f) => vec![in_range("freq", f, 1.0, loss::MAX_FREQ_HZ, "Hz")?],
         None => args.sweep.sweep()?.frequencies()?,
     };
-    let (_, name, model) = rule_model(&args.file, &args.rule, &args.foil)?;
+    let (_, name, model) = rule_model(&args.file, &args.rule, &args.foil, &args.engine)?;
     let points = freqs
         .iter()
         .map(|&f| model.at(f))
@@ -121,8 +123,14 @@ pub fn run(args: Args) -> Result<()> {
 
 /// The project (with the `--foil` what-if applied), the rule's name and its loss model (after synthesis of its
 /// free dimension).
-pub fn rule_model(path: &str, name: &str, foil: &FoilArgs) -> Result<(Project, String, LineModel)> {
+pub fn rule_model(
+    path: &str,
+    name: &str,
+    foil: &FoilArgs,
+    engine: &crate::args::EngineArgs,
+) -> Result<(Project, String, LineModel)> {
     let mut project = Project::from_json(&read_input(path)?)?;
+    engine.apply(&mut project);
     apply_foil(&mut project, foil)?;
     let Some(rule) = project.rules.iter().find(|r| r.name == name) else {
         let names: Vec<&str> = project.rules.iter().map(|r| r.name.as_str()).collect();

@@ -24,10 +24,13 @@ pub struct Args {
     /// Output format
     #[arg(long, value_name = "FORMAT", value_enum, default_value_t = Format::Md)]
     pub format: Format,
+    #[command(flatten)]
+    pub engine: crate::args::EngineArgs,
 }
 
 pub fn run(args: Args) -> Result<()> {
-    let project = Project::from_json(&read_input(&args.file)?)?;
+    let mut project = Project::from_json(&read_input(&args.file)?)?;
+    args.engine.apply(&mut project);
     let plan = plan(&project)?;
     let notes = fab_notes(&project, &plan);
     match args.format {

@@ -32,11 +32,14 @@ pub struct Args {
     /// Print the (width m, Z Ω) points as JSON instead of a picture
     #[arg(long)]
     pub json: bool,
+    #[command(flatten)]
+    pub engine: crate::args::EngineArgs,
 }
 
 pub fn run(args: Args) -> Result<()> {
     let name = args.rule;
-    let project = Project::from_json(&read_input(&args.file)?)?;
+    let mut project = Project::from_json(&read_input(&args.file)?)?;
+    args.engine.apply(&mut project);
     let idx = project
         .rules
         .iter()

@@ -45,6 +45,8 @@ pub struct Args {
     /// Print the spread as JSON
     #[arg(long)]
     pub json: bool,
+    #[command(flatten)]
+    pub engine: crate::args::EngineArgs,
 }
 
 pub fn run(args: Args) -> Result<()> {
@@ -65,7 +67,8 @@ pub fn run(args: Args) -> Result<()> {
             spread::MAX_SAMPLES
         );
     }
-    let project = Project::from_json(&text)?;
+    let mut project = Project::from_json(&text)?;
+    args.engine.apply(&mut project);
     let rules: Vec<_> = match &only {
         Some(name) => {
             let r: Vec<_> = project.rules.iter().filter(|r| &r.name == name).collect();

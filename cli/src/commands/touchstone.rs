@@ -33,12 +33,14 @@ pub struct Args {
     pub sweep: SweepArgs,
     #[command(flatten)]
     pub foil: FoilArgs,
+    #[command(flatten)]
+    pub engine: crate::args::EngineArgs,
 }
 
 pub fn run(args: Args) -> Result<()> {
     let z_ref = in_range("z-ref", args.z_ref, 1.0, 1000.0, "Ω")?;
     let sweep = args.sweep.sweep()?;
-    let (project, name, model) = rule_model(&args.file, &args.rule, &args.foil)?;
+    let (project, name, model) = rule_model(&args.file, &args.rule, &args.foil, &args.engine)?;
     let title = format!("{} — rule {name}", project.title);
     let (text, ports) =
         touchstone::segment(&model, args.length, z_ref, &sweep.frequencies()?, &title)?;
