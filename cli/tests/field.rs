@@ -260,3 +260,30 @@ fn a_field_solver_rule_flows_into_analyze_and_notes() {
         "{line} vs {planned}"
     );
 }
+
+#[test]
+fn analyze_on_the_field_engine_puts_every_solved_rule_on_target() {
+    // Every rule of the demo planned on the fast field engine: each solved rule lands within 0.01 % of its target
+    // (the synthesis' stopping tolerance), names the engine, and its estimate is reported; an unknown engine is a
+    // one-line error naming the option.
+    let (_, demo, _) = ohmstack(&["demo"], "");
+    let (code, out, err) = ohmstack(&["analyze", "-", "--engine", "field", "--json"], &demo);
+    assert_eq!(code, 0, "{err}");
+    let plan: serde_json::Value = serde_json::from_str(&out).unwrap();
+    let rules = plan["rules"].as_array().unwrap();
+    assert!(!rules.is_empty());
+    for r in rules {
+        assert_eq!(r["method"], "2D field solver (boundary elements)", "{r}");
+        let dev = r["deviation_pct"].as_f64().unwrap();
+        assert!(dev.abs() < 0.011, "{}: {dev} %", r["name"]);
+        assert!(r["warnings"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .any(|w| w["message"].as_str().unwrap().contains("estimated error")));
+    }
+    let (code, _, err) = ohmstack(&["analyze", "-", "--engine", "magic"], &demo);
+    assert_eq!(code, 2);
+    assert!(err.starts_with("error: --engine"), "{err}");
+    assert_eq!(err.trim_end().lines().count(), 1, "{err}");
+}
