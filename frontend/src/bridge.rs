@@ -699,18 +699,14 @@ pub fn spread_view(project: &Project, idx: usize) -> Result<SpreadView, String> 
     let mut ev = setup.evaluator(model);
     let mut direct = |d: &[f64]| ev.z(d);
     let surface = spread::Quadratic::fit(&setup.params, &mut direct).map_err(err)?;
-    let draws = spread::standard_draws(
-        &setup.params,
-        opts.samples,
-        spread::rule_seed(opts.seed, &rule.name),
-    )
-    .map_err(err)?;
+    let draws = spread::standard_draws(&setup.params, opts.samples, spread::rule_seed(opts.seed))
+        .map_err(err)?;
     let (_, samples) = spread::monte_carlo_on(
         &setup.params,
         &draws,
         setup.lower_ohm,
         setup.upper_ohm,
-        &mut |d| Ok(surface.z(d)),
+        &mut |d| surface.sample(d, &mut direct),
     )
     .map_err(err)?;
     let mc = &summary.monte_carlo;

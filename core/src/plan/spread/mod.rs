@@ -20,7 +20,7 @@
 //! - Monte Carlo: N seeded samples (xoshiro256** from rand_xoshiro, normals from rand_distr; see [`rng`]); mean, σ, percentiles by linear
 //!   interpolation between order statistics, a histogram, yield = share of all samples inside the rule's
 //!   tolerance window (failed samples count as outside), and the process capability
-//!   Cpk = min(USL − µ, µ − LSL)/(3σ). Each rule draws its own stream (the seed mixed with the rule's name).
+//!   Cpk = min(USL − µ, µ − LSL)/(3σ). Every rule draws the same stream (see below).
 //! - Sensitivities: central differences of the model itself with a step of a tenth of each limit, listed by
 //!   |∂Z/∂p × limit|; first-order propagation σ_Z = √Σ(∂Z/∂p·σ_p)² (JCGM 100:2008 "GUM" §5.1.2) and the
 //!   second-order mean Z0 + ½Σ ∂²Z/∂p²·σ_p² are reported beside the Monte Carlo figures.
@@ -29,7 +29,11 @@
 //!   samples (midpoint of that position; the smallest shift on ties); shifting the nominal impedance by the same
 //!   amount is, to first order, the shift that maximises yield (when every sample fits, it centres the sampled
 //!   range in the window). The free dimension is solved for that nominal impedance and the same deviates
-//!   (common random numbers) are run again for the centred yield; if it is not better, the nominal is kept.
+//!   (common random numbers) are run again for the centred yield; unless it gains more than three standard errors
+//!   of the estimated yield (at least 0.1 percentage point), the nominal is kept.
+//! - Every rule draws the same standard deviates ([`rule_seed`]), so identical rules give identical figures; the
+//!   quadratic surface is sampled only inside the limits it was fitted over, the true model in the tails
+//!   ([`Quadratic::sample`]).
 //!
 //! The impedance model is a hook ([`ImpedanceModel`]): [`Engine::ClosedForm`] calls the closed forms, so every
 //! structure the models know is covered; a field solver can implement the same trait and be fitted by
@@ -77,6 +81,8 @@ impl ImpedanceModel for Engine {
 /// which is the intended shape for a field-solver response surface as well.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Quadratic {
+    /// The ± limits the surface was fitted over (beyond them it extrapolates).
+    limits: Vec<f64>,
     z0: f64,
     lin: Vec<f64>,
     sq: Vec<f64>,
@@ -130,7 +136,30 @@ impl Quadratic {
                 cross.push((pp - pm - mp + mm) / (4.0 * la * lb));
             }
         }
-        Ok(Quadratic { z0, lin, sq, cross })
+        let limits = params.iter().map(|p| p.limit).collect();
+        Ok(Quadratic {
+            limits,
+            z0,
+            lin,
+            sq,
+            cross,
+        })
+    }
+
+    /// A Monte Carlo sample at deviations `d`: the surface inside the limits it was fitted over, the true `model`
+    /// in the tails (any deviation beyond its ± limit, about 0.3 % of normal draws per parameter) and wherever the
+    /// surface would give a non-physical impedance, so the spread never extrapolates a quadratic to Z ≤ 0.
+    pub fn sample(&self, d: &[f64], model: &mut dyn FnMut(&[f64]) -> Result<f64>) -> Result<f64> {
+        let inside = d
+            .iter()
+            .zip(&self.limits)
+            .all(|(x, l)| x.abs() <= *l * (1.0 + 1e-12));
+        let z = self.z(d);
+        if inside && z.is_finite() && z > 0.0 {
+            Ok(z)
+        } else {
+            model(d)
+        }
     }
 
     /// The surface at deviations `d`.
@@ -984,16 +1013,11 @@ pub fn best_shift(sorted: &[f64], lower: f64, upper: f64) -> f64 {
     best
 }
 
-/// An independent stream per rule: the seed mixed with the rule's name (FNV-1a), so reordering rules does not
-/// change any rule's samples.
-pub fn rule_seed(seed: u64, name: &str) -> u64 {
-    let mut h: u64 = 0xcbf2_9ce4_8422_2325;
-    for b in name.bytes() {
-        h ^= u64::from(b);
-        h = h.wrapping_mul(0x0000_0100_0000_01b3);
-    }
-
-    rng::mix(seed ^ h)
+/// The stream every rule draws from: the same standard deviates for every rule (common random numbers), so two
+/// identical rules give identical spreads and two different rules differ only where their models differ, never by
+/// sampling noise; reordering or renaming rules changes nothing.
+pub fn rule_seed(seed: u64) -> u64 {
+    rng::mix(seed)
 }
 
 /// True when two cross-section families are the same structure for the spread. Symmetric and offset stripline are
@@ -1095,7 +1119,7 @@ pub fn run_with_model(
                 .into(),
         });
     }
-    let seed = rule_seed(opts.seed, &rule.name);
+    let seed = rule_seed(opts.seed);
     let (lower, upper) = (setup.lower_ohm, setup.upper_ohm);
     let mut ev = setup.evaluator(model);
     let mut direct = |d: &[f64]| ev.z(d);
@@ -1105,7 +1129,7 @@ pub fn run_with_model(
         SampleModel::Quadratic => Some(Quadratic::fit(&setup.params, &mut direct)?),
     };
     let mut f = |d: &[f64]| match &surface {
-        Some(q) => Ok(q.z(d)),
+        Some(q) => q.sample(d, &mut direct),
         None => direct(d),
     };
     let corners = corners(&setup.params, &sens, lower, upper, &mut f);
@@ -1215,7 +1239,7 @@ fn centre(
         SampleModel::Quadratic => Some(Quadratic::fit(&moved.params, &mut direct)?),
     };
     let mut f = |d: &[f64]| match &surface {
-        Some(q) => Ok(q.z(d)),
+        Some(q) => q.sample(d, &mut direct),
         None => direct(d),
     };
     let (mean_c, yield_c) = mean_and_yield_on(
@@ -1225,7 +1249,11 @@ fn centre(
         moved.upper_ohm,
         &mut f,
     );
-    if yield_c < mc.yield_pct {
+    // Suggest the centred dimension only when it gains more yield than the Monte Carlo can resolve: three
+    // standard errors of the estimated yield (at least 0.1 percentage point). Smaller gains are sampling noise.
+    let y = mc.yield_pct / 100.0;
+    let resolvable = (3.0 * (y * (1.0 - y) / mc.samples.max(1) as f64).sqrt() * 100.0).max(0.1);
+    if yield_c < mc.yield_pct + resolvable {
         return Ok(keep());
     }
     Ok(Centred {

@@ -800,3 +800,53 @@ fn centred_stripline_spread_runs_across_the_symmetric_offset_threshold() {
         s.linear_sigma_ohm
     );
 }
+
+#[test]
+fn the_surface_hands_the_tails_and_non_physical_values_to_the_true_model() {
+    // A model whose quadratic surface over ±1 goes negative inside the limits (exact arithmetic:
+    // z(±1) = 50·e^∓5, so at d = 0.5 the surface gives 50 − 1855.3 + 915.0 ≈ −890 Ω while the model gives
+    // 50·e^−2.5 ≈ 4.10 Ω).
+    let param = Parameter {
+        name: "toy".into(),
+        varies: Varied::EtchFactor,
+        unit: "",
+        nominal: 0.0,
+        limit: 1.0,
+        distribution: Distribution::Normal,
+    };
+    let mut model = |d: &[f64]| -> Result<f64> { Ok(50.0 * (-5.0 * d[0]).exp()) };
+    let q = Quadratic::fit(std::slice::from_ref(&param), &mut model).unwrap();
+    assert!(q.z(&[0.5]) < 0.0, "{}", q.z(&[0.5]));
+    let s = q.sample(&[0.5], &mut model).unwrap();
+    assert!((s - 50.0 * (-2.5f64).exp()).abs() < 1e-12, "{s}");
+    // In the tails (beyond the ± limit) the model answers even where the surface stays positive.
+    let tail = q.sample(&[-1.5], &mut model).unwrap();
+    assert_eq!(tail, model(&[-1.5]).unwrap());
+    // Inside, where the surface is physical, it answers (exact at its fit points).
+    assert_eq!(q.sample(&[1.0], &mut model).unwrap(), q.z(&[1.0]));
+    assert_eq!(q.sample(&[0.0], &mut model).unwrap(), 50.0);
+}
+
+#[test]
+fn identical_rules_give_identical_spreads() {
+    // Common random numbers: a copy of a rule under another name gets the very same spread (the two
+    // mirror-identical rules showed different ranges and centred spacings from sampling noise alone).
+    let mut p = crate::design::demo::project();
+    let mut twin = p.rules[0].clone();
+    twin.name = format!("{} (twin)", twin.name);
+    p.rules.push(twin);
+    let plan = crate::plan_with(&p, &crate::PlanOptions::with_spread()).unwrap();
+    let a = plan.rules[0].ok().unwrap().spread.as_ref().unwrap();
+    let b = plan
+        .rules
+        .last()
+        .unwrap()
+        .ok()
+        .unwrap()
+        .spread
+        .as_ref()
+        .unwrap();
+    assert_eq!(a.monte_carlo, b.monte_carlo);
+    assert_eq!(a.corners, b.corners);
+    assert_eq!(a.centred, b.centred);
+}
