@@ -4,9 +4,9 @@
 #![no_main]
 
 use libfuzzer_sys::fuzz_target;
-use ohmstack_core::section::{Cover, CrossSection, Medium};
 use ohmstack_core::field::{self, FieldOptions, FieldSolve};
 use ohmstack_core::section::Dims;
+use ohmstack_core::section::{Cover, CrossSection, Medium};
 use ohmstack_core::Structure;
 use ohmstack_fuzz::Numbers;
 
@@ -53,6 +53,7 @@ fuzz_target!(|data: &[u8]| {
         },
     };
     let cs = CrossSection {
+        loss: Default::default(),
         medium,
         t: n.f64_near(35e-6),
         references: Vec::new(),
@@ -105,7 +106,10 @@ fuzz_target!(|data: &[u8]| {
         );
         // The potential map of any finished solve draws: finite values within the drive, ascending axes.
         let map = solve.potential_map().expect("a finished solve has a map");
-        assert!(map.values.iter().all(|v| v.is_finite() && v.abs() <= 1.0 + 1e-3));
+        assert!(map
+            .values
+            .iter()
+            .all(|v| v.is_finite() && v.abs() <= 1.0 + 1e-3));
         assert!(map.xs.windows(2).all(|w| w[1] > w[0]) && map.ys.windows(2).all(|w| w[1] > w[0]));
         ohmstack_core::output::plot::potential_map(&map, "fuzz").expect("the map draws");
     }

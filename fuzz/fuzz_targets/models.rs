@@ -4,14 +4,15 @@
 #![no_main]
 
 use libfuzzer_sys::fuzz_target;
-use ohmstack_core::plan::case::LineCase;
-use ohmstack_core::section::{Cover, CrossSection, Medium};
-use ohmstack_core::design::dielectric::{DielectricModel, Dispersive};
-use ohmstack_core::line::loss::{LineModel, LossInputs, Surfaces, Sweep};
 use ohmstack_core::closed_form;
-use ohmstack_core::section::{Analysis, Dims};
+use ohmstack_core::design::dielectric::{DielectricModel, Dispersive};
 use ohmstack_core::design::roughness::Roughness;
-use ohmstack_core::{touchstone, Structure};
+use ohmstack_core::line::loss::{LineModel, LossInputs, Surfaces, Sweep};
+use ohmstack_core::output::touchstone;
+use ohmstack_core::plan::case::LineCase;
+use ohmstack_core::section::{Analysis, Dims};
+use ohmstack_core::section::{Cover, CrossSection, Medium};
+use ohmstack_core::Structure;
 use ohmstack_fuzz::Numbers;
 
 fn finite_analysis(a: &Analysis) -> bool {
@@ -69,6 +70,7 @@ fuzz_target!(|data: &[u8]| {
         },
     };
     let cs = CrossSection {
+        loss: Default::default(),
         medium,
         t: n.f64_near(35e-6),
         references: Vec::new(),

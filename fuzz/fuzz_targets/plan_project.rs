@@ -4,9 +4,9 @@
 #![no_main]
 
 use libfuzzer_sys::fuzz_target;
-use ohmstack_core::plan::spread::SampleModel;
 use ohmstack_core::design::stackup::Layer;
 use ohmstack_core::output::{draw, report};
+use ohmstack_core::plan::spread::SampleModel;
 use ohmstack_core::{plan_with, ImpedanceRule, PlanOptions, Solve, Structure};
 use ohmstack_fuzz::Numbers;
 
