@@ -59,11 +59,15 @@ impl fmt::Display for Error {
         match self {
             Error::NotFinite { field } => write!(f, "{field}: must be a finite number"),
             Error::NonPositive { field, value, unit } => {
-                write!(f, "{field}: must be greater than zero (got {value} {unit})")
+                write!(f, "{field}: must be greater than zero (got {} {unit})", compact(*value))
             }
-            Error::OutOfRange { field, value, min, max, unit } => {
-                write!(f, "{field}: {value} {unit} is outside the allowed range {min} to {max} {unit}")
-            }
+            Error::OutOfRange { field, value, min, max, unit } => write!(
+                f,
+                "{field}: {} {unit} is outside the allowed range {} to {} {unit}",
+                compact(*value),
+                compact(*min),
+                compact(*max)
+            ),
             Error::BadQuantity { field, text, expected } => {
                 write!(f, "{field}: cannot read {text:?}, expected {expected}")
             }
@@ -81,6 +85,38 @@ impl fmt::Display for Error {
 }
 
 impl std::error::Error for Error {}
+
+/// A number as a message shows it: six significant digits at most, plain between 0.001 and a million, otherwise
+/// in exponent form (f64's own `Display` writes 1e-30 as thirty-odd zeros).
+pub fn compact(v: f64) -> String {
+    if !v.is_finite() || v == 0.0 {
+        return format!("{v}");
+    }
+    let a = v.abs();
+    if (1e-3..1e6).contains(&a) {
+        let digits = (5 - a.log10().floor() as i32).clamp(0, 9) as usize;
+        let s = format!("{v:.digits$}");
+        let s = if s.contains('.') {
+            s.trim_end_matches('0').trim_end_matches('.').to_string()
+        } else {
+            s
+        };
+        return s;
+    }
+    let s = format!("{v:.5e}");
+    // Trim the mantissa's trailing zeros: 1.00000e-30 -> 1e-30.
+    match s.split_once('e') {
+        Some((m, e)) => {
+            let m = if m.contains('.') {
+                m.trim_end_matches('0').trim_end_matches('.')
+            } else {
+                m
+            };
+            format!("{m}e{e}")
+        }
+        None => s,
+    }
+}
 
 /// Shorthand for results in the core.
 pub type Result<T, E = Error> = std::result::Result<T, E>;
@@ -145,3 +181,31 @@ pub fn length_or_zero(field: &str, metres: f64) -> Result<f64> {
 pub fn permittivity(field: &str, er: f64) -> Result<f64> {
     in_range(field, er, 1.0, 100.0, "")
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn numbers_in_messages_are_compact() {
+        // The CLI once printed 1e-30 m as sixty characters of zeros.
+        assert_eq!(compact(1e-30), "1e-30");
+        assert_eq!(compact(-2.5e-7), "-2.5e-7");
+        assert_eq!(compact(0.5), "0.5");
+        assert_eq!(compact(12.345678), "12.3457");
+        assert_eq!(compact(1e10), "1e10");
+        assert_eq!(compact(0.0), "0");
+        let e = Error::OutOfRange {
+            field: "width".into(),
+            value: 1e-30,
+            min: 1e-15,
+            max: 0.5,
+            unit: "m",
+        };
+        assert_eq!(
+            e.to_string(),
+            "width: 1e-30 m is outside the allowed range 1e-15 to 0.5 m"
+        );
+    }
+}
+
