@@ -287,3 +287,47 @@ fn analyze_on_the_field_engine_puts_every_solved_rule_on_target() {
     assert!(err.starts_with("error: --engine"), "{err}");
     assert_eq!(err.trim_end().lines().count(), 1, "{err}");
 }
+
+#[test]
+fn field_check_on_the_fast_engine_agrees_with_the_reference() {
+    // `ohmstack field --engine field` against the default finite-volume check, rule by rule on the demo: the same
+    // dimensions, closed form and band, and field figures within the two error estimates (independent methods).
+    let (_, demo, _) = ohmstack(&["demo"], "");
+    let run = |engine: &str| -> Vec<serde_json::Value> {
+        let (code, out, err) = ohmstack(&["field", "-", "--engine", engine, "--json"], &demo);
+        assert_eq!(code, 0, "{err}");
+        serde_json::from_str(&out).unwrap()
+    };
+    let (fast, reference) = (run("field"), run("reference"));
+    assert_eq!(fast.len(), reference.len());
+    for (f, r) in fast.iter().zip(&reference) {
+        assert_eq!(f["width_m"], r["width_m"], "{}", f["name"]);
+        assert_eq!(
+            f["comparison"]["closed_form_ohm"],
+            r["comparison"]["closed_form_ohm"]
+        );
+        let (zf, zr) = (
+            f["field"]["controlled_ohm"].as_f64().unwrap(),
+            r["field"]["controlled_ohm"].as_f64().unwrap(),
+        );
+        let bound = f["field"]["error_estimate_pct"].as_f64().unwrap()
+            + r["field"]["error_estimate_pct"].as_f64().unwrap();
+        let diff = (zf / zr - 1.0).abs() * 100.0;
+        assert!(diff <= bound, "{}: {diff} % > {bound} %", f["name"]);
+    }
+    let (code, _, err) = ohmstack(
+        &[
+            "field",
+            "-",
+            "--engine",
+            "field",
+            "--rule",
+            "Ethernet 100 Ω",
+            "--map",
+            "x.svg",
+        ],
+        &demo,
+    );
+    assert_eq!(code, 2);
+    assert!(err.starts_with("error: --map"), "{err}");
+}

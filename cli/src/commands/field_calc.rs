@@ -9,7 +9,9 @@ use ohmstack_core::plan::case;
 use ohmstack_core::Structure;
 
 use crate::args::{CaseArgs, Number};
-use crate::commands::field::{comparison_line, field_json, print_field, write_map, SolverArgs};
+use crate::commands::field::{
+    comparison_line, field_json, print_field, write_map, FieldEngine, SolverArgs,
+};
 use anyhow::{anyhow, Result};
 use serde_json::json;
 use std::time::Instant;
@@ -35,15 +37,6 @@ pub struct Args {
     pub engine: FieldEngine,
     #[command(flatten)]
     pub solver: SolverArgs,
-}
-
-/// The two field engines `field-calc` can run.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
-pub enum FieldEngine {
-    /// Boundary elements: milliseconds, within 0.1 % of the reference
-    Field,
-    /// Finite volumes with Richardson extrapolation: the independent reference
-    Reference,
 }
 
 pub fn run(args: Args) -> Result<()> {

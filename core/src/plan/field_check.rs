@@ -5,6 +5,8 @@ use crate::base::error::Result;
 use crate::base::validity::Warning;
 use crate::closed_form::bands;
 use crate::design::project::{ImpedanceRule, Project};
+use crate::field::boundary::{self, BemOptions};
+use crate::field::geometry::Geometry;
 use crate::field::{build, Comparison, FieldOptions, FieldResult, FieldSolve, Progress};
 use crate::section;
 use crate::section::Dims;
@@ -26,10 +28,9 @@ pub struct RuleCheck {
     pub field: FieldResult,
 }
 
-/// A field check of one rule that runs in slices, so a browser page stays responsive: [`RuleFieldJob::start`],
-/// then [`RuleFieldJob::step`] until `done`, then [`RuleFieldJob::finish`]. [`check_rule`] runs it in one go.
-pub struct RuleFieldJob {
-    solve: FieldSolve,
+/// What a field check of one rule needs besides the solve: the rule's labels, the closed form's answer and band,
+/// the dimensions and the geometry the field engines solve.
+struct RuleSetup {
     name: String,
     layer: String,
     family: &'static str,
@@ -40,16 +41,13 @@ pub struct RuleFieldJob {
     etch: Option<f64>,
     closed: Option<(&'static str, f64)>,
     notes: Vec<Warning>,
+    geometry: Geometry,
 }
 
-impl RuleFieldJob {
-    /// Resolves the rule, takes the closed form's solved dimensions (or the rule's own when there is no closed
-    /// form), and sets up the field solve.
-    pub fn start(
-        project: &Project,
-        rule: &ImpedanceRule,
-        options: FieldOptions,
-    ) -> Result<RuleFieldJob> {
+impl RuleSetup {
+    /// Resolves the rule and takes the closed form's solved dimensions (or the rule's own when there is no closed
+    /// form).
+    fn new(project: &Project, rule: &ImpedanceRule) -> Result<RuleSetup> {
         rule.validate(&project.stackup)?;
         let cs = section::resolve(&project.stackup, rule)?;
         let (dims, closed, note) = crate::plan::synthesis::closed_form_start(project, rule);
@@ -60,19 +58,63 @@ impl RuleFieldJob {
                 "the field solve models the etched (trapezoidal) trace; the closed form may not",
             ));
         }
-        let solve = FieldSolve::new(build(&cs, rule.structure, &dims, etch)?, options)?;
-        Ok(RuleFieldJob {
-            solve,
+        Ok(RuleSetup {
             name: rule.name.clone(),
             layer: rule.layer.clone(),
             family: cs.family_for(rule.structure),
             structure: rule.structure.label(),
             band: bands::measured_for(&cs, rule.structure, &dims),
+            geometry: build(&cs, rule.structure, &dims, etch)?,
             dims,
             etch,
             closed,
             notes,
         })
+    }
+
+    /// The check from a finished field solve of the geometry.
+    fn check(&self, field: FieldResult) -> RuleCheck {
+        let mut comparison = crate::field::extract::compare_in_band(
+            self.closed,
+            field.controlled_ohm,
+            field.error_estimate_pct,
+            self.band,
+        );
+        comparison.warnings.extend(self.notes.iter().cloned());
+        RuleCheck {
+            name: self.name.clone(),
+            layer: self.layer.clone(),
+            family: self.family,
+            structure: self.structure,
+            width_m: self.dims.w,
+            spacing_m: self.dims.s,
+            gap_m: self.dims.gap,
+            etch_factor: self.etch,
+            comparison,
+            field,
+        }
+    }
+}
+
+/// A field check of one rule on the reference solver that runs in slices, so a browser page stays responsive:
+/// [`RuleFieldJob::start`], then [`RuleFieldJob::step`] until `done`, then [`RuleFieldJob::finish`].
+/// [`check_rule`] runs it in one go.
+pub struct RuleFieldJob {
+    solve: FieldSolve,
+    setup: RuleSetup,
+}
+
+impl RuleFieldJob {
+    /// Resolves the rule, takes the closed form's solved dimensions (or the rule's own when there is no closed
+    /// form), and sets up the field solve.
+    pub fn start(
+        project: &Project,
+        rule: &ImpedanceRule,
+        options: FieldOptions,
+    ) -> Result<RuleFieldJob> {
+        let setup = RuleSetup::new(project, rule)?;
+        let solve = FieldSolve::new(setup.geometry.clone(), options)?;
+        Ok(RuleFieldJob { solve, setup })
     }
 
     /// Does about `work_budget` units of work (see [`FieldSolve::step`]).
@@ -92,35 +134,25 @@ impl RuleFieldJob {
 
     /// The rule's name.
     pub fn name(&self) -> &str {
-        &self.name
+        &self.setup.name
     }
 
     /// The check, once the solve is done.
     pub fn finish(&self) -> Option<Result<RuleCheck>> {
-        let field = match self.solve.result()? {
-            Ok(f) => f,
-            Err(e) => return Some(Err(e)),
-        };
-        let mut comparison = crate::field::extract::compare_in_band(
-            self.closed,
-            field.controlled_ohm,
-            field.error_estimate_pct,
-            self.band,
-        );
-        comparison.warnings.extend(self.notes.iter().cloned());
-        Some(Ok(RuleCheck {
-            name: self.name.clone(),
-            layer: self.layer.clone(),
-            family: self.family,
-            structure: self.structure,
-            width_m: self.dims.w,
-            spacing_m: self.dims.s,
-            gap_m: self.dims.gap,
-            etch_factor: self.etch,
-            comparison,
-            field,
-        }))
+        Some(self.solve.result()?.map(|field| self.setup.check(field)))
     }
+}
+
+/// Field-checks one rule on the fast field engine (boundary elements): the same comparison as [`check_rule`] in
+/// milliseconds.
+pub fn check_rule_fast(
+    project: &Project,
+    rule: &ImpedanceRule,
+    options: &BemOptions,
+) -> Result<RuleCheck> {
+    let setup = RuleSetup::new(project, rule)?;
+    let field = boundary::solve(&setup.geometry, options)?;
+    Ok(setup.check(field))
 }
 
 /// Field-checks one rule of `project` (blocking; bounded by the options' caps).
@@ -160,6 +192,27 @@ pub fn check_project(
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn the_fast_engine_checks_a_rule_like_the_reference() {
+        // The same rule checked on both field engines: the field figures agree within the two error estimates
+        // (independent methods), and the closed form's figure and band are the same in both checks.
+        let p = crate::design::demo::project();
+        let rule = &p.rules[0];
+        let fast = check_rule_fast(&p, rule, &BemOptions::default()).unwrap();
+        let reference = check_rule(&p, rule, FieldOptions::default()).unwrap();
+        let diff = (fast.field.controlled_ohm / reference.field.controlled_ohm - 1.0).abs() * 100.0;
+        assert!(
+            diff <= fast.field.error_estimate_pct + reference.field.error_estimate_pct,
+            "{diff} %"
+        );
+        assert_eq!(
+            fast.comparison.closed_form_ohm,
+            reference.comparison.closed_form_ohm
+        );
+        assert_eq!(fast.comparison.band_pct, reference.comparison.band_pct);
+        assert_eq!(fast.width_m, reference.width_m);
+    }
 
     #[test]
     fn demo_rules_get_a_field_check() {
