@@ -323,6 +323,7 @@ proptest! {
             spread_samples: 24,
             seed: 7,
             spread_model: if direct { SampleModel::Direct } else { SampleModel::Quadratic },
+            field_check: false,
         };
         let plan = plan_with(&p, &options).unwrap();
         prop_assert_eq!(plan.rules.len(), p.rules.len());

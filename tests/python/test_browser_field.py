@@ -158,3 +158,29 @@ def test_field_solver_model_in_the_browser_equals_the_cli(driver):
     notes = driver.find_element(By.CSS_SELECTOR, "[data-testid='fab-notes']").text
     assert f"{native['width_m'] * 1e6:.1f}" in notes
     assert browser.console_errors(driver) == []
+
+
+def test_field_engine_checks_each_card_and_overrules_a_closed_form_verdict(driver):
+    """Once the page settles, every closed-form rule card carries the fast field engine's figure at the same
+    dimensions (equal to `ohmstack field --engine field`), and the demo's radio feed, on target by its closed form,
+    is marked outside its tolerance because the field engine puts it near 44 Ω."""
+    driver.get(browser.app_url())
+    browser.wait_ready(driver)
+    browser.wait_for(lambda: driver.find_element(By.ID, "app").get_attribute("data-settled") == "true",
+                     timeout=60, what="settled page")
+    demo = run("demo").stdout
+    rules = json.loads(demo)["rules"]
+    proc = run("field", "-", "--engine", "field", "--json", stdin=demo)
+    assert proc.returncode == 0, proc.stderr
+    native = {c["name"]: c["comparison"]["field_ohm"] for c in json.loads(proc.stdout)}
+    for i, rule in enumerate(rules):
+        el = driver.find_element(By.CSS_SELECTOR, f"[data-testid='rule-{i}-field-check']")
+        shown = float(el.get_attribute("data-value"))
+        assert abs(shown / native[rule["name"]] - 1) < 1e-6, (rule["name"], shown, native[rule["name"]])
+    feed = next(i for i, r in enumerate(rules) if r["name"] == "Radio feed 50 Ω")
+    verdict = driver.find_element(By.CSS_SELECTOR, f"[data-testid='rule-{feed}-verdict']").text
+    assert "outside" in verdict and "field engine" in verdict, verdict
+    card = driver.find_element(By.CSS_SELECTOR, f"[data-testid='rule-{feed}-field-check']")
+    browser.screenshot(driver, "field-engine-check")
+    assert float(card.get_attribute("data-value")) < 46.0
+    assert browser.console_errors(driver) == []

@@ -55,6 +55,8 @@ pub struct PlanOptions {
     /// What the spread's samples call: the model itself, or its quadratic response surface (fast enough to
     /// recompute on every edit).
     pub spread_model: SampleModel,
+    /// Also solve every closed-form rule on the fast field engine at its dimensions ([`RuleResult::field_check`]).
+    pub field_check: bool,
 }
 
 impl Default for PlanOptions {
@@ -64,17 +66,20 @@ impl Default for PlanOptions {
             spread_samples: 0,
             seed: spread::DEFAULT_SEED,
             spread_model: SampleModel::Quadratic,
+            field_check: false,
         }
     }
 }
 
 impl PlanOptions {
-    /// Nominal figures plus the tolerance spread with the default sample count and seed.
+    /// Nominal figures plus the tolerance spread with the default sample count and seed, and the field engine's
+    /// check of every closed-form rule.
     pub fn with_spread() -> Self {
         PlanOptions {
             spread_samples: spread::DEFAULT_SAMPLES,
             seed: spread::DEFAULT_SEED,
             spread_model: SampleModel::Quadratic,
+            field_check: true,
         }
     }
 }
@@ -120,6 +125,14 @@ pub fn plan_with(project: &Project, options: &PlanOptions) -> Result<Plan> {
         .enumerate()
         .map(|(i, rule)| match evaluate_rule(project, rule) {
             Ok(mut r) => {
+                if options.field_check {
+                    match rule::field_check(project, rule, &r) {
+                        Ok(c) => r.field_check = c,
+                        Err(e) => r
+                            .warnings
+                            .push(Warning::new(format!("field engine check: {e}"))),
+                    }
+                }
                 if options.spread_samples > 0 {
                     let opts = SpreadOptions {
                         samples: options.spread_samples,

@@ -59,10 +59,19 @@ fn results(i: usize, r: &RuleResult, project: &Project) -> Html {
     let delay_ps_per_mm = r.delay_s_per_m * 1e9;
     let delay_ps_per_in = r.delay_s_per_m * 0.0254 * 1e12;
     let z_label = if pair { "Zdiff (Ω)" } else { "Z0 (Ω)" };
-    let verdict = if r.within_tolerance {
-        html! { <span class="badge ok" data-testid={format!("rule-{i}-verdict")}>{ format!("within ±{}%", format_sig(r.tolerance_pct, 3)) }</span> }
-    } else {
-        html! { <span class="badge bad" data-testid={format!("rule-{i}-verdict")}>{ format!("outside ±{}%", format_sig(r.tolerance_pct, 3)) }</span> }
+    // The verdict follows the field engine when it checked the closed form: a board is built to these dimensions,
+    // and the field figure is what it will measure.
+    let tol = format_sig(r.tolerance_pct, 3);
+    let verdict = match (&r.field_check, r.within_tolerance) {
+        (Some(c), _) if !c.within_tolerance => html! {
+            <span class="badge bad" data-testid={format!("rule-{i}-verdict")} title="the closed form's figure is inside, the 2D field engine's is not">{ format!("outside ±{tol}% by the field engine") }</span>
+        },
+        (_, true) => {
+            html! { <span class="badge ok" data-testid={format!("rule-{i}-verdict")}>{ format!("within ±{tol}%") }</span> }
+        }
+        (_, false) => {
+            html! { <span class="badge bad" data-testid={format!("rule-{i}-verdict")}>{ format!("outside ±{tol}%") }</span> }
+        }
     };
     html! {
         <div class="rule-results">
@@ -82,6 +91,9 @@ fn results(i: usize, r: &RuleResult, project: &Project) -> Html {
                         <span class="badge bad" data-testid={format!("rule-{i}-model-band")} title="measured against the 2D field solver (docs/accuracy.md); use the field solver for this rule">{ format!("closed form ±{}% vs field solver", format_sig(b, 3)) }</span>
                     }
                 </div>
+                if let Some(c) = &r.field_check {
+                    { figure(i, "field-check", "Field engine (Ω)", format!("{:.2} ({:+.2}% vs target)", c.impedance_ohm, c.deviation_pct), Some(c.impedance_ohm)) }
+                }
                 if let Some(zc) = bridge::z_common(r) {
                     { figure(i, "zcommon", "Zcommon (Ω)", format!("{zc:.2}"), Some(zc)) }
                 }
