@@ -9,6 +9,7 @@ import json
 import pytest
 from selenium.webdriver.common.by import By
 from selenium.webdriver.common.keys import Keys
+from selenium.webdriver.support.ui import Select
 
 import browser
 
@@ -112,6 +113,15 @@ def test_two_tabs_keep_both_boards(driver):
     # Each tab can reopen the other board from the recent list.
     options = [o.text for o in driver.find_elements(By.CSS_SELECTOR, "#recent-projects option")]
     assert any(o.startswith("Board A rev2") for o in options), options
+    assert not any(o.startswith("Board B") for o in options), "the board on screen is not offered"
+    menu = Select(driver.find_element(By.ID, "recent-projects"))
+    menu.select_by_visible_text(next(o for o in options if o.startswith("Board A rev2")))
+    browser.wait_for(lambda: title(driver) == "Board A rev2", what="Board A rev2 reopened")
+    assert tab_id(driver) == id_a
+    assert "reopened" in notice(driver)
+    browser.wait_for(lambda: any(o.text.startswith("Board B")
+                                 for o in driver.find_elements(By.CSS_SELECTOR, "#recent-projects option")),
+                     what="Board B offered in the recent list")
     assert browser.console_errors(driver) == []
 
 
