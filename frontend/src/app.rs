@@ -1,5 +1,5 @@
-//! The app shell: owns the one state container, derives the plan, autosaves, listens for undo/redo keys and lays
-//! out the panels.
+//! The app shell: owns the one state container, derives the plan, autosaves this tab's project, notices another
+//! tab's saves to it, listens for undo/redo keys and lays out the panels.
 
 use crate::bridge;
 use crate::panels::{Layers, Rules, Toolbar};
@@ -13,13 +13,58 @@ use yew::prelude::*;
 /// How long typing must pause before the tolerance spread is recomputed, ms.
 const SPREAD_DELAY_MS: u32 = 250;
 
+/// This tab's hold on its saved project.
+#[derive(Default)]
+struct Session {
+    /// The project id this tab saves under.
+    id: String,
+    /// The text this tab last wrote or read there, to tell its own saves from another tab's.
+    last_written: Option<String>,
+    /// The version another tab saved over it, while this tab has not chosen what to do: autosave holds off.
+    conflict: Option<ohmstack_core::Project>,
+}
+
+/// The recent list as menu entries, without the project this tab edits.
+fn recent_entries(list: &[persist::Recent], current: &str) -> Rc<Vec<(AttrValue, AttrValue)>> {
+    Rc::new(
+        list.iter()
+            .filter(|r| r.id != current)
+            .map(|r| {
+                let title = if r.title.trim().is_empty() {
+                    "Untitled"
+                } else {
+                    r.title.as_str()
+                };
+                let label = format!("{title} — {}", persist::time_label(r.saved_ms));
+                (AttrValue::from(r.id.clone()), AttrValue::from(label))
+            })
+            .collect(),
+    )
+}
+
 #[component]
 pub fn App() -> Html {
-    let state = use_reducer(|| {
-        let (mut s, message) = persist::load();
-        s.notice = message.map(|text| Notice { error: true, text });
-        s
-    });
+    let session = use_mut_ref(Session::default);
+    let state = {
+        let session = session.clone();
+        use_reducer(move || {
+            let opened = persist::load();
+            *session.borrow_mut() = Session {
+                id: opened.id,
+                last_written: opened.text,
+                conflict: None,
+            };
+            let mut s = opened.state;
+            s.notice = opened.message.map(|text| Notice { error: true, text });
+            s
+        })
+    };
+    let recent = use_state(persist::recent);
+    // The title the other tab saved, shown until this tab chooses (the session holds the project itself).
+    let conflict = use_state(|| None::<AttrValue>);
+    // The design on screen, for the `storage` listener registered once at mount.
+    let latest = use_mut_ref(|| state.project.clone());
+    *latest.borrow_mut() = state.project.clone();
     // What this browser had saved when the page opened, read before the first autosave (the share panel weighs a
     // link against it).
     let saved_work = use_memo((), |_| crate::panels::share::local_work().map(Rc::new));
@@ -79,13 +124,104 @@ pub fn App() -> Html {
     let storage = use_state_eq(|| None::<AttrValue>);
     {
         let state = state.clone();
-        let storage = storage.clone();
+        let (storage, session, recent, conflict) = (
+            storage.clone(),
+            session.clone(),
+            recent.clone(),
+            conflict.clone(),
+        );
         use_effect_with(
             (state.project.clone(), state.undo.len(), state.redo.len()),
             move |_| {
-                storage.set(persist::save(&state).err().map(AttrValue::from));
+                // The session is borrowed only inside this block: setting state below may render at once, and
+                // rendering reads the session.
+                let (note, cleared, saved) = {
+                    let mut session = session.borrow_mut();
+                    let mut note = None;
+                    let theirs = session.conflict.take();
+                    if let Some(theirs) = &theirs {
+                        // Another tab saved over this project and this tab has changed since: never write over
+                        // theirs; this tab's work goes on as a project of its own.
+                        if state.project != *theirs {
+                            session.id = persist::fork();
+                            note = Some(format!(
+                                "“{}” was changed in another tab, so your work here is now kept as a separate project “{}”; both are in the recent list",
+                                theirs.title, state.project.title
+                            ));
+                        }
+                    }
+                    let saved = persist::save(&state, &session.id);
+                    if let Ok((text, _)) = &saved {
+                        session.last_written = Some(text.clone());
+                    }
+                    (note, theirs.is_some(), saved)
+                };
+                if cleared {
+                    conflict.set(None);
+                }
+                match saved {
+                    Ok((_, list)) => {
+                        recent.set(list);
+                        storage.set(None);
+                    }
+                    Err(e) => storage.set(Some(AttrValue::from(e))),
+                }
+                if let Some(text) = note {
+                    state.dispatch(Action::Notify(Some(Notice { error: false, text })));
+                }
             },
         );
+    }
+    {
+        let (session, recent, conflict, latest) = (
+            session.clone(),
+            recent.clone(),
+            conflict.clone(),
+            latest.clone(),
+        );
+        use_effect_with((), move |_| {
+            // Fired in every other tab of this browser when one of them writes to storage.
+            let listener = web_sys::window().map(|window| {
+                gloo::events::EventListener::new(&window, "storage", move |e| {
+                    let Some(e) = e.dyn_ref::<web_sys::StorageEvent>() else {
+                        return;
+                    };
+                    let (key, value) = (e.key(), e.new_value());
+                    if key.as_deref() == Some(persist::INDEX_KEY) {
+                        recent.set(value.map(|v| persist::decode_index(&v)).unwrap_or_default());
+                        return;
+                    }
+                    let current = latest.borrow().clone();
+                    let outside = {
+                        let session = session.borrow();
+                        persist::outside_change(
+                            key.as_deref(),
+                            value.as_deref(),
+                            &session.id,
+                            session.last_written.as_deref(),
+                            &current,
+                        )
+                    };
+                    match outside {
+                        persist::Outside::Ignore => {}
+                        persist::Outside::Same => {
+                            {
+                                let mut session = session.borrow_mut();
+                                session.last_written = value;
+                                session.conflict = None;
+                            }
+                            conflict.set(None);
+                        }
+                        persist::Outside::Changed(theirs) => {
+                            let title = AttrValue::from(theirs.title.clone());
+                            session.borrow_mut().conflict = Some(*theirs);
+                            conflict.set(Some(title));
+                        }
+                    }
+                })
+            });
+            move || drop(listener)
+        });
     }
     {
         let dispatcher = state.dispatcher();
@@ -122,7 +258,7 @@ pub fn App() -> Html {
         Callback::from(move |p: ohmstack_core::Project| {
             d.emit(Action::Load(
                 Box::new(p),
-                "opened the linked project (Undo brings back your previous work)".into(),
+                "opened the linked project".into(),
             ))
         })
     };
@@ -131,7 +267,7 @@ pub fn App() -> Html {
         Callback::from(move |_: ()| {
             d.emit(Action::Load(
                 Box::new(ohmstack_core::design::demo::project()),
-                "opened the demo (Undo brings back your previous work)".into(),
+                "opened the demo".into(),
             ))
         })
     };
@@ -140,10 +276,91 @@ pub fn App() -> Html {
         Callback::from(move |_: ()| {
             d.emit(Action::Load(
                 Box::new(state::blank_project()),
-                "new blank project (Undo brings back your previous work)".into(),
+                "new blank project".into(),
             ))
         })
     };
+    let on_take_theirs = {
+        let (d, session, conflict) = (dispatch.clone(), session.clone(), conflict.clone());
+        Callback::from(move |_: ()| {
+            let theirs = session.borrow_mut().conflict.take();
+            conflict.set(None);
+            if let Some(p) = theirs {
+                let message = format!("opened “{}” as the other tab saved it", p.title);
+                d.emit(Action::Load(Box::new(p), message));
+            }
+        })
+    };
+    let on_keep_copy = {
+        let (d, session, conflict, recent, storage) = (
+            dispatch.clone(),
+            session.clone(),
+            conflict.clone(),
+            recent.clone(),
+            storage.clone(),
+        );
+        let state = state.clone();
+        Callback::from(move |_: ()| {
+            let Some(theirs) = session.borrow_mut().conflict.take() else {
+                return;
+            };
+            let id = persist::fork();
+            // Nothing else changes on screen, so the autosave effect will not run: save the copy now.
+            let saved = persist::save(&state, &id);
+            {
+                let mut session = session.borrow_mut();
+                session.id = id;
+                if let Ok((text, _)) = &saved {
+                    session.last_written = Some(text.clone());
+                }
+            }
+            conflict.set(None);
+            match saved {
+                Ok((_, list)) => {
+                    recent.set(list);
+                    d.emit(Action::Notify(Some(Notice {
+                        error: false,
+                        text: format!(
+                            "kept your work as a separate project “{}”; the other tab's “{}” is in the recent list",
+                            state.project.title, theirs.title
+                        ),
+                    })));
+                }
+                Err(e) => storage.set(Some(AttrValue::from(e))),
+            }
+        })
+    };
+    let on_reopen = {
+        let (d, session, conflict, recent) = (
+            dispatch.clone(),
+            session.clone(),
+            conflict.clone(),
+            recent.clone(),
+        );
+        Callback::from(move |id: String| {
+            let title = recent
+                .iter()
+                .find(|r| r.id == id)
+                .map(|r| r.title.clone())
+                .unwrap_or_else(|| "that project".into());
+            match persist::reopen(&id, &title) {
+                Ok((opened, text)) => {
+                    *session.borrow_mut() = Session {
+                        id,
+                        last_written: Some(text),
+                        conflict: None,
+                    };
+                    conflict.set(None);
+                    d.emit(Action::Reopen(
+                        Box::new(opened),
+                        format!("reopened “{title}”; the project you left is in the recent list"),
+                    ));
+                }
+                Err(text) => d.emit(Action::Notify(Some(Notice { error: true, text }))),
+            }
+        })
+    };
+    let recent_menu = recent_entries(&recent, &session.borrow().id);
     let download_url = use_mut_ref(|| None::<gloo::file::ObjectUrl>);
     let on_save = {
         let d = dispatch.clone();
@@ -199,7 +416,8 @@ pub fn App() -> Html {
         <main id="app" data-ready="true" data-stale={stale.to_string()} data-settled={settled.to_string()}>
             <Toolbar project={project.clone()} drafts={drafts.clone()} can_undo={!state.undo.is_empty()} can_redo={!state.redo.is_empty()}
                 notice={state.notice.clone()} storage={(*storage).clone()} dispatch={dispatch.clone()}
-                {on_demo} {on_blank} {on_save} {on_open} />
+                {on_demo} {on_blank} {on_save} {on_open} recent={recent_menu} {on_reopen}
+                conflict={(*conflict).clone()} {on_take_theirs} {on_keep_copy} />
             if let Some(e) = plan_error {
                 <p class="error" role="alert" data-testid="plan-error">{ e }</p>
             }

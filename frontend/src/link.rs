@@ -7,9 +7,6 @@ use wasm_bindgen::closure::Closure;
 use wasm_bindgen::{JsCast, JsValue};
 use web_sys::js_sys::{Function, Promise, Reflect};
 
-/// The local-storage key of the project being edited (the editor's autosave is to share it).
-pub const LOCAL_KEY: &str = crate::persist::PROJECT_KEY;
-
 /// The URL fragment without its `#`, if there is one.
 pub fn fragment() -> Option<String> {
     let hash = window().location().hash().ok()?;
@@ -38,15 +35,9 @@ pub fn href() -> String {
     window().location().href().unwrap_or_default()
 }
 
-fn storage() -> Option<web_sys::Storage> {
-    // `local_storage()` is `Err` when storage is blocked and `Ok(None)` when it is absent; gloo's
-    // `LocalStorage::raw()` would panic in both cases, so the raw API is used.
-    window().local_storage().ok().flatten()
-}
-
-/// The text saved under [`LOCAL_KEY`], if storage works and holds it.
+/// The saved text of the project this tab edits, if storage works and holds it.
 pub fn load_local() -> Option<String> {
-    storage()?.get_item(LOCAL_KEY).ok().flatten()
+    crate::persist::saved_text()
 }
 
 /// Copies `text` to the clipboard. `done` gets `Ok` once the browser confirms, or `Err` with the reason when the

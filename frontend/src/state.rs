@@ -195,8 +195,11 @@ pub enum Action {
     SetRulePartner(usize, String),
     Undo,
     Redo,
-    /// Replace the whole project (new, open, demo); undoable.
+    /// Replace the whole project (new, open, demo); undoable. The message says what was opened; the reducer adds
+    /// that Undo brings the old design back only when there was work to bring back.
     Load(Box<Project>, String),
+    /// Switch to another saved project with its own history (reopened from the recent list), with a message.
+    Reopen(Box<State>, String),
     Notify(Option<Notice>),
 }
 
@@ -270,6 +273,12 @@ impl State {
             redo,
             ..State::new(project)
         }
+    }
+
+    /// Whether replacing the project would lose something Undo should bring back: edits made, or a design other
+    /// than the untouched demo a fresh browser starts with.
+    pub fn has_work(&self) -> bool {
+        !self.undo.is_empty() || self.project != ohmstack_core::design::demo::project()
     }
 
     /// True while some field holds text that could not be applied.
@@ -685,6 +694,10 @@ impl Reducible for State {
 
     fn reduce(self: Rc<Self>, action: Action) -> Rc<Self> {
         let mut s = (*self).clone();
+        // A message is about the last thing done: any edit replaces or clears it, so none lingers.
+        if !matches!(action, Action::Blur(_) | Action::Notify(_)) {
+            s.notice = None;
+        }
         match action {
             Action::Edit(field, text) => s.edit(field, text),
             Action::Blur(field) => {
@@ -718,11 +731,22 @@ impl Reducible for State {
             Action::Undo => s.step(true),
             Action::Redo => s.step(false),
             Action::Load(project, message) => {
+                let text = if s.has_work() {
+                    format!("{message} (Undo brings back your previous work)")
+                } else {
+                    message
+                };
                 s.structural(*project);
-                s.notice = Some(Notice {
-                    error: false,
-                    text: message,
-                });
+                s.notice = Some(Notice { error: false, text });
+            }
+            Action::Reopen(state, message) => {
+                s = State {
+                    notice: Some(Notice {
+                        error: false,
+                        text: message,
+                    }),
+                    ..*state
+                };
             }
             Action::Notify(notice) => s.notice = notice,
         }
@@ -975,5 +999,57 @@ mod tests {
         assert_eq!(s.project, blank);
         let s = reduce(s, Action::Undo);
         assert_eq!(s.project, ohmstack_core::design::demo::project());
+    }
+
+    #[test]
+    fn a_message_goes_with_the_next_edit() {
+        let s = reduce(
+            State::default(),
+            Action::Load(Box::new(blank_project()), "new blank project".into()),
+        );
+        assert!(s.notice.is_some());
+        // Leaving a field is not an edit; typing is.
+        let s = reduce(s, Action::Blur(Field::Title));
+        assert!(s.notice.is_some());
+        let s = reduce(s, Action::Edit(Field::Title, "Board A".into()));
+        assert_eq!(s.notice, None);
+        // An edit that is refused says so, replacing nothing else.
+        let mut one = State::default();
+        one.project.stackup.layers.truncate(1);
+        let s = reduce(one, Action::RemoveLayer(0));
+        assert!(s.notice.is_some_and(|n| n.error));
+    }
+
+    #[test]
+    fn undo_is_offered_only_when_there_was_work() {
+        let text = |s: &State| s.notice.clone().map(|n| n.text).unwrap_or_default();
+        let load = Action::Load(Box::new(blank_project()), "new blank project".into());
+        // A fresh browser shows the untouched demo: nothing to bring back.
+        let fresh = reduce(State::default(), load.clone());
+        assert_eq!(text(&fresh), "new blank project");
+        let edited = reduce(
+            State::default(),
+            Action::Edit(Field::Title, "Board A".into()),
+        );
+        assert!(text(&reduce(edited, load.clone())).contains("Undo brings back"));
+        let mut restored = ohmstack_core::design::demo::project();
+        restored.title = "Board A".into();
+        let restored = State::restored(restored, Vec::new(), Vec::new());
+        assert!(text(&reduce(restored, load)).contains("Undo brings back"));
+    }
+
+    #[test]
+    fn reopen_brings_its_own_history() {
+        let mut other = ohmstack_core::design::demo::project();
+        other.title = "Board B".into();
+        let target = State::restored(other.clone(), vec![blank_project()], Vec::new());
+        let s = reduce(
+            State::default(),
+            Action::Edit(Field::Title, "Board A".into()),
+        );
+        let s = reduce(s, Action::Reopen(Box::new(target), "reopened".into()));
+        assert_eq!(s.project, other);
+        assert_eq!(s.undo, vec![blank_project()]);
+        assert!(s.notice.is_some());
     }
 }

@@ -75,3 +75,16 @@ def wait_for(predicate, timeout: float = 10.0, what: str = "condition"):
             last = e
         time.sleep(0.05)
     raise AssertionError(f"timed out waiting for {what} (last: {last!r})")
+
+
+# This tab's project lives under "ohmstack.project.<id>", the id kept per tab in session storage
+# (frontend/src/persist.rs).
+TAB_KEY = "ohmstack.tab"
+SAVED_TEXT_JS = ("var id = sessionStorage.getItem('ohmstack.tab');"
+                 "return id ? localStorage.getItem('ohmstack.project.' + id) : null;")
+
+
+def saved_text(driver) -> str | None:
+    """The text this tab autosaved for its project, or None."""
+    return driver.execute_script(SAVED_TEXT_JS)
+

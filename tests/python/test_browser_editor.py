@@ -14,7 +14,6 @@ from selenium.webdriver.support.ui import Select
 import browser
 from conftest import run
 
-PROJECT_KEY = "ohmstack.project.v1"
 # Demo layer 2 is the prepreg under the top signal layer; rule 0 is the top-layer single-ended 50 Ω line.
 PREPREG = 2
 
@@ -29,7 +28,7 @@ def driver():
 
 
 def saved(driver) -> dict:
-    text = driver.execute_script(f"return window.localStorage.getItem('{PROJECT_KEY}')")
+    text = browser.saved_text(driver)
     assert text, "nothing autosaved"
     return json.loads(text)
 
@@ -175,7 +174,7 @@ def test_reload_restores_and_undo_twice_goes_back():
 def test_unit_switch_keeps_stored_values_bit_identical(driver):
     type_into(driver, "rule-0-target-input", "52.5")
     start = wait_saved(driver, lambda p: p["rules"][0]["target_ohm"] == 52.5, "edit saved")
-    raw_start = driver.execute_script(f"return window.localStorage.getItem('{PROJECT_KEY}')")
+    raw_start = browser.saved_text(driver)
     units = Select(driver.find_element(By.ID, "units"))
     for unit in ["mm", "mil", "mm"]:
         units = Select(driver.find_element(By.ID, "units"))
@@ -186,7 +185,7 @@ def test_unit_switch_keeps_stored_values_bit_identical(driver):
             shown = float(driver.find_element(By.ID, f"layer-{PREPREG}-thickness").get_attribute("value"))
             assert abs(shown - start["stackup"][PREPREG]["thickness_m"] / 25.4e-6) < 1e-3
     end = saved(driver)
-    raw_end = driver.execute_script(f"return window.localStorage.getItem('{PROJECT_KEY}')")
+    raw_end = browser.saved_text(driver)
     assert end["stackup"] == start["stackup"] and end["rules"] == start["rules"] and end["fab"] == start["fab"]
     # Same text apart from the unit line: every stored float is written identically (shortest round-trip form).
     assert raw_end.replace('"units": "mm"', '"units": "um"') == raw_start

@@ -9,7 +9,6 @@ from selenium.webdriver.common.by import By
 import browser
 from conftest import run
 
-LOCAL_KEY = "ohmstack.project.v1"  # the editor's autosave key (frontend/src/persist.rs)
 
 
 def cli_ok(*args: str, stdin: str = "") -> str:
@@ -64,13 +63,14 @@ def open_app(driver, fragment: str = ""):
 
 
 def put_local_work(driver, project: dict):
-    """Stores `project` as the saved work of this profile (same origin: the file:// page)."""
+    """Stores `project` as the saved work of this tab (same origin: the file:// page)."""
     open_app(driver)
-    driver.execute_script("localStorage.setItem(arguments[0], arguments[1]);", LOCAL_KEY, json.dumps(project))
+    driver.execute_script("localStorage.setItem('ohmstack.project.' + sessionStorage.getItem(arguments[0]), arguments[1]);",
+                          browser.TAB_KEY, json.dumps(project))
 
 
 def local_work(driver) -> dict | None:
-    text = driver.execute_script("return localStorage.getItem(arguments[0]);", LOCAL_KEY)
+    text = browser.saved_text(driver)
     return json.loads(text) if text else None
 
 

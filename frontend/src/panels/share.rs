@@ -159,7 +159,7 @@ pub fn SharePanel(props: &ShareProps) -> Html {
         });
     }
 
-    // Saving is the editor's autosave (the same storage key); this panel only reads what was saved at start-up.
+    // Saving is the editor's autosave (this tab's project key); this panel only reads what was saved at start-up.
     let _ = &gate;
 
     let copy = {

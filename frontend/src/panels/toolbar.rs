@@ -1,5 +1,6 @@
 //! The header: project title, file commands (new, open, save), undo/redo, display unit, analysis frequency and
-//! fabrication limits, and the status line.
+//! fabrication limits, the recent-projects menu, the status line and the notice that another tab changed this
+//! project.
 
 use crate::bridge;
 use crate::state::{Action, Draft, Field, Notice};
@@ -24,6 +25,15 @@ pub struct ToolbarProps {
     pub on_blank: Callback<()>,
     pub on_save: Callback<()>,
     pub on_open: Callback<web_sys::File>,
+    /// Other projects kept in this browser, most recent first: (id, "title — date time").
+    #[prop_or_default]
+    pub recent: Rc<Vec<(AttrValue, AttrValue)>>,
+    pub on_reopen: Callback<String>,
+    /// The title another tab saved this project under, while this tab has not yet chosen what to do.
+    #[prop_or_default]
+    pub conflict: Option<AttrValue>,
+    pub on_take_theirs: Callback<()>,
+    pub on_keep_copy: Callback<()>,
 }
 
 fn unit_key(u: LengthUnit) -> &'static str {
@@ -76,6 +86,19 @@ pub fn Toolbar(props: &ToolbarProps) -> Html {
         let d = d.clone();
         Callback::from(move |_: MouseEvent| d.emit(Action::Notify(None)))
     };
+    let on_recent = {
+        let cb = props.on_reopen.clone();
+        Callback::from(move |v: String| {
+            if !v.is_empty() {
+                cb.emit(v)
+            }
+        })
+    };
+    let mut recent_options = vec![(
+        AttrValue::from(""),
+        AttrValue::from("Reopen a recent project…"),
+    )];
+    recent_options.extend(props.recent.iter().cloned());
     html! {
         <header class="top">
             <div class="brand-row">
@@ -88,11 +111,23 @@ pub fn Toolbar(props: &ToolbarProps) -> Html {
                     <label class="button file" for="open-file">{ "Open…" }</label>
                     <input type="file" id="open-file" class="file-input" accept=".json,application/json" onchange={on_file} />
                     <button type="button" id="save-file" onclick={click(&props.on_save)}>{ "Save…" }</button>
+                    if !props.recent.is_empty() {
+                        <Select id="recent-projects" label="Recent projects" hidden_label=true options={recent_options}
+                            selected="" onchange={on_recent} />
+                    }
                     <span class="sep" aria-hidden="true"></span>
                     <button type="button" id="undo" onclick={undo} disabled={!props.can_undo} title="Undo (Ctrl+Z)">{ "Undo" }</button>
                     <button type="button" id="redo" onclick={redo} disabled={!props.can_redo} title="Redo (Ctrl+Shift+Z or Ctrl+Y)">{ "Redo" }</button>
                 </nav>
             </div>
+            if let Some(theirs) = &props.conflict {
+                <div class="conflict no-print" role="alert" data-testid="conflict">
+                    <span>{ format!("This board was changed in another tab (saved there as “{theirs}”). Nothing was overwritten: \
+                        open that version here, or keep yours as a separate copy. Editing on keeps yours as a copy too.") }</span>
+                    <button type="button" id="conflict-theirs" onclick={click(&props.on_take_theirs)}>{ "Open the other tab's version" }</button>
+                    <button type="button" id="conflict-copy" onclick={click(&props.on_keep_copy)}>{ "Keep mine as a copy" }</button>
+                </div>
+            }
             <div class="settings-row">
                 <Select id="units" label="Length unit"
                     options={LengthUnit::ALL.iter().map(|u| (AttrValue::from(unit_key(*u)), AttrValue::from(u.symbol()))).collect::<Vec<_>>()}
@@ -110,6 +145,8 @@ pub fn Toolbar(props: &ToolbarProps) -> Html {
                     }
                     if let Some(s) = &props.storage {
                         <span class="error" data-testid="storage-error">{ s.clone() }</span>
+                    } else if props.conflict.is_some() {
+                        <span class="muted no-print" data-testid="autosave">{ "autosave waits for your choice above" }</span>
                     } else {
                         <span class="muted no-print" data-testid="autosave">{ "autosaved in this browser" }</span>
                     }
