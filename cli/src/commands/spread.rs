@@ -208,7 +208,13 @@ fn print_spread(project: &Project, name: &str, r: &RuleResult, s: &SpreadSummary
             x.impact_ohm
         );
     }
-    if let Some(c) = &s.centred {
+    if let Some(c) = s.centred.as_ref().filter(|c| c.centred_m == c.nominal_m) {
+        println!(
+            "  centred {:<7}keep {} (centring gains less yield than the sampling resolves)",
+            c.dimension,
+            format_length(c.nominal_m, u)
+        );
+    } else if let Some(c) = &s.centred {
         println!(
             "  centred {:<7}{} → {} (yield {:.2} % → {:.2} %)",
             c.dimension,

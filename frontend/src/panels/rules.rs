@@ -122,7 +122,9 @@ fn results(i: usize, r: &RuleResult, project: &Project) -> Html {
                     if let Some(top) = sp.sensitivities.first() {
                         { format!(" · most sensitive to {} ({:+.2} Ω at its limit)", top.parameter, top.impact_ohm) }
                     }
-                    if let Some(c) = &sp.centred {
+                    // A centred dimension is only a suggestion when it moved (the core keeps the nominal unless the
+                    // yield gain is more than sampling noise).
+                    if let Some(c) = sp.centred.as_ref().filter(|c| c.centred_m != c.nominal_m) {
                         <span data-testid={format!("rule-{i}-centred")} data-value={c.centred_m.to_string()}>
                             { format!(" · tolerance-centred {}: {} {} (yield {:.2} % → {:.2} %)", c.dimension,
                                 bridge::length_text(c.centred_m, unit), unit.symbol(), c.nominal_yield_pct, c.centred_yield_pct) }
