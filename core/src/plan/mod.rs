@@ -122,8 +122,7 @@ pub fn plan_with(project: &Project, options: &PlanOptions) -> Result<Plan> {
     let rules = project
         .rules
         .iter()
-        .enumerate()
-        .map(|(i, rule)| match evaluate_rule(project, rule) {
+        .map(|rule| match evaluate_rule(project, rule) {
             Ok(mut r) => {
                 if options.field_check {
                     match rule::field_check(project, rule, &r) {
@@ -149,9 +148,10 @@ pub fn plan_with(project: &Project, options: &PlanOptions) -> Result<Plan> {
                 }
                 RuleOutcome::Ok(Box::new(r))
             }
+            // Named by the rule's own name, never an internal path such as `rules[5]`.
             Err(e) => RuleOutcome::Error {
                 name: rule.name.clone(),
-                message: crate::design::project::prefix(e, &format!("rules[{i}]")).to_string(),
+                message: format!("{}: {e}", rule.name),
             },
         })
         .collect();
@@ -172,5 +172,24 @@ impl Plan {
             RuleOutcome::Ok(r) => r.name == name,
             RuleOutcome::Error { name: n, .. } => n == name,
         })
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    #[test]
+    fn a_rule_that_cannot_be_computed_is_named_by_its_name() {
+        // An unreachable target: the row's message names the rule as the user called it, not `rules[0]`.
+        let mut p = crate::design::demo::project();
+        p.rules[0].target_ohm = 200.0;
+        let plan = crate::plan(&p).unwrap();
+        match &plan.rules[0] {
+            crate::RuleOutcome::Error { name, message } => {
+                assert!(message.starts_with(&format!("{name}: ")), "{message}");
+                assert!(!message.contains("rules["), "{message}");
+                assert!(message.contains("cannot be reached"), "{message}");
+            }
+            other => panic!("expected an error row, got {other:?}"),
+        }
     }
 }
