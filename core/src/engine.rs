@@ -21,6 +21,11 @@ pub const FIELD_METHOD: &str = "2D field solver (finite volumes, extrapolated)";
 /// Method name of the fast field engine's figures.
 pub const BOUNDARY_METHOD: &str = "2D field solver (boundary elements)";
 
+/// Whether `method` names one of the field engines (its figures need no field check and carry no closed-form band).
+pub fn is_field_method(method: &str) -> bool {
+    method == FIELD_METHOD || method == BOUNDARY_METHOD
+}
+
 /// Which engine answers, with what it needs beyond the cross-section.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub enum Engine {

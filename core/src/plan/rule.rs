@@ -96,9 +96,7 @@ pub fn field_check(
     rule: &ImpedanceRule,
     result: &RuleResult,
 ) -> Result<Option<FieldCheck>> {
-    if result.method == crate::engine::FIELD_METHOD
-        || result.method == crate::engine::BOUNDARY_METHOD
-    {
+    if crate::engine::is_field_method(result.method) {
         return Ok(None);
     }
     let dims = Dims {
@@ -308,12 +306,11 @@ pub fn rule_figures(
             None
         }
     };
-    let model_band_pct =
-        if method == crate::engine::FIELD_METHOD || method == crate::engine::BOUNDARY_METHOD {
-            None
-        } else {
-            crate::closed_form::bands::wide_for(&cs, rule.structure, &dims)
-        };
+    let model_band_pct = if crate::engine::is_field_method(method) {
+        None
+    } else {
+        crate::closed_form::bands::wide_for(&cs, rule.structure, &dims)
+    };
     if let Some(band) = model_band_pct {
         warnings.push(Warning::new(format!(
             "this closed form differs from the 2D field solver by up to ±{band} % on this structure (measured, \
