@@ -324,6 +324,7 @@ proptest! {
             seed: 7,
             spread_model: if direct { SampleModel::Direct } else { SampleModel::Quadratic },
             field_check: false,
+            closed_form_only: false,
         };
         let plan = plan_with(&p, &options).unwrap();
         prop_assert_eq!(plan.rules.len(), p.rules.len());

@@ -74,6 +74,8 @@ fuzz_target!(|data: &[u8]| {
         } else {
             SampleModel::Quadratic
         },
+        field_check: false,
+        closed_form_only: n.bool(),
     };
     if let Ok(plan) = plan_with(&project, &options) {
         let notes = report::fab_notes(&project, &plan);

@@ -57,6 +57,9 @@ pub struct PlanOptions {
     pub spread_model: SampleModel,
     /// Also solve every closed-form rule on the fast field engine at its dimensions ([`RuleResult::field_check`]).
     pub field_check: bool,
+    /// Every rule on the closed form whatever its model: the instant first figures shown while the field engine
+    /// works (see [`PlanOptions::preview`]).
+    pub closed_form_only: bool,
 }
 
 impl Default for PlanOptions {
@@ -67,6 +70,7 @@ impl Default for PlanOptions {
             seed: spread::DEFAULT_SEED,
             spread_model: SampleModel::Quadratic,
             field_check: false,
+            closed_form_only: false,
         }
     }
 }
@@ -80,6 +84,16 @@ impl PlanOptions {
             seed: spread::DEFAULT_SEED,
             spread_model: SampleModel::Quadratic,
             field_check: true,
+            closed_form_only: false,
+        }
+    }
+
+    /// The closed form for every rule, nominal figures only: microseconds a rule, so the app can show it on every
+    /// keystroke before the field engine's figures land.
+    pub fn preview() -> Self {
+        PlanOptions {
+            closed_form_only: true,
+            ..PlanOptions::default()
         }
     }
 }
@@ -122,7 +136,7 @@ pub fn plan_with(project: &Project, options: &PlanOptions) -> Result<Plan> {
     let rules = project
         .rules
         .iter()
-        .map(|rule| match evaluate_rule(project, rule) {
+        .map(|rule| match rule_on_plan_engine(project, rule, options) {
             Ok(mut r) => {
                 if options.field_check {
                     match rule::field_check(project, rule, &r) {
@@ -165,6 +179,19 @@ pub fn plan_with(project: &Project, options: &PlanOptions) -> Result<Plan> {
     })
 }
 
+/// One rule on the engine the options ask for: its own, or the closed form for a preview.
+fn rule_on_plan_engine(
+    project: &Project,
+    rule: &crate::design::project::ImpedanceRule,
+    options: &PlanOptions,
+) -> Result<rule::RuleResult> {
+    if options.closed_form_only {
+        analyze_rule(project, rule)
+    } else {
+        evaluate_rule(project, rule)
+    }
+}
+
 impl Plan {
     /// The outcome of the rule called `name`.
     pub fn rule(&self, name: &str) -> Option<&RuleOutcome> {
@@ -177,6 +204,18 @@ impl Plan {
 
 #[cfg(test)]
 mod tests {
+    #[test]
+    fn preview_puts_every_rule_on_the_closed_form() {
+        let mut p = crate::design::demo::project();
+        for r in &mut p.rules {
+            r.model = crate::design::project::RuleModel::FieldSolver;
+        }
+        let preview = crate::plan_with(&p, &crate::PlanOptions::preview()).unwrap();
+        for r in preview.rules.iter().filter_map(|r| r.ok()) {
+            assert!(!crate::engine::is_field_method(r.method), "{}", r.method);
+        }
+    }
+
     #[test]
     fn a_rule_that_cannot_be_computed_is_named_by_its_name() {
         // An unreachable target: the row's message names the rule as the user called it, not `rules[0]`.
