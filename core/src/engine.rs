@@ -109,6 +109,24 @@ impl Engine {
         }
     }
 
+    /// The method name its figures carry (the closed form's varies by family; this names the engine).
+    pub fn method_name(&self) -> &'static str {
+        match self {
+            Engine::ClosedForm => "closed-form model",
+            Engine::Field { .. } => BOUNDARY_METHOD,
+            Engine::Reference { .. } => FIELD_METHOD,
+        }
+    }
+
+    /// The field engine whose figures carry `method` (`None` for a closed form's).
+    pub fn that_made(method: &str, project: &Project) -> Option<Engine> {
+        match method {
+            BOUNDARY_METHOD => Some(Engine::field(project)),
+            FIELD_METHOD => Some(Engine::reference(project)),
+            _ => None,
+        }
+    }
+
     /// Whether this is the instant closed form (synthesis then needs no refinement beyond it).
     pub fn is_closed_form(&self) -> bool {
         matches!(self, Engine::ClosedForm)

@@ -368,7 +368,10 @@ mod tests {
         // The demo's radio feed: the closed form puts it on target, while the field engine at the same width gives
         // about 44 Ω (thick copper in narrow coplanar gaps under mask, where the closed form is known to miss; the
         // finite-volume reference agrees with the field engine, see field::boundary tests). The check says so.
-        let p = crate::design::demo::project();
+        let mut p = crate::design::demo::project();
+        for r in &mut p.rules {
+            r.model = crate::design::project::RuleModel::ClosedForm;
+        }
         let plan = crate::plan_with(&p, &crate::PlanOptions::with_spread()).unwrap();
         for (rule, outcome) in p.rules.iter().zip(&plan.rules) {
             let r = outcome.ok().unwrap();
@@ -393,9 +396,8 @@ mod tests {
         let c = feed.field_check.as_ref().unwrap();
         assert!(feed.within_tolerance);
         assert!(c.impedance_ohm < 46.0 && !c.within_tolerance, "{c:?}");
-        // A field-solver rule needs no check: its headline already is the field figure.
-        let mut q = p.clone();
-        q.rules[0].model = crate::design::project::RuleModel::FieldSolver;
+        // A field-solver rule (the default) needs no check: its headline already is the field figure.
+        let q = crate::design::demo::project();
         let plan = crate::plan_with(&q, &crate::PlanOptions::with_spread()).unwrap();
         assert!(plan.rules[0].ok().unwrap().field_check.is_none());
         // Without the option nothing is computed.
