@@ -461,6 +461,7 @@ impl Family {
             kind: format!("{self:?}"),
             cross_section: CrossSection {
                 loss: Default::default(),
+                layering: None,
                 medium,
                 t,
                 references: Vec::new(),
@@ -555,6 +556,7 @@ proptest! {
         for structure in [Structure::Single, Structure::EdgePair] {
             let cs = |a, b| CrossSection {
                 loss: Default::default(),
+                layering: None,
                 medium: Medium::Stripline { h_below: a, h_above: b, er, dual: false },
                 t,
                 references: Vec::new(),

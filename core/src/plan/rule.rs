@@ -321,6 +321,9 @@ pub fn rule_figures(
     let gamma = reflection(z, rule.target_ohm);
     let deviation_pct = (z - rule.target_ohm) / rule.target_ohm * 100.0;
     let mut warnings = cs.warnings.clone();
+    if !crate::engine::is_field_method(method) {
+        warnings.extend(cs.merged_dielectric_note());
+    }
     warnings.extend(analysis.warnings().iter().cloned());
     let loss = match crate::line::loss::for_rule(project, rule, &cs, &dims)
         .and_then(|m| m.at(project.analysis_freq_hz))

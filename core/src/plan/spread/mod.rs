@@ -39,7 +39,8 @@
 //! structure the models know is covered; a field solver can implement the same trait and be fitted by
 //! [`Quadratic::fit`] into a response surface, or replace the whole per-sample evaluator, since [`monte_carlo`],
 //! [`corners`], [`sensitivities`] and [`Quadratic::fit`] take any `FnMut(&[f64]) -> Result<f64>` of the parameter
-//! deviations. A new [`Medium`] variant needs one line in each of `medium_slots`, `set_medium_slots` and
+//! deviations. The layering of a section (each layer as the field engines see it) follows the medium's slots.
+//! A new [`Medium`] variant needs one line in each of `medium_slots`, `set_medium_slots` and
 //! `dk_slots` (the compiler points there).
 
 pub mod rng;
@@ -308,8 +309,26 @@ fn dk_slots(m: &Medium) -> &'static [usize] {
 fn slots_of(cs: &CrossSection, dims: &Dims) -> Vec<f64> {
     let mut v = Vec::with_capacity(8);
     medium_slots(&cs.medium, &mut v);
+    // The layers as the field engines see them: heights and Dk, linear in each layer's own values.
+    if let Some(l) = &cs.layering {
+        for &(h, er) in l.below.iter().chain(&l.above) {
+            v.extend([h, er]);
+        }
+    }
     v.extend([cs.t, dims.w, dims.s.unwrap_or(0.0), dims.gap.unwrap_or(0.0)]);
     v
+}
+
+/// Writes the medium and layering slots (everything before `t`) back into `cs`.
+fn set_section_slots(cs: &mut CrossSection, v: &[f64]) {
+    set_medium_slots(&mut cs.medium, v);
+    if let Some(l) = &mut cs.layering {
+        let n = l.below.len() + l.above.len();
+        let start = v.len() - 4 - 2 * n;
+        for (k, layer) in l.below.iter_mut().chain(l.above.iter_mut()).enumerate() {
+            *layer = (v[start + 2 * k], v[start + 2 * k + 1]);
+        }
+    }
 }
 
 /// A normal sample reaches about 4σ in 10⁴ draws; require the quantity to stay above `floor` at 1.5 × its limit.
@@ -719,7 +738,7 @@ impl Evaluator<'_> {
             }
         }
         let nm = ns - 4;
-        set_medium_slots(&mut self.cs.medium, &self.slots);
+        set_section_slots(&mut self.cs, &self.slots);
         self.cs.t = self.slots[nm];
         Dims {
             w: self.slots[nm + 1],
