@@ -24,6 +24,10 @@ pub struct RuleResult {
     /// The structure as chosen in the rule, e.g. "edge-coupled pair".
     pub structure: &'static str,
     pub method: &'static str,
+    /// The engine's estimated relative error of the impedance, %, when it states one (the field engines; the closed
+    /// forms give their measured band in `model_band_pct` instead).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub error_estimate_pct: Option<f64>,
     pub references: Vec<String>,
     pub width_m: f64,
     pub spacing_m: Option<f64>,
@@ -250,7 +254,8 @@ fn compute(project: &Project, rule: &ImpedanceRule, engine: &Engine) -> Result<R
         None => engine.analyze(&cs, rule.structure, &solved.dims)?,
     };
     let mut notes = solved.notes;
-    if let Some(err) = answer.error_estimate_pct {
+    let error_estimate_pct = answer.error_estimate_pct;
+    if let Some(err) = error_estimate_pct {
         notes.push(Warning::new(format!(
             "figures from the {} (estimated error {} %); loss from the closed-form models at these dimensions",
             answer.method,
@@ -266,6 +271,7 @@ fn compute(project: &Project, rule: &ImpedanceRule, engine: &Engine) -> Result<R
         answer.method,
         answer.analysis,
     );
+    result.error_estimate_pct = error_estimate_pct;
     for n in notes {
         if !result.warnings.contains(&n) {
             result.warnings.push(n);
@@ -326,6 +332,7 @@ pub fn rule_figures(
         family: cs.family_for(rule.structure),
         structure: rule.structure.label(),
         method,
+        error_estimate_pct: None,
         references: cs.references.clone(),
         width_m: dims.w,
         spacing_m: dims.s,
