@@ -1,13 +1,15 @@
 //! `ohmstack calc KIND` and `ohmstack solve KIND --target OHMS`: one line given by its own dimensions, analysed
 //! as given or with its width solved for a target impedance, on the field engine unless `--engine` says otherwise.
-//! The case becomes a one-rule project (`plan::case::project`) and is computed as a project's rule is
-//! (`section::resolve` → engine); on a field engine the closed form is shown beside it with its difference.
+//! The case becomes a one-rule project (`plan::case::project`) and is solved and analysed as a project's rule is
+//! (`plan::solve_line`: `section::resolve` → synthesis → engine; `analyze` adds loss and the rule's verdict on
+//! top); on a field engine the closed form is shown beside it with its difference.
 //! `batch` runs the same computation per JSON line.
 
 use ohmstack_core::base::units::{format_length, format_sig, LengthUnit};
-use ohmstack_core::engine::Engine;
-use ohmstack_core::plan::{case, evaluate_rule_with, synthesis, RuleResult};
-use ohmstack_core::section::{Analysis, Dims};
+use ohmstack_core::closed_form::bands;
+use ohmstack_core::engine::{is_field_method, Engine};
+use ohmstack_core::plan::{case, solve_line, synthesis, SolvedLine};
+use ohmstack_core::section::Analysis;
 use ohmstack_core::Project;
 
 use crate::args::{CaseArgs, CaseEngine, CaseEngineArgs, Ohms};
@@ -77,7 +79,10 @@ pub struct CaseResult {
     pub kind: String,
     pub engine: CaseEngine,
     pub project: Project,
-    pub result: RuleResult,
+    /// The line as the engine answered it.
+    pub line: SolvedLine,
+    /// The closed form's measured band against the field solver, ± %, where it is wide (closed-form figures only).
+    pub model_band_pct: Option<f64>,
     /// Whether the width was solved (for the rule's target).
     pub solved: bool,
     /// The closed form at the same dimensions (and, when solving, its own width), or why it has none.
@@ -108,8 +113,20 @@ pub fn compute(
     let rule = &project.rules[0];
     let core_engine = Engine::named(engine.name(), &project)
         .ok_or_else(|| anyhow!("engine: unknown engine {:?}", engine.name()))?;
-    let result = evaluate_rule_with(&project, rule, &core_engine).map_err(user_words)?;
+    let line = solve_line(&project, rule, &core_engine).map_err(user_words)?;
     let mut notes = Vec::new();
+    let model_band_pct = if is_field_method(line.answer.method) {
+        None
+    } else {
+        bands::wide_for(&line.cross_section, rule.structure, &line.dims)
+    };
+    if let Some(band) = model_band_pct {
+        notes.push(format!(
+            "this closed form differs from the 2D field solver by up to ±{} % on this structure (measured, \
+             docs/accuracy.md); the field engine (the default) gives the field figure",
+            format_sig(band, 3)
+        ));
+    }
     let closed_form = if engine == CaseEngine::ClosedForm {
         if project.fab.etch_factor.is_some() {
             notes.push(
@@ -120,41 +137,36 @@ pub fn compute(
         }
         None
     } else {
-        Some(closed_form_beside(&project, &result))
+        Some(closed_form_beside(&project, &line))
     };
     Ok(CaseResult {
         kind: kind.to_string(),
         engine,
         solved: target.is_some(),
         project,
-        result,
+        line,
+        model_band_pct,
         closed_form,
         notes,
     })
 }
 
 /// The closed form at the field result's dimensions, and its own solved width when the width was solved.
-fn closed_form_beside(project: &Project, r: &RuleResult) -> Result<ClosedFormCheck, String> {
+fn closed_form_beside(project: &Project, line: &SolvedLine) -> Result<ClosedFormCheck, String> {
     let rule = &project.rules[0];
-    let dims = Dims {
-        w: r.width_m,
-        s: r.spacing_m,
-        gap: r.gap_m,
-    };
     let answer = Engine::ClosedForm
-        .analyze(&r.cross_section, rule.structure, &dims)
+        .analyze(&line.cross_section, rule.structure, &line.dims)
         .map_err(|e| e.to_string())?;
-    let z = answer.controlled();
+    let (z, z_field) = (answer.controlled(), line.answer.controlled());
+    let w = line.dims.w;
     let width = match synthesis::closed_form_start(project, rule) {
-        (dims, Some(_), _) if r.solved.is_some() => {
-            Some((dims.w, (dims.w - r.width_m) / r.width_m * 100.0))
-        }
+        (dims, Some(_), _) if line.solved.is_some() => Some((dims.w, (dims.w - w) / w * 100.0)),
         _ => None,
     };
     Ok(ClosedFormCheck {
         method: answer.method,
         impedance_ohm: z,
-        difference_pct: (z - r.impedance_ohm) / r.impedance_ohm * 100.0,
+        difference_pct: (z - z_field) / z_field * 100.0,
         width,
     })
 }
@@ -164,44 +176,51 @@ fn user_words(e: ohmstack_core::Error) -> anyhow::Error {
     anyhow!("{}", e.to_string().replace("etch_factor", "etch-factor"))
 }
 
-/// The notes to show: the model's and the section's, without the note that only says which engine made the
-/// figures (the result names it) or anything about loss (a case has no loss inputs).
+/// The notes to show: the section's, the model's, the synthesis's, and this command's own.
 fn shown_notes(c: &CaseResult) -> Vec<String> {
-    c.result
+    let line = &c.line;
+    let mut notes: Vec<String> = Vec::new();
+    let found = line
+        .cross_section
         .warnings
         .iter()
-        .map(|w| w.message.clone())
-        .filter(|m| !m.starts_with("figures from the ") && !m.starts_with("loss not computed"))
-        .chain(c.notes.iter().cloned())
-        .collect()
+        .chain(line.answer.analysis.warnings())
+        .chain(&line.notes)
+        .map(|w| w.message.clone());
+    for note in found.chain(c.notes.iter().cloned()) {
+        if !notes.contains(&note) {
+            notes.push(note);
+        }
+    }
+    notes
 }
 
 /// The JSON object of a computed case (`calc --json`, `solve --json`, one `batch` line).
 pub fn case_json(c: &CaseResult) -> Value {
-    let r = &c.result;
+    let (line, rule) = (&c.line, &c.project.rules[0]);
     let mut v = json!({
         "structure": c.kind,
-        "family": r.family,
+        "family": line.cross_section.family_for(rule.structure),
         "engine": c.engine.name(),
-        "method": r.method,
-        "error_estimate_pct": r.error_estimate_pct,
-        "width_m": r.width_m,
-        "cross_section": r.cross_section,
+        "method": line.answer.method,
+        "error_estimate_pct": line.answer.error_estimate_pct,
+        "width_m": line.dims.w,
+        "cross_section": line.cross_section,
         "warnings": shown_notes(c),
     });
-    if let Some(g) = r.gap_m {
+    if let Some(g) = line.dims.gap {
         v["gap_m"] = json!(g);
     }
     if let Some(ef) = c.project.fab.etch_factor {
         v["etch_factor"] = json!(ef);
     }
     if c.solved {
-        v["target_ohm"] = json!(r.target_ohm);
+        v["target_ohm"] = json!(rule.target_ohm);
     }
-    if let Some(band) = r.model_band_pct {
+    if let Some(band) = c.model_band_pct {
         v["model_band_pct"] = json!(band);
     }
-    match &r.analysis {
+    match &line.answer.analysis {
         Analysis::Single(s) => {
             v["z0_ohm"] = json!(s.z0);
             v["eps_eff"] = json!(s.eps_eff);
@@ -210,7 +229,7 @@ pub fn case_json(c: &CaseResult) -> Value {
             v["capacitance_per_m"] = json!(s.capacitance_per_m());
         }
         Analysis::Pair(p) => {
-            v["spacing_m"] = json!(r.spacing_m);
+            v["spacing_m"] = json!(line.dims.s);
             v["z_odd_ohm"] = json!(p.z_odd);
             v["z_even_ohm"] = json!(p.z_even);
             v["z_diff_ohm"] = json!(p.z_diff());
@@ -243,21 +262,25 @@ fn print(c: &CaseResult, json: bool) -> Result<()> {
         println!("{}", serde_json::to_string_pretty(&case_json(c))?);
         return Ok(());
     }
-    let r = &c.result;
+    let (line, rule) = (&c.line, &c.project.rules[0]);
     let unit = LengthUnit::Um;
-    let estimate = match r.error_estimate_pct {
+    let estimate = match line.answer.error_estimate_pct {
         Some(e) => format!(", estimated error {} %", format_sig(e, 2)),
-        None => match r.model_band_pct {
+        None => match c.model_band_pct {
             Some(b) => format!(", measured band ±{} %", format_sig(b, 3)),
             None => String::new(),
         },
     };
-    println!("{} — {}{estimate}", r.family, r.method);
-    println!("  width       {}", format_length(r.width_m, unit));
-    if let Some(s) = r.spacing_m {
+    println!(
+        "{} — {}{estimate}",
+        line.cross_section.family_for(rule.structure),
+        line.answer.method
+    );
+    println!("  width       {}", format_length(line.dims.w, unit));
+    if let Some(s) = line.dims.s {
         println!("  spacing     {}", format_length(s, unit));
     }
-    let controlled = match &r.analysis {
+    let controlled = match &line.answer.analysis {
         Analysis::Single(s) => {
             println!("  Z0          {} Ω", format_sig(s.z0, 5));
             println!("  Dk eff      {}", format_sig(s.eps_eff, 5));
@@ -289,7 +312,7 @@ fn print(c: &CaseResult, json: bool) -> Result<()> {
             if let Some((w, d)) = cf.width {
                 println!(
                     "              its width for {} Ω: {}, {d:+.2} %",
-                    format_sig(r.target_ohm, 4),
+                    format_sig(rule.target_ohm, 4),
                     format_length(w, unit)
                 );
             }

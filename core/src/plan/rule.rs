@@ -246,14 +246,44 @@ fn solve_free_dimension(
     }
 }
 
-fn compute(project: &Project, rule: &ImpedanceRule, engine: &Engine) -> Result<RuleResult> {
+/// One rule's line on an engine before its figures: the resolved cross-section, the dimensions after synthesis
+/// (and which one was solved), the engine's answer at them and the synthesis's notes. [`evaluate_rule_with`] builds
+/// a rule's figures from it; `calc`, `solve` and `batch` show it as it is (a line case has no loss inputs).
+#[derive(Debug, Clone, PartialEq)]
+pub struct SolvedLine {
+    pub cross_section: CrossSection,
+    pub dims: Dims,
+    pub solved: Option<&'static str>,
+    pub answer: Answer,
+    pub notes: Vec<Warning>,
+}
+
+/// Resolves the rule's cross-section, solves its free dimension on `engine` and analyses it there.
+pub fn solve_line(project: &Project, rule: &ImpedanceRule, engine: &Engine) -> Result<SolvedLine> {
+    rule.validate(&project.stackup)?;
+    solve_validated(project, rule, engine)
+}
+
+fn solve_validated(project: &Project, rule: &ImpedanceRule, engine: &Engine) -> Result<SolvedLine> {
     let cs = section::resolve(&project.stackup, rule)?;
     let solved = solve_free_dimension(project, rule, &cs, engine)?;
     let answer = match solved.answer {
         Some(a) => a,
         None => engine.analyze(&cs, rule.structure, &solved.dims)?,
     };
-    let mut notes = solved.notes;
+    Ok(SolvedLine {
+        cross_section: cs,
+        dims: solved.dims,
+        solved: solved.dimension,
+        answer,
+        notes: solved.notes,
+    })
+}
+
+fn compute(project: &Project, rule: &ImpedanceRule, engine: &Engine) -> Result<RuleResult> {
+    let line = solve_validated(project, rule, engine)?;
+    let (cs, answer) = (line.cross_section, line.answer);
+    let mut notes = line.notes;
     let error_estimate_pct = answer.error_estimate_pct;
     if let Some(err) = error_estimate_pct {
         notes.push(Warning::new(format!(
@@ -266,8 +296,8 @@ fn compute(project: &Project, rule: &ImpedanceRule, engine: &Engine) -> Result<R
         project,
         rule,
         cs,
-        solved.dims,
-        solved.dimension,
+        line.dims,
+        line.solved,
         answer.method,
         answer.analysis,
     );
