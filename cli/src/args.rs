@@ -93,6 +93,11 @@ core_parser!(
     Number -> f64 = |f, t| parse_number(f, t, &[])
 );
 core_parser!(
+    /// A calendar date, `YYYY-MM-DD`.
+    Date -> ohmstack_core::output::report::IssueDate =
+        |_, t| ohmstack_core::output::report::IssueDate::parse(t)
+);
+core_parser!(
     /// A length of a line case, checked here and kept as text: the case reader takes text.
     LengthText -> String = |f, t| parse_length(f, t).map(|_| t.to_string())
 );

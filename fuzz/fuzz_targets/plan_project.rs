@@ -76,7 +76,7 @@ fuzz_target!(|data: &[u8]| {
         },
     };
     if let Ok(plan) = plan_with(&project, &options) {
-        let notes = report::fab_notes(&project, &plan);
+        let notes = report::fab_notes(&project, &plan, None);
         let _ = notes.to_markdown();
         let _ = notes.to_csv();
     }

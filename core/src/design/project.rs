@@ -7,6 +7,9 @@ use crate::design::process::Process;
 use crate::design::stackup::{Layer, Stackup};
 use serde::{Deserialize, Serialize};
 
+/// The longest revision label a project may carry, characters (a fab-notes heading, not a paragraph).
+pub const MAX_REVISION_CHARS: usize = 40;
+
 /// The schema version this build writes. Older versions are migrated on read (see [`Project::from_json`]).
 pub const SCHEMA_VERSION: u32 = 1;
 
@@ -234,6 +237,12 @@ impl Project {
             return Err(Error::Invalid {
                 field: "title".into(),
                 reason: "longer than 200 characters".into(),
+            });
+        }
+        if self.revision.chars().count() > MAX_REVISION_CHARS {
+            return Err(Error::Invalid {
+                field: "revision".into(),
+                reason: format!("longer than {MAX_REVISION_CHARS} characters"),
             });
         }
         error::in_range("analysis_freq", self.analysis_freq_hz, 1.0, 1e12, "Hz")?;

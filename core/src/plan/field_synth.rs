@@ -476,7 +476,7 @@ mod tests {
             .to_json()
             .contains("\"model\""));
         // The fab notes carry the field-solved width.
-        let notes = crate::output::report::fab_notes(&p, &plan);
+        let notes = crate::output::report::fab_notes(&p, &plan, None);
         let row = notes
             .impedance
             .iter()
