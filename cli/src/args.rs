@@ -113,7 +113,8 @@ pub fn whole<T: std::str::FromStr>(text: &str) -> Result<T, String> {
         .map_err(|_| format!("{text:?} is not a whole number"))
 }
 
-/// The structure names of `ohmstack kinds`; listed in help and completions.
+/// The structure names of `ohmstack kinds`; listed in help and completions. Earlier names
+/// (`case::KIND_ALIASES`) are still accepted, unlisted.
 #[derive(Clone, Copy)]
 pub struct Kind;
 
@@ -126,8 +127,8 @@ impl TypedValueParser for Kind {
         value: &OsStr,
     ) -> Result<String, clap::Error> {
         let check = |text: &str| -> Result<String, String> {
-            if case::KINDS.iter().any(|(name, _)| *name == text) {
-                return Ok(text.to_string());
+            if let Some(kind) = case::canonical_kind(text) {
+                return Ok(kind.to_string());
             }
             let names: Vec<&str> = case::KINDS.iter().map(|k| k.0).collect();
             Err(format!(

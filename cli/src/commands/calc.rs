@@ -115,7 +115,7 @@ fn print(case: &LineCase, e: &Evaluated, json: bool) -> Result<()> {
     let unit = LengthUnit::Um;
     println!(
         "{} ({})",
-        case.cross_section.family_for(case.structure),
+        case.cross_section.describe(case.structure),
         e.method
     );
     println!("  width       {}", format_length(case.dims.w, unit));

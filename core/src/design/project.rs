@@ -46,13 +46,14 @@ impl Structure {
         )
     }
 
-    /// Plain words for tables and menus.
+    /// Plain geometric words for tables and menus (what is routed, not where: `section::CrossSection::describe`
+    /// adds where the line sits). Only trade terms (coplanar) beyond plain words.
     pub fn label(self) -> &'static str {
         match self {
-            Structure::Single => "single-ended",
-            Structure::EdgePair => "edge-coupled pair",
-            Structure::BroadsidePair => "broadside-coupled pair",
-            Structure::Coplanar => "coplanar single-ended",
+            Structure::Single => "single trace",
+            Structure::EdgePair => "pair side by side",
+            Structure::BroadsidePair => "pair stacked",
+            Structure::Coplanar => "coplanar trace",
             Structure::CoplanarPair => "coplanar pair",
         }
     }
@@ -316,7 +317,7 @@ impl ImpedanceRule {
             return Err(Error::Invalid {
                 field: "solve".into(),
                 reason: format!(
-                    "only edge-coupled pairs have a spacing to solve for, not a {}",
+                    "only pairs side by side have a spacing to solve for, not a {}",
                     self.structure.label()
                 ),
             });

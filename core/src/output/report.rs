@@ -104,7 +104,8 @@ pub struct StackRow {
 pub struct ImpedanceRow {
     pub net_class: String,
     pub layer: String,
-    /// The structure as chosen, e.g. "edge-coupled pair".
+    /// The line in plain words, e.g. "pair side by side on an outer layer under solder mask (microstrip)" (the
+    /// structure as chosen, e.g. "pair stacked", when the rule failed).
     pub structure: String,
     /// The family it resolves to, e.g. "coated microstrip" (empty when the rule failed).
     pub family: String,
@@ -217,7 +218,7 @@ pub fn fab_notes(project: &Project, plan: &Plan, date: Option<IssueDate>) -> Fab
             RuleOutcome::Ok(r) => ImpedanceRow {
                 net_class: r.name.clone(),
                 layer: r.layer.clone(),
-                structure: r.structure.to_string(),
+                structure: r.description.clone(),
                 family: r.family.to_string(),
                 references: r.references.clone(),
                 target_ohm: r.target_ohm,
@@ -465,15 +466,10 @@ impl FabNotes {
         self.impedance
             .iter()
             .map(|r| {
-                let structure = if r.family.is_empty() {
-                    r.structure.clone()
-                } else {
-                    format!("{} ({})", r.structure, r.family)
-                };
                 vec![
                     r.net_class.clone(),
                     r.layer.clone(),
-                    structure,
+                    r.structure.clone(),
                     r.references.join(", "),
                     format!(
                         "{} Ω ± {} %",

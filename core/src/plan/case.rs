@@ -11,54 +11,74 @@ use crate::section::Dims;
 use crate::section::{Cover, CrossSection, Medium};
 use std::collections::BTreeMap;
 
-/// The structure names a case may use, with what each one is.
+/// The structure names a case may use, with what each one is, in plain words (trade terms: microstrip,
+/// stripline, coplanar).
 pub const KINDS: &[(&str, &str)] = &[
     (
         "microstrip",
-        "surface microstrip: --width --height --thickness --dk",
+        "trace on an outer layer, bare: --width --height --thickness --dk",
     ),
     (
-        "coated-microstrip",
-        "microstrip under solder mask: + --mask-thickness --mask-dk",
+        "microstrip-under-mask",
+        "trace on an outer layer under solder mask: + --mask-thickness --mask-dk",
     ),
     (
-        "embedded-microstrip",
-        "microstrip under more dielectric: + --cover (height above trace) --cover-dk",
+        "microstrip-under-dielectric",
+        "trace over one plane, under more dielectric: + --cover (height above trace) --cover-dk",
     ),
     (
-        "edge-coupled-microstrip",
-        "two traces side by side: --width --spacing --height --thickness --dk \
+        "microstrip-pair",
+        "pair side by side over one plane: --width --spacing --height --thickness --dk \
          [--mask-thickness --mask-dk | --cover --cover-dk]",
     ),
     (
         "stripline",
-        "between two planes: --width --height (below) [--height2 (above)] --thickness --dk",
+        "trace between two planes: --width --height (below) [--height2 (above), off-centre] --thickness --dk",
     ),
     (
-        "edge-coupled-stripline",
+        "stripline-pair",
         "pair side by side between two planes: + --spacing [--height2 (above)]",
     ),
     (
-        "broadside-stripline",
+        "stripline-pair-stacked",
         "pair stacked between two planes: --width --height (above) --separation [--height2 (below)] --thickness --dk",
     ),
     (
         "coplanar",
-        "coplanar waveguide, no plane: --width --gap --height (substrate) --thickness --dk",
+        "coplanar trace, ground beside it, no plane: --width --gap --height (substrate) --thickness --dk",
     ),
     (
         "grounded-coplanar",
-        "coplanar waveguide over a plane: --width --gap --height --thickness --dk",
+        "coplanar trace, ground beside it, over a plane: --width --gap --height --thickness --dk",
     ),
     (
         "coplanar-pair",
-        "coplanar pair with grounds, no plane: --width --spacing --gap --height --thickness --dk",
+        "coplanar pair, ground beside it, no plane: --width --spacing --gap --height --thickness --dk",
     ),
     (
         "grounded-coplanar-pair",
-        "coplanar pair with grounds over a plane: --width --spacing --gap --height --thickness --dk",
+        "coplanar pair, ground beside it, over a plane: --width --spacing --gap --height --thickness --dk",
     ),
 ];
+
+/// Earlier names of kinds, still read so scripts and saved batch files keep working: (old name, its kind).
+pub const KIND_ALIASES: &[(&str, &str)] = &[
+    ("coated-microstrip", "microstrip-under-mask"),
+    ("embedded-microstrip", "microstrip-under-dielectric"),
+    ("edge-coupled-microstrip", "microstrip-pair"),
+    ("edge-coupled-stripline", "stripline-pair"),
+    ("broadside-stripline", "stripline-pair-stacked"),
+];
+
+/// The kind `name` stands for (itself, or the kind an earlier name now has); `None` when it is no kind.
+pub fn canonical_kind(name: &str) -> Option<&'static str> {
+    KINDS.iter().map(|k| k.0).find(|k| *k == name).or_else(|| {
+        KIND_ALIASES
+            .iter()
+            .find(|(old, _)| *old == name)
+            .map(|(_, new)| *new)
+    })
+}
 
 /// A parsed case: the cross-section and structure the models see, plus the given dimensions.
 #[derive(Debug, Clone, PartialEq)]
@@ -71,9 +91,10 @@ pub struct LineCase {
 
 /// Reads the named fields of a case. Every value is text (a number with an optional unit).
 pub fn parse(kind: &str, fields: &BTreeMap<String, String>) -> Result<LineCase> {
+    let kind = canonical_kind(kind).unwrap_or(kind);
     let known: &[&str] = match kind {
         "microstrip" => &["width", "height", "thickness", "dk"],
-        "coated-microstrip" => &[
+        "microstrip-under-mask" => &[
             "width",
             "height",
             "thickness",
@@ -81,9 +102,11 @@ pub fn parse(kind: &str, fields: &BTreeMap<String, String>) -> Result<LineCase> 
             "mask-thickness",
             "mask-dk",
         ],
-        "embedded-microstrip" => &["width", "height", "thickness", "dk", "cover", "cover-dk"],
+        "microstrip-under-dielectric" => {
+            &["width", "height", "thickness", "dk", "cover", "cover-dk"]
+        }
         "stripline" => &["width", "height", "height2", "thickness", "dk"],
-        "edge-coupled-microstrip" => &[
+        "microstrip-pair" => &[
             "width",
             "spacing",
             "height",
@@ -94,8 +117,8 @@ pub fn parse(kind: &str, fields: &BTreeMap<String, String>) -> Result<LineCase> 
             "cover",
             "cover-dk",
         ],
-        "edge-coupled-stripline" => &["width", "spacing", "height", "height2", "thickness", "dk"],
-        "broadside-stripline" => &[
+        "stripline-pair" => &["width", "spacing", "height", "height2", "thickness", "dk"],
+        "stripline-pair-stacked" => &[
             "width",
             "height",
             "separation",
@@ -155,7 +178,7 @@ pub fn parse(kind: &str, fields: &BTreeMap<String, String>) -> Result<LineCase> 
             er,
             cover: Cover::Air,
         },
-        "coated-microstrip" => Medium::Microstrip {
+        "microstrip-under-mask" => Medium::Microstrip {
             h,
             er,
             cover: Cover::Mask {
@@ -163,7 +186,7 @@ pub fn parse(kind: &str, fields: &BTreeMap<String, String>) -> Result<LineCase> 
                 er: error::permittivity("mask-dk", number("mask-dk")?)?,
             },
         },
-        "embedded-microstrip" => Medium::Microstrip {
+        "microstrip-under-dielectric" => Medium::Microstrip {
             h,
             er,
             cover: Cover::Dielectric {
@@ -171,7 +194,7 @@ pub fn parse(kind: &str, fields: &BTreeMap<String, String>) -> Result<LineCase> 
                 er: error::permittivity("cover-dk", number("cover-dk")?)?,
             },
         },
-        "edge-coupled-microstrip" => {
+        "microstrip-pair" => {
             let has = |a: &str, b: &str| fields.contains_key(a) || fields.contains_key(b);
             let cover = match (has("mask-thickness", "mask-dk"), has("cover", "cover-dk")) {
                 (true, true) => {
@@ -193,7 +216,7 @@ pub fn parse(kind: &str, fields: &BTreeMap<String, String>) -> Result<LineCase> 
             };
             Medium::Microstrip { h, er, cover }
         }
-        "broadside-stripline" => Medium::Broadside {
+        "stripline-pair-stacked" => Medium::Broadside {
             h_above: h,
             separation: error::length("separation", length("separation")?)?,
             h_below: error::length("height2", optional_length("height2", h)?)?,
@@ -216,12 +239,12 @@ pub fn parse(kind: &str, fields: &BTreeMap<String, String>) -> Result<LineCase> 
         }
     };
     let (structure, s, gap) = match kind {
-        "edge-coupled-stripline" | "edge-coupled-microstrip" => (
+        "stripline-pair" | "microstrip-pair" => (
             Structure::EdgePair,
             Some(error::length("spacing", length("spacing")?)?),
             None,
         ),
-        "broadside-stripline" => (Structure::BroadsidePair, None, None),
+        "stripline-pair-stacked" => (Structure::BroadsidePair, None, None),
         "coplanar" | "grounded-coplanar" => (
             Structure::Coplanar,
             None,
@@ -276,5 +299,61 @@ impl LineCase {
             dims: Dims { w, ..self.dims },
             ..self.clone()
         })
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn fields(pairs: &[(&str, &str)]) -> BTreeMap<String, String> {
+        pairs
+            .iter()
+            .map(|(k, v)| (k.to_string(), v.to_string()))
+            .collect()
+    }
+
+    #[test]
+    fn earlier_kind_names_read_as_their_new_kinds() {
+        let base = [
+            ("width", "0.2mm"),
+            ("height", "0.1mm"),
+            ("thickness", "35um"),
+            ("dk", "4"),
+        ];
+        let extra: &[(&str, &[(&str, &str)])] = &[
+            (
+                "coated-microstrip",
+                &[("mask-thickness", "20um"), ("mask-dk", "3.8")],
+            ),
+            (
+                "embedded-microstrip",
+                &[("cover", "50um"), ("cover-dk", "4")],
+            ),
+            ("edge-coupled-microstrip", &[("spacing", "0.15mm")]),
+            ("edge-coupled-stripline", &[("spacing", "0.15mm")]),
+            ("broadside-stripline", &[("separation", "0.1mm")]),
+        ];
+        for (old, more) in extra {
+            let new = canonical_kind(old).unwrap();
+            assert_ne!(*old, new);
+            let f = fields(&[&base[..], more].concat());
+            let (a, b) = (parse(old, &f).unwrap(), parse(new, &f).unwrap());
+            assert_eq!(a, b, "{old}");
+            assert_eq!(a.kind, new);
+            assert_eq!(a.analyze().unwrap().analysis, b.analyze().unwrap().analysis);
+        }
+        // Every alias points at a listed kind, no alias shadows a kind, and unknown names stay errors.
+        for (old, new) in KIND_ALIASES {
+            assert!(KINDS.iter().any(|k| k.0 == *new), "{new}");
+            assert!(KINDS.iter().all(|k| k.0 != *old), "{old}");
+        }
+        assert_eq!(canonical_kind("microstrip"), Some("microstrip"));
+        assert_eq!(canonical_kind("nonesuch"), None);
+        let e = parse("nonesuch", &fields(&base)).unwrap_err().to_string();
+        assert!(
+            e.starts_with("structure") && e.contains("microstrip-under-mask"),
+            "{e}"
+        );
     }
 }
