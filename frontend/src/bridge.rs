@@ -82,9 +82,10 @@ pub fn parse_number(field: &str, text: &str, suffixes: &[&str]) -> Result<f64, S
     units::parse_number(field, text, suffixes).map_err(|e| e.to_string())
 }
 
-/// A stored length as editable text in `unit` (no unit word: the column header says it).
+/// A stored length as editable text in `unit` (no unit word: the column header says it), rounded as the trade
+/// writes it (`units::length_number`); the stored metres keep full precision until the field is edited.
 pub fn length_text(metres: f64, unit: LengthUnit) -> String {
-    format_sig(unit.from_m(metres), 6)
+    units::length_number(metres, unit)
 }
 
 /// A length with its unit, for read-only cells.
