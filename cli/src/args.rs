@@ -89,6 +89,11 @@ core_parser!(
     Percent -> f64 = |f, t| parse_number(f, t, &["%"])
 );
 core_parser!(
+    /// A calendar date, `YYYY-MM-DD`.
+    Date -> ohmstack_core::output::report::IssueDate =
+        |_, t| ohmstack_core::output::report::IssueDate::parse(t)
+);
+core_parser!(
     /// A length of a line case, checked here and kept as text: the case reader takes text.
     LengthText -> String = |f, t| parse_length(f, t).map(|_| t.to_string())
 );
@@ -104,7 +109,8 @@ pub fn whole<T: std::str::FromStr>(text: &str) -> Result<T, String> {
         .map_err(|_| format!("{text:?} is not a whole number"))
 }
 
-/// The structure names of `ohmstack kinds`; listed in help and completions.
+/// The structure names of `ohmstack kinds`; listed in help and completions. Earlier names
+/// (`case::KIND_ALIASES`) are still accepted, unlisted.
 #[derive(Clone, Copy)]
 pub struct Kind;
 
@@ -117,8 +123,8 @@ impl TypedValueParser for Kind {
         value: &OsStr,
     ) -> Result<String, clap::Error> {
         let check = |text: &str| -> Result<String, String> {
-            if case::KINDS.iter().any(|(name, _)| *name == text) {
-                return Ok(text.to_string());
+            if let Some(kind) = case::canonical_kind(text) {
+                return Ok(kind.to_string());
             }
             let names: Vec<&str> = case::KINDS.iter().map(|k| k.0).collect();
             Err(format!(

@@ -574,3 +574,42 @@ fn random_prints_the_seeded_stream() {
     assert_eq!(code, 2);
     assert!(err.contains("normal or uniform"), "{err}");
 }
+
+#[test]
+fn earlier_kind_names_still_work_and_output_is_in_plain_words() {
+    let args = |kind: &'static str| {
+        vec![
+            "calc",
+            kind,
+            "--width",
+            "0.2mm",
+            "--height",
+            "0.1mm",
+            "--thickness",
+            "35um",
+            "--dk",
+            "4.2",
+            "--mask-thickness",
+            "20um",
+            "--mask-dk",
+            "3.8",
+        ]
+    };
+    let (code, new, err) = ohmstack(&args("microstrip-under-mask"), "");
+    assert_eq!(code, 0, "{err}");
+    let (code, old, err) = ohmstack(&args("coated-microstrip"), "");
+    assert_eq!(code, 0, "{err}");
+    assert_eq!(new, old);
+    assert!(
+        new.starts_with("trace on an outer layer under solder mask (microstrip)"),
+        "{new}"
+    );
+    // A batch line with an old name reads too.
+    let line = r#"{"structure":"broadside-stripline","width":"0.1mm","height":"0.1mm","separation":"0.1mm","thickness":"17um","dk":4}"#;
+    let (code, out, err) = ohmstack(&["batch"], line);
+    assert_eq!(code, 0, "{err}");
+    assert!(!out.contains("\"error\""), "{out}");
+    let (code, kinds, _) = ohmstack(&["kinds"], "");
+    assert_eq!(code, 0);
+    assert!(kinds.contains("stripline-pair-stacked") && kinds.contains("broadside-stripline"));
+}

@@ -75,6 +75,45 @@ fn notes_in_both_formats() {
 }
 
 #[test]
+fn notes_are_dated_and_name_each_rows_engine() {
+    let (code, md, err) = ohmstack(
+        &[
+            "notes",
+            FIXTURE,
+            "--date",
+            "2026-03-14",
+            "--engine",
+            "closed-form",
+        ],
+        "",
+    );
+    assert_eq!(code, 0, "{err}");
+    assert!(md.contains("Issued 2026-03-14"), "{md}");
+    assert!(
+        md.contains("| Engine |") && md.contains("closed form: "),
+        "{md}"
+    );
+    let (code, md, err) = ohmstack(&["notes", FIXTURE, "--engine", "field"], "");
+    assert_eq!(code, 0, "{err}");
+    assert!(md.contains("field solver: boundary elements"), "{md}");
+    assert!(!md.contains("closed form: "), "{md}");
+    // Undated runs carry today's date (UTC); an impossible date is the one-line error naming --date.
+    assert!(md.contains("Issued 20"), "{md}");
+    for (date, expect) in [
+        ("2026-02-30", "February 2026 has no day 30"),
+        ("14.03.2026", "YYYY-MM-DD"),
+    ] {
+        let (code, _, err) = ohmstack(&["notes", FIXTURE, "--date", date], "");
+        assert_eq!(code, 2, "{err}");
+        assert!(
+            err.starts_with("error: --date: ") && err.contains(expect),
+            "{err}"
+        );
+        assert_eq!(err.lines().count(), 1, "{err}");
+    }
+}
+
+#[test]
 fn draw_writes_svg() {
     let (code, svg, err) = ohmstack(&["draw", FIXTURE, "--rule", "SE 50 top"], "");
     assert_eq!(code, 0, "{err}");

@@ -424,6 +424,7 @@ pub fn App() -> Html {
                 notice={state.notice.clone()} storage={(*storage).clone()} dispatch={dispatch.clone()}
                 {on_demo} {on_blank} {on_save} {on_open} recent={recent_menu} {on_reopen}
                 conflict={(*conflict).clone()} {on_take_theirs} {on_keep_copy} />
+            <crate::panels::summary::SummaryPanel plan={shown.clone()} unit={state.project.units} {stale} />
             if let Some(e) = plan_error {
                 <p class="error" role="alert" data-testid="plan-error">{ e }</p>
             }

@@ -82,9 +82,10 @@ pub fn parse_number(field: &str, text: &str, suffixes: &[&str]) -> Result<f64, S
     units::parse_number(field, text, suffixes).map_err(|e| e.to_string())
 }
 
-/// A stored length as editable text in `unit` (no unit word: the column header says it).
+/// A stored length as editable text in `unit` (no unit word: the column header says it), rounded as the trade
+/// writes it (`units::length_number`); the stored metres keep full precision until the field is edited.
 pub fn length_text(metres: f64, unit: LengthUnit) -> String {
-    format_sig(unit.from_m(metres), 6)
+    units::length_number(metres, unit)
 }
 
 /// A length with its unit, for read-only cells.
@@ -437,7 +438,8 @@ pub fn project_from_json(text: &str) -> Result<Project, String> {
 #[derive(Debug, Clone, PartialEq)]
 pub struct NotesView {
     pub title: String,
-    pub revision: String,
+    /// "Revision B · Issued 2026-03-14" (either part may be missing).
+    pub issue: String,
     pub stack_head: Vec<&'static str>,
     pub stack: Vec<Vec<String>>,
     pub total: String,
@@ -445,107 +447,50 @@ pub struct NotesView {
     /// Cells of each impedance row, and whether the row failed or is out of tolerance.
     pub impedance: Vec<(Vec<String>, bool)>,
     pub notes: Vec<String>,
+    /// The stack's cross-section (core SVG, user text escaped there), or why it could not be drawn.
+    pub drawing: Result<String, String>,
     pub markdown: String,
     pub csv: String,
 }
 
-/// Builds the fab-notes view; the cells carry the same text as the Markdown notes (unescaped: shown as text).
-pub fn notes_view(project: &Project, plan: &Plan) -> NotesView {
-    let notes: FabNotes = report::fab_notes(project, plan);
-    let unit = notes.units;
-    let len = |m: f64| format_length(m, unit);
-    let stack = notes
-        .stack
-        .iter()
-        .map(|r| {
-            let at = r
-                .spec_freq_hz
-                .map(|f| format!(" @ {} GHz", format_sig(f / 1e9, 4)))
-                .unwrap_or_default();
-            vec![
-                r.layer.clone(),
-                r.kind.clone(),
-                r.material.clone(),
-                len(r.thickness_m),
-                len(r.pressed_thickness_m),
-                r.dk.map(|v| format!("{}{at}", format_sig(v, 4)))
-                    .unwrap_or_default(),
-                r.df.map(|v| format!("{}{at}", format_sig(v, 4)))
-                    .unwrap_or_default(),
-                r.copper_oz
-                    .map(|oz| format!("{} oz", format_sig(oz, 2)))
-                    .unwrap_or_default(),
-            ]
-        })
-        .collect();
+/// Today's date as the core's issue date, from the browser's local calendar (`None` outside a browser).
+pub fn today() -> Option<report::IssueDate> {
+    #[cfg(target_arch = "wasm32")]
+    {
+        let now = js_sys::Date::new_0();
+        report::IssueDate::new(
+            now.get_full_year() as i32,
+            now.get_month() as u8 + 1,
+            now.get_date() as u8,
+        )
+        .ok()
+    }
+    #[cfg(not(target_arch = "wasm32"))]
+    {
+        None
+    }
+}
+
+/// Builds the fab-notes view issued on `date`; the cells carry the same text as the Markdown notes (unescaped:
+/// shown as text).
+pub fn notes_view(project: &Project, plan: &Plan, date: Option<report::IssueDate>) -> NotesView {
+    let notes: FabNotes = report::fab_notes(project, plan, date);
     let impedance = notes
-        .impedance
-        .iter()
-        .map(|r| {
-            let structure = if r.family.is_empty() {
-                r.structure.clone()
-            } else {
-                format!("{} ({})", r.structure, r.family)
-            };
-            let (status, bad) = match (&r.error, r.within_tolerance) {
-                (Some(err), _) => (format!("error: {err}"), true),
-                (None, Some(true)) => ("ok".to_string(), false),
-                (None, _) => ("out of tolerance".to_string(), true),
-            };
-            let cells = vec![
-                r.net_class.clone(),
-                r.layer.clone(),
-                structure,
-                r.references.join(", "),
-                format!(
-                    "{} Ω ± {} %",
-                    format_sig(r.target_ohm, 4),
-                    format_sig(r.tolerance_pct, 3)
-                ),
-                len(r.width_m),
-                r.spacing_m.map(len).unwrap_or_default(),
-                r.coplanar_gap_m.map(len).unwrap_or_default(),
-                r.impedance_ohm
-                    .map(|z| format!("{z:.2} Ω"))
-                    .unwrap_or_default(),
-                status,
-            ];
-            (cells, bad)
-        })
+        .impedance_cells()
+        .into_iter()
+        .zip(&notes.impedance)
+        .map(|(cells, row)| (cells, row.is_bad()))
         .collect();
     NotesView {
         title: notes.title.clone(),
-        revision: notes.revision.clone(),
-        stack_head: vec![
-            "Layer",
-            "Type",
-            "Material",
-            "Thickness (as bought)",
-            "Thickness (pressed)",
-            "Dk @ f",
-            "Df @ f",
-            "Copper",
-        ],
-        stack,
-        total: format!(
-            "{} ± {} %",
-            len(notes.total_thickness_m),
-            format_sig(notes.thickness_tolerance_pct, 3)
-        ),
-        impedance_head: vec![
-            "Net class",
-            "Layer",
-            "Structure",
-            "Reference planes",
-            "Target",
-            "Trace width",
-            "Spacing",
-            "Coplanar gap",
-            "Computed Z",
-            "Status",
-        ],
+        issue: notes.issue_line(),
+        stack_head: report::STACK_HEAD.to_vec(),
+        stack: notes.stack_cells(),
+        total: notes.total_text(),
+        impedance_head: report::IMPEDANCE_HEAD.to_vec(),
         impedance,
         notes: notes.notes.clone(),
+        drawing: cross_section_svg(project, None),
         markdown: notes.to_markdown(),
         csv: notes.to_csv(),
     }

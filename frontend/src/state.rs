@@ -44,6 +44,7 @@ pub enum RuleField {
 #[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash)]
 pub enum Field {
     Title,
+    Revision,
     AnalysisFreq,
     MinTrace,
     MinSpace,
@@ -56,6 +57,7 @@ impl Field {
     pub fn id(self) -> String {
         match self {
             Field::Title => "project-title".into(),
+            Field::Revision => "project-revision".into(),
             Field::AnalysisFreq => "analysis-freq".into(),
             Field::MinTrace => "fab-min-trace".into(),
             Field::MinSpace => "fab-min-space".into(),
@@ -341,6 +343,10 @@ impl State {
                     return Err("title: longer than 200 characters".into());
                 }
                 p.title = text.to_string();
+            }
+            Field::Revision => {
+                p.revision = text.trim().to_string();
+                p.validate().map_err(|e| e.to_string())?;
             }
             Field::AnalysisFreq => {
                 let f = bridge::parse_frequency_ghz("analysis frequency", text)?;
@@ -1036,6 +1042,20 @@ mod tests {
         restored.title = "Board A".into();
         let restored = State::restored(restored, Vec::new(), Vec::new());
         assert!(text(&reduce(restored, load)).contains("Undo brings back"));
+    }
+
+    #[test]
+    fn revision_is_edited_and_checked_by_the_core() {
+        let s = reduce(
+            State::default(),
+            Action::Edit(Field::Revision, " B2 ".into()),
+        );
+        assert_eq!(s.project.revision, "B2");
+        let long = "x".repeat(ohmstack_core::design::project::MAX_REVISION_CHARS + 1);
+        let s = reduce(s, Action::Edit(Field::Revision, long));
+        assert_eq!(s.project.revision, "B2");
+        let message = s.drafts[&Field::Revision].error.clone().unwrap();
+        assert!(message.starts_with("revision:"), "{message}");
     }
 
     #[test]

@@ -78,7 +78,7 @@ fuzz_target!(|data: &[u8]| {
         closed_form_only: n.bool(),
     };
     if let Ok(plan) = plan_with(&project, &options) {
-        let notes = report::fab_notes(&project, &plan);
+        let notes = report::fab_notes(&project, &plan, None);
         let _ = notes.to_markdown();
         let _ = notes.to_csv();
     }

@@ -181,9 +181,10 @@ def test_unit_switch_keeps_stored_values_bit_identical(driver):
         units.select_by_value(unit)
         wait_saved(driver, lambda p, u=unit: p["units"] == u, f"unit {unit}")
         if unit == "mil":
-            # 1 mil = 25.4 µm exactly; the field shows the stored metres in mil.
-            shown = float(driver.find_element(By.ID, f"layer-{PREPREG}-thickness").get_attribute("value"))
-            assert abs(shown - start["stackup"][PREPREG]["thickness_m"] / 25.4e-6) < 1e-3
+            # 1 mil = 25.4 µm exactly; the field shows the stored metres in mil, to the trade's 0.01 mil.
+            text = driver.find_element(By.ID, f"layer-{PREPREG}-thickness").get_attribute("value")
+            assert len(text.partition(".")[2]) <= 2, text
+            assert abs(float(text) - start["stackup"][PREPREG]["thickness_m"] / 25.4e-6) <= 0.005 + 1e-12
     end = saved(driver)
     raw_end = browser.saved_text(driver)
     assert end["stackup"] == start["stackup"] and end["rules"] == start["rules"] and end["fab"] == start["fab"]
@@ -372,4 +373,33 @@ def test_preset_menus_are_the_cores_table(driver):
         assert (layer["dk"], layer["df"], layer["spec_freq_hz"]) == (preset["dk"], preset["df"], preset["spec_freq_hz"])
         # Every preset value stays editable.
         assert driver.find_element(By.ID, f"layer-{i}-dk").get_attribute("value") == f"{preset['dk']:g}"
+    assert browser.console_errors(driver) == []
+
+
+def test_figures_are_rounded_as_the_trade_writes_them(driver):
+    """Issue 17 item 8: copper chosen as 1 oz reads 35 µm (34.798 µm stored, 1 oz = 1.37 mil, value from memory);
+    in mil every length field and summary figure has at most two decimals (0.1 mm min trace reads 3.94, not
+    3.93701), while the saved project keeps full precision."""
+    copper = next(i for i, l in enumerate(demo_project()["stackup"]) if l["type"] == "copper")
+    Select(driver.find_element(By.ID, f"layer-{copper}-weight")).select_by_value("1")
+    p = wait_saved(driver, lambda p: abs(p["stackup"][copper]["thickness_m"] - 34.798e-6) < 1e-12, "1 oz copper")
+    assert p["stackup"][copper]["thickness_m"] != 35e-6  # full precision inside
+    browser.wait_for(lambda: driver.find_element(By.ID, f"layer-{copper}-thickness").get_attribute("value") == "35",
+                     what="1 oz shown as 35 µm")
+    Select(driver.find_element(By.ID, "units")).select_by_value("mil")
+    wait_saved(driver, lambda p: p["units"] == "mil", "unit mil")
+    assert driver.find_element(By.ID, "fab-min-trace").get_attribute("value") == "3.94"
+    fields = driver.find_elements(By.CSS_SELECTOR, "input[id$='-thickness'], input[id^='fab-min']")
+    assert len(fields) > 5
+    for f in fields:
+        text = f.get_attribute("value")
+        assert len(text.partition(".")[2]) <= 2, (f.get_attribute("id"), text)
+    summary = browser.wait_for(lambda: [td.text for td in driver.find_elements(
+        By.CSS_SELECTOR, "[data-testid='board-summary'] tbody td:nth-child(3)")], what="summary widths")
+    for cell in summary:
+        for part in cell.split(" / "):
+            number, unit = part.split()
+            assert unit == "mil" and len(number.partition(".")[2]) <= 2, cell
+    browser.screenshot(driver, "rounded-figures-mil")
+    assert saved(driver)["fab"]["min_trace_m"] == demo_project()["fab"]["min_trace_m"]
     assert browser.console_errors(driver) == []

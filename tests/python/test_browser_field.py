@@ -156,7 +156,8 @@ def test_field_solver_model_in_the_browser_equals_the_cli(driver):
                      what="field-solved width on the card")
     assert abs(shown("impedance") / native["impedance_ohm"] - 1) < 1e-6
     notes = driver.find_element(By.CSS_SELECTOR, "[data-testid='fab-notes']").text
-    assert f"{native['width_m'] * 1e6:.1f}" in notes
+    # The notes write lengths as the trade does: whole micrometres (full precision is in the CSV).
+    assert f"{native['width_m'] * 1e6:.0f} µm" in notes
     assert browser.console_errors(driver) == []
 
 

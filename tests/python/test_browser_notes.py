@@ -126,13 +126,16 @@ def test_notes_downloads_equal_the_cli(driver):
     folder = enable_downloads(driver)
     w.open_app(driver)
     w.wait_title(driver, project["title"])
+    # The app dates the notes with the browser's today; the CLI is given the same date.
+    today = today_in_browser(driver)
     driver.find_element(By.CSS_SELECTOR, "[data-testid='notes-csv']").click()
     csv = wait_file(folder, ".csv").read_bytes().decode()
-    same_tokens(csv, w.cli_ok("notes", "-", "--format", "csv", stdin=json.dumps(project)))
+    same_tokens(csv, w.cli_ok("notes", "-", "--format", "csv", "--date", today, stdin=json.dumps(project)))
     assert "\r\n" in csv  # RFC 4180 line ends kept through the Blob
+    assert csv.rstrip().endswith(today)
     driver.find_element(By.CSS_SELECTOR, "[data-testid='notes-md']").click()
     md = wait_file(folder, ".md").read_text()
-    same_tokens(md, w.cli_ok("notes", "-", "--format", "md", stdin=json.dumps(project)))
+    same_tokens(md, w.cli_ok("notes", "-", "--format", "md", "--date", today, stdin=json.dumps(project)))
     assert browser.console_errors(driver) == []
 
 
@@ -209,4 +212,175 @@ def test_pictures_match_the_core_and_are_saved_as_artefacts(driver):
     browser.screenshot(driver, "pictures-spread")
     scroll_to(driver, "fab-notes")
     browser.screenshot(driver, "notes-view")
+    assert browser.console_errors(driver) == []
+
+
+# ---- The printed sheet: engine per row, roles, revision and date, drawing, and the page fit (issue 17 item 9) ----
+
+# Paper sizes in inches (ISO 216 A4 is 210 × 297 mm; US Letter is 8.5 × 11 in) and the sheet's @page margin
+# (index.html, 14 mm).
+PAPERS = {"a4": (210 / 25.4, 297 / 25.4), "letter": (8.5, 11.0)}
+MARGIN_IN = 14 / 25.4
+
+
+def crowded() -> dict:
+    """The demo with long net-class names and one rule that cannot be computed (its error fills the Status cell):
+    the widest impedance table the sheet has to hold."""
+    p = w.demo()
+    for r in p["rules"]:
+        r["name"] = r["name"] + " — long net-class name for the width check"
+    bad = dict(p["rules"][0])
+    bad["name"] = "Unreachable impedance net class"
+    bad["target_ohm"] = 400.0
+    p["rules"].append(bad)
+    p["revision"] = "C3"
+    return p
+
+
+def print_pdf(driver, paper: str) -> bytes:
+    width, height = PAPERS[paper]
+    result = driver.execute_cdp_cmd("Page.printToPDF", {
+        "paperWidth": width, "paperHeight": height, "printBackground": False, "preferCSSPageSize": False})
+    pdf = base64.b64decode(result["data"])
+    browser.ARTIFACTS.mkdir(parents=True, exist_ok=True)
+    (browser.ARTIFACTS / f"notes-print-{paper}.pdf").write_bytes(pdf)
+    return pdf
+
+
+def text_runs(page) -> list[tuple[float, float, float, str]]:
+    """(x, y, font size, text) of every text run on a PDF page, in PDF points (from the text and CTM matrices)."""
+    runs = []
+
+    def visit(text, cm, tm, _font, size):
+        if text.strip():
+            x = tm[4] * cm[0] + tm[5] * cm[2] + cm[4]
+            y = tm[4] * cm[1] + tm[5] * cm[3] + cm[5]
+            runs.append((x, y, size * (abs(tm[0] * cm[0]) or 1.0), text))
+
+    page.extract_text(visitor_text=visit)
+    return runs
+
+
+def today_in_browser(driver) -> str:
+    return driver.execute_script(
+        "var d = new Date(); function p(n) { return (n < 10 ? '0' : '') + n; }"
+        "return d.getFullYear() + '-' + p(d.getMonth() + 1) + '-' + p(d.getDate());")
+
+
+def open_project(driver, project: dict):
+    w.put_local_work(driver, project)
+    w.open_app(driver)
+    w.wait_title(driver, project["title"])
+
+
+@pytest.mark.parametrize("paper", ["a4", "letter"])
+def test_printed_notes_fit_the_page(driver, paper):
+    project = crowded()
+    open_project(driver, project)
+    # Layout check in the browser: print media at the page's printable width, no cell wider than its column
+    # and the tables inside the sheet.
+    width_px = round((PAPERS[paper][0] - 2 * MARGIN_IN) * 96)
+    driver.execute_cdp_cmd("Emulation.setEmulatedMedia", {"media": "print"})
+    driver.execute_cdp_cmd("Emulation.setDeviceMetricsOverride",
+                           {"width": width_px, "height": 1100, "deviceScaleFactor": 1, "mobile": False})
+    overflow = driver.execute_script("""
+        var sheet = document.querySelector("[data-testid='fab-notes']").getBoundingClientRect();
+        var bad = [];
+        document.querySelectorAll('.fab-notes table').forEach(function (t) {
+            var r = t.getBoundingClientRect();
+            if (r.right > sheet.right + 0.5 || t.scrollWidth > t.clientWidth + 1) bad.push('table ' + t.className);
+            t.querySelectorAll('td, th').forEach(function (c) {
+                if (c.scrollWidth > c.clientWidth + 1) bad.push(c.textContent.slice(0, 40));
+            });
+        });
+        return bad;""")
+    browser.screenshot(driver, f"notes-print-media-{paper}")
+    driver.execute_cdp_cmd("Emulation.clearDeviceMetricsOverride", {})
+    driver.execute_cdp_cmd("Emulation.setEmulatedMedia", {"media": ""})
+    assert overflow == [], overflow
+    # The PDF Chromium prints: every text run starts inside the printable area, and the impedance table's
+    # last column is on the page.
+    reader = PdfReader(io.BytesIO(print_pdf(driver, paper)))
+    pages = len(reader.pages)
+    assert 1 <= pages <= 3, pages
+    runs = []
+    for page in reader.pages:
+        page_w = float(page.mediabox.width)
+        assert abs(page_w - PAPERS[paper][0] * 72) < 1.0, page_w
+        runs += [(x, y, s, t, page_w) for (x, y, s, t) in text_runs(page)]
+    right_edge = PAPERS[paper][0] * 72 - MARGIN_IN * 72
+    outside = [(round(x), t) for (x, _, _, t, _) in runs if x < MARGIN_IN * 72 - 2 or x > right_edge]
+    assert outside == [], outside
+    flat = squash("".join(t for (*_, t, _) in runs))
+    for head in ["Engine", "Status", "Computed Z", "Role"]:
+        assert squash(head) in flat, head
+    cells = driver.find_elements(By.CSS_SELECTOR, "[data-testid='notes-impedance'] tbody tr td:last-child")
+    assert len(cells) == len(project["rules"])
+    for c in cells:
+        if c.text:
+            assert squash(c.text) in flat, c.text
+    print(f"{paper}: {pages} page(s), {len(runs)} text runs, rightmost run starts at "
+          f"{max(x for (x, *_rest) in runs):.0f} pt of {right_edge:.0f} pt")
+    assert browser.console_errors(driver) == []
+
+
+def test_notes_name_engines_roles_revision_and_date(driver):
+    project = w.demo()
+    project["rules"][0]["model"] = "field_solver"
+    open_project(driver, project)
+    plan = w.analyze(project)
+    # Revision typed in the header shows on the sheet with the browser's date.
+    revision = driver.find_element(By.CSS_SELECTOR, "[data-testid='project-revision']")
+    revision.clear()
+    revision.send_keys("B7")
+    today = today_in_browser(driver)
+    issue = browser.wait_for(
+        lambda: driver.find_element(By.CSS_SELECTOR, "[data-testid='notes-issue']").text, what="issue line")
+    browser.wait_for(lambda: driver.find_element(
+        By.CSS_SELECTOR, "[data-testid='notes-issue']").text == f"Revision B7 · Issued {today}", what="revision")
+    # Engine per row: the method `analyze` reports, named as field solver or closed form.
+    head = [th.text for th in driver.find_elements(By.CSS_SELECTOR, "[data-testid='notes-impedance'] thead th")]
+    engine_col = head.index("Engine")
+    rows = driver.find_elements(By.CSS_SELECTOR, "[data-testid='notes-impedance'] tbody tr")
+    assert len(rows) == len(plan["rules"])
+    kinds = set()
+    for row, rule in zip(rows, plan["rules"]):
+        cell = row.find_elements(By.TAG_NAME, "td")[engine_col].text
+        if rule["status"] != "ok":
+            continue
+        if rule["method"].startswith("2D field solver"):
+            assert cell == "field solver: boundary elements", cell
+            kinds.add("field")
+        else:
+            assert cell == f"closed form: {rule['method']}", cell
+            kinds.add("closed")
+    assert kinds == {"field", "closed"}
+    notes = driver.find_element(By.CSS_SELECTOR, "[data-testid='fab-notes']").text
+    assert "from closed-form models;" not in notes
+    assert "1 impedance is from a 2D field solver" in notes
+    # Copper rows: the role in its own column, nothing in Material.
+    head = [th.text for th in driver.find_elements(By.CSS_SELECTOR, ".notes-stack thead th")]
+    role_col, material_col = head.index("Role"), head.index("Material")
+    stack_rows = driver.find_elements(By.CSS_SELECTOR, ".notes-stack tbody tr")
+    for row, layer in zip(stack_rows, plan["layers"]):
+        cells = [td.text for td in row.find_elements(By.TAG_NAME, "td")]
+        if layer["kind"] == "copper":
+            assert cells[role_col] == layer["role"] and cells[material_col] == "", cells
+        else:
+            assert cells[role_col] == "" and cells[material_col] == layer["material"], cells
+    # The cross-section drawing is on the sheet with every layer's name, and it prints.
+    drawing = driver.find_element(By.CSS_SELECTOR, "[data-testid='notes-drawing'] svg").text
+    for layer in project["stackup"]:
+        assert layer["name"] in drawing
+    text = "\n".join(p.extract_text() for p in PdfReader(io.BytesIO(print_pdf(driver, "a4"))).pages)
+    assert squash(f"Revision B7 · Issued {today}") in squash(text)
+    assert squash(project["stackup"][0]["name"]) in squash(text)
+    # The download equals the CLI's notes for the same date.
+    folder = enable_downloads(driver)
+    driver.find_element(By.CSS_SELECTOR, "[data-testid='notes-md']").click()
+    md = wait_file(folder, ".md").read_text()
+    project["revision"] = "B7"
+    same_tokens(md, w.cli_ok("notes", "-", "--format", "md", "--date", today, stdin=json.dumps(project)))
+    scroll_to(driver, "fab-notes")
+    browser.screenshot(driver, "notes-engines-roles")
     assert browser.console_errors(driver) == []

@@ -128,7 +128,8 @@ def test_csv_values_round_trip_against_analyze(project):
     p = {"fixture": lambda: json.loads(FIXTURE.read_text()), "demo": demo, "hostile": hostile}[project]()
     text = json.dumps(p)
     plan = json.loads(ok("analyze", "-", "--json", stdin=text))
-    stack, imp, notes = csv_tables(raw("notes", "-", "--format", "csv", stdin=text))
+    stack, imp, notes, document = csv_tables(raw("notes", "-", "--format", "csv", "--date", "2026-03-14", stdin=text))
+    assert document == [["title", "revision", "date"], [p["title"], p.get("revision", ""), "2026-03-14"]]
     m = UNIT_M[p["units"]]
     assert len(stack) == 1 + len(plan["layers"])
     for row, layer in zip(stack[1:], plan["layers"]):
@@ -140,6 +141,8 @@ def test_csv_values_round_trip_against_analyze(project):
             assert float(row[5]) == layer["dk"] and float(row[6]) == layer["df"]
         if layer["copper_oz"] is not None:
             assert float(row[8]) == layer["copper_oz"]
+        # A copper layer's role has its own column; Material holds only a dielectric's material.
+        assert row[9] == (layer["role"] or "") and row[2] == layer["material"]
     assert len(imp) == 1 + len(plan["rules"])
     for row, rule in zip(imp[1:], plan["rules"]):
         if rule["status"] == "ok":
@@ -147,7 +150,10 @@ def test_csv_values_round_trip_against_analyze(project):
             assert float(row[10]) == rule["impedance_ohm"]  # shortest round-trip repr both ways: exact
             assert float(row[7]) * m == pytest.approx(rule["width_m"], rel=1e-12)
             assert row[4] == "; ".join(rule["references"])
-            assert row[11] in ("ok", "out of tolerance")
+            assert row[11] == "ok" or row[11].startswith("out of tolerance")
+            # The engine that made the row: the method `analyze` reports.
+            assert row[13] == rule["method"]
+            assert row[12] == ("field solver" if rule["method"].startswith("2D field solver") else "closed form")
         else:
             assert row[0] == rule["name"]
             assert row[10] == "" and row[11] == "error: " + rule["message"]

@@ -40,7 +40,7 @@ pub fn run(args: Args) -> Result<()> {
     );
     println!();
     println!(
-        "{:<26} {:<10} {:<52} {:>10} {:>12} {:>17} {:>8} {:>7} {:>9} {:>10}",
+        "{:<26} {:<10} {:<80} {:>10} {:>12} {:>17} {:>8} {:>7} {:>9} {:>10}",
         "rule",
         "layer",
         "structure",
@@ -56,18 +56,10 @@ pub fn run(args: Args) -> Result<()> {
         match outcome {
             RuleOutcome::Ok(r) => {
                 println!(
-                    "{:<26} {:<10} {:<52} {:>10} {:>12} {:>17} {:>8} {:>7} {:>9} {:>10}{}",
+                    "{:<26} {:<10} {:<80} {:>10} {:>12} {:>17} {:>8} {:>7} {:>9} {:>10}{}",
                     r.name,
                     r.layer,
-                    format!(
-                        "{} {}",
-                        r.family,
-                        match r.structure {
-                            "single-ended" | "coplanar single-ended" => "",
-                            "coplanar pair" => "pair",
-                            other => other,
-                        }
-                    ),
+                    r.description,
                     format_length(r.width_m, unit),
                     r.spacing_m
                         .map(|s| format_length(s, unit))

@@ -273,7 +273,7 @@ fn print(c: &CaseResult, json: bool) -> Result<()> {
     };
     println!(
         "{} — {}{estimate}",
-        line.cross_section.family_for(rule.structure),
+        line.cross_section.describe(rule.structure),
         line.answer.method
     );
     println!("  width       {}", format_length(line.dims.w, unit));

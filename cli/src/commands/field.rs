@@ -316,9 +316,8 @@ pub fn run(args: Args) -> Result<()> {
         match check {
             Ok(c) => {
                 println!(
-                    "{name} — {} {} on {}, width {}{} ({ms:.0} ms)",
-                    c.family,
-                    c.structure,
+                    "{name} — {} on {}, width {}{} ({ms:.0} ms)",
+                    c.description,
                     c.layer,
                     format_length(c.width_m, unit),
                     c.spacing_m

@@ -19,7 +19,7 @@ use std::time::Instant;
 #[derive(clap::Args)]
 #[command(
     after_help = "KIND and its fields as for calc. For the plain single-line kinds, --spacing makes an \
-edge-coupled pair, --gap a coplanar line, both a coplanar pair.\n\
+pair side by side, --gap a coplanar line, both a coplanar pair.\n\
 Example: ohmstack field-calc microstrip --width 0.2mm --height 0.1mm --thickness 35um --dk 4 --spacing 0.15mm"
 )]
 pub struct Args {
@@ -94,7 +94,7 @@ pub fn run(args: Args) -> Result<()> {
             .result()
             .ok_or_else(|| anyhow!("the field solve did not finish"))??;
         if let Some(target) = &map_path {
-            let title = format!("{} {}", case.cross_section.family(), case.structure.label());
+            let title = case.cross_section.describe(case.structure);
             write_map(target, solve.potential_map(), &title)?;
         }
         (r, "finite volumes")
@@ -118,9 +118,8 @@ pub fn run(args: Args) -> Result<()> {
         return Ok(());
     }
     println!(
-        "{} {} (2D field solve by {method}, {:.0} ms)",
-        case.cross_section.family(),
-        case.structure.label(),
+        "{} (2D field solve by {method}, {:.0} ms)",
+        case.cross_section.describe(case.structure),
         elapsed_ms
     );
     print_field(&r);

@@ -9,7 +9,11 @@ pub struct Args {}
 
 pub fn run(_: Args) -> Result<()> {
     for (name, what) in case::KINDS {
-        println!("{name:<24} {what}");
+        println!("{name:<28} {what}");
+    }
+    println!("\nEarlier names, still accepted:");
+    for (old, new) in case::KIND_ALIASES {
+        println!("{old:<28} = {new}");
     }
     Ok(())
 }

@@ -66,9 +66,8 @@ pub fn run(args: Args) -> Result<()> {
         return Ok(());
     }
     println!(
-        "{name}: {} {} (loss in dB per inch; delay in ps per inch)",
-        model.cross_section.family_for(model.structure),
-        model.structure.label()
+        "{name}: {} (loss in dB per inch; delay in ps per inch)",
+        model.cross_section.describe(model.structure)
     );
     println!(
         "{:>12} {:>5} {:>7} {:>7} {:>8} {:>9} {:>7} {:>9} {:>9} {:>9} {:>9} {:>8}",

@@ -1,8 +1,8 @@
 //! `ohmstack notes FILE`: fab notes of a project — stack table, impedance table, general notes — as Markdown or
-//! CSV.
+//! CSV, dated today (UTC) unless `--date` says otherwise.
 
-use ohmstack_core::output::report::fab_notes;
-use ohmstack_core::{plan, Project};
+use ohmstack_core::output::report::{fab_notes, IssueDate};
+use ohmstack_core::{plan_with, PlanOptions, Project};
 
 use crate::files::read_input;
 use anyhow::Result;
@@ -24,15 +24,37 @@ pub struct Args {
     /// Output format
     #[arg(long, value_name = "FORMAT", value_enum, default_value_t = Format::Md)]
     pub format: Format,
+    /// Issue date printed on the notes, YYYY-MM-DD [default: today, UTC]
+    #[arg(long, value_name = "DATE", value_parser = crate::args::Date)]
+    pub date: Option<IssueDate>,
     #[command(flatten)]
     pub engine: crate::args::EngineArgs,
+}
+
+/// Today's date in UTC (the notes need only the day).
+fn today() -> Result<IssueDate> {
+    let now = time::OffsetDateTime::now_utc();
+    Ok(IssueDate::new(
+        now.year(),
+        u8::from(now.month()),
+        now.day(),
+    )?)
 }
 
 pub fn run(args: Args) -> Result<()> {
     let mut project = Project::from_json(&read_input(&args.file)?)?;
     args.engine.apply(&mut project);
-    let plan = plan(&project)?;
-    let notes = fab_notes(&project, &plan);
+    // The field engine checks every closed-form rule, as in the app: its verdict is the notes' status.
+    let options = PlanOptions {
+        field_check: true,
+        ..PlanOptions::default()
+    };
+    let plan = plan_with(&project, &options)?;
+    let date = match args.date {
+        Some(d) => d,
+        None => today()?,
+    };
+    let notes = fab_notes(&project, &plan, Some(date));
     match args.format {
         Format::Md => print!("{}", notes.to_markdown()),
         Format::Csv => print!("{}", notes.to_csv()),

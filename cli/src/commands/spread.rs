@@ -149,7 +149,7 @@ fn per_unit(unit: &str, value: f64, project_unit: LengthUnit) -> String {
 fn print_spread(project: &Project, name: &str, r: &RuleResult, s: &SpreadSummary) {
     let u = project.units;
     let mc = &s.monte_carlo;
-    println!("{name} — {} {}", r.family, r.structure);
+    println!("{name} — {}", r.description);
     println!(
         "  nominal        {:.2} Ω  window {:.2}–{:.2} Ω (±{} %)",
         s.nominal_ohm,

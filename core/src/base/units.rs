@@ -151,7 +151,41 @@ pub fn parse_number(field: &str, text: &str, allowed_suffixes: &[&str]) -> Resul
 
 /// Formats a length in `unit` with a sensible number of digits.
 pub fn format_length(metres: f64, unit: LengthUnit) -> String {
-    format!("{} {}", format_sig(unit.from_m(metres), 4), unit.symbol())
+    format!("{} {}", length_number(metres, unit), unit.symbol())
+}
+
+/// A length in `unit` as the trade writes it, without the unit: whole micrometres (one decimal below 10 µm),
+/// millimetres to the micrometre, mil to two decimals, inches to 0.1 mil (common practice, no source); trailing
+/// zeros dropped. A non-zero length too small for that grid is written compactly (`error::compact`) rather than
+/// read 0.
+/// Only the text is rounded: stored values keep full precision.
+pub fn length_number(metres: f64, unit: LengthUnit) -> String {
+    let value = unit.from_m(metres);
+    let decimals = match unit {
+        LengthUnit::Um if value.abs() >= 10.0 => 0,
+        LengthUnit::Um => 1,
+        LengthUnit::Mm => 3,
+        LengthUnit::Mil => 2,
+        LengthUnit::In => 4,
+    };
+    if !value.is_finite() {
+        return format!("{value}");
+    }
+    let grid = 10f64.powi(-(decimals as i32));
+    if value != 0.0 && value.abs() < grid / 2.0 {
+        return crate::base::error::compact(value);
+    }
+    let text = format!("{value:.decimals$}");
+    let text = if text.contains('.') {
+        text.trim_end_matches('0').trim_end_matches('.').to_string()
+    } else {
+        text
+    };
+    if text == "-0" {
+        "0".into()
+    } else {
+        text
+    }
 }
 
 /// Formats `value` with `digits` significant digits, dropping trailing zeros.
@@ -187,6 +221,29 @@ mod tests {
         assert!(parse_length("w", "abc").is_err());
         assert!(parse_length("w", "3 furlongs").is_err());
         assert!(parse_length("w", "nan").is_err());
+    }
+
+    #[test]
+    fn lengths_show_as_the_trade_writes_them() {
+        // 1 oz/ft² copper is 34.798 µm (value from memory: 1.37 mil); the trade writes 35 µm / 1.37 mil.
+        let oz = 34.798e-6;
+        assert_eq!(format_length(oz, LengthUnit::Um), "35 µm");
+        assert_eq!(format_length(oz, LengthUnit::Mil), "1.37 mil");
+        assert_eq!(format_length(oz, LengthUnit::Mm), "0.035 mm");
+        // 0.12 mm, 0.02 mm and 0.1 mm in mil (1 mil = 25.4 µm exactly): 4.72441…, 0.787402…, 3.93701…
+        assert_eq!(length_number(120e-6, LengthUnit::Mil), "4.72");
+        assert_eq!(length_number(20e-6, LengthUnit::Mil), "0.79");
+        assert_eq!(length_number(100e-6, LengthUnit::Mil), "3.94");
+        assert_eq!(length_number(1.6e-3, LengthUnit::In), "0.063");
+        assert_eq!(length_number(1535e-6, LengthUnit::Mm), "1.535");
+        assert_eq!(length_number(8.54e-6, LengthUnit::Um), "8.5");
+        assert_eq!(length_number(144.4e-6, LengthUnit::Um), "144");
+        assert_eq!(length_number(0.0, LengthUnit::Um), "0");
+        assert_eq!(length_number(-1e-9, LengthUnit::Um), "-0.001");
+        // Too small for the grid: written compactly, never a bare 0.
+        assert_eq!(length_number(0.3e-6, LengthUnit::Mil), "0.01");
+        assert_eq!(length_number(0.1e-6, LengthUnit::Mil), "0.00393701");
+        assert_eq!(length_number(1e-30, LengthUnit::Mm), "1e-27");
     }
 
     #[test]

@@ -8,6 +8,9 @@ use crate::design::process::Process;
 use crate::design::stackup::{Layer, Stackup};
 use serde::{Deserialize, Serialize};
 
+/// The longest revision label a project may carry, characters (a fab-notes heading, not a paragraph).
+pub const MAX_REVISION_CHARS: usize = 40;
+
 /// The schema version this build writes. Older versions are migrated on read (see [`Project::from_json`]).
 pub const SCHEMA_VERSION: u32 = 2;
 
@@ -44,13 +47,14 @@ impl Structure {
         )
     }
 
-    /// Plain words for tables and menus.
+    /// Plain geometric words for tables and menus (what is routed, not where: `section::CrossSection::describe`
+    /// adds where the line sits). Only trade terms (coplanar) beyond plain words.
     pub fn label(self) -> &'static str {
         match self {
-            Structure::Single => "single-ended",
-            Structure::EdgePair => "edge-coupled pair",
-            Structure::BroadsidePair => "broadside-coupled pair",
-            Structure::Coplanar => "coplanar single-ended",
+            Structure::Single => "single trace",
+            Structure::EdgePair => "pair side by side",
+            Structure::BroadsidePair => "pair stacked",
+            Structure::Coplanar => "coplanar trace",
             Structure::CoplanarPair => "coplanar pair",
         }
     }
@@ -283,6 +287,12 @@ impl Project {
                 reason: "longer than 200 characters".into(),
             });
         }
+        if self.revision.chars().count() > MAX_REVISION_CHARS {
+            return Err(Error::Invalid {
+                field: "revision".into(),
+                reason: format!("longer than {MAX_REVISION_CHARS} characters"),
+            });
+        }
         error::in_range("analysis_freq", self.analysis_freq_hz, 1.0, 1e12, "Hz")?;
         error::length("fab.min_trace", self.fab.min_trace_m)?;
         error::length("fab.min_space", self.fab.min_space_m)?;
@@ -354,7 +364,7 @@ impl ImpedanceRule {
             return Err(Error::Invalid {
                 field: "solve".into(),
                 reason: format!(
-                    "only edge-coupled pairs have a spacing to solve for, not a {}",
+                    "only pairs side by side have a spacing to solve for, not a {}",
                     self.structure.label()
                 ),
             });

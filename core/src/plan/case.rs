@@ -12,60 +12,80 @@ use crate::design::stackup::{Copper, CopperRole, Dielectric, Layer, Stackup};
 use crate::section::{self, CrossSection, Dims};
 use std::collections::BTreeMap;
 
-/// The structure names a case may use, with what each one is. Every kind also takes `--etch-factor` (trapezoidal
-/// traces; the field engines model it, the closed forms do not).
+/// The structure names a case may use, with what each one is, in plain words (trade terms: microstrip, stripline,
+/// coplanar). Every kind also takes `--etch-factor` (trapezoidal traces; the field engines model it, the closed
+/// forms do not).
 pub const KINDS: &[(&str, &str)] = &[
     (
         "microstrip",
-        "surface microstrip: --width --height --thickness --dk \
+        "trace on an outer layer: --width --height --thickness --dk \
          [--mask-thickness --mask-dk | --cover --cover-dk]",
     ),
     (
-        "coated-microstrip",
-        "microstrip under solder mask: + --mask-thickness --mask-dk",
+        "microstrip-under-mask",
+        "trace on an outer layer under solder mask: + --mask-thickness --mask-dk",
     ),
     (
-        "embedded-microstrip",
-        "microstrip under more dielectric: + --cover (height above trace) --cover-dk",
+        "microstrip-under-dielectric",
+        "trace over one plane, under more dielectric: + --cover (height above trace) --cover-dk",
     ),
     (
-        "edge-coupled-microstrip",
-        "two traces side by side: --width --spacing --height --thickness --dk \
+        "microstrip-pair",
+        "pair side by side over one plane: --width --spacing --height --thickness --dk \
          [--mask-thickness --mask-dk | --cover --cover-dk]",
     ),
     (
         "stripline",
-        "between two planes: --width --height (below) [--height2 --dk2 (above)] --thickness --dk \
-         [--gap: coplanar grounds]",
+        "trace between two planes: --width --height (below) [--height2 --dk2 (above), off-centre] \
+         --thickness --dk [--gap: coplanar grounds]",
     ),
     (
-        "edge-coupled-stripline",
+        "stripline-pair",
         "pair side by side between two planes: + --spacing [--height2 --dk2 (above)] [--gap]",
     ),
     (
-        "broadside-stripline",
+        "stripline-pair-stacked",
         "pair stacked between two planes: --width --height (above) --separation \
          [--height2 --dk2 (below)] --thickness --dk",
     ),
     (
         "coplanar",
-        "coplanar waveguide, no plane: --width --gap --height (substrate) --thickness --dk",
+        "coplanar trace, ground beside it, no plane: --width --gap --height (substrate) --thickness --dk",
     ),
     (
         "grounded-coplanar",
-        "coplanar waveguide over a plane: --width --gap --height --thickness --dk \
+        "coplanar trace, ground beside it, over a plane: --width --gap --height --thickness --dk \
          [--mask-thickness --mask-dk | --cover --cover-dk]",
     ),
     (
         "coplanar-pair",
-        "coplanar pair with grounds, no plane: --width --spacing --gap --height --thickness --dk",
+        "coplanar pair, ground beside it, no plane: --width --spacing --gap --height --thickness --dk",
     ),
     (
         "grounded-coplanar-pair",
-        "coplanar pair with grounds over a plane: --width --spacing --gap --height --thickness --dk \
+        "coplanar pair, ground beside it, over a plane: --width --spacing --gap --height --thickness --dk \
          [--mask-thickness --mask-dk | --cover --cover-dk]",
     ),
 ];
+
+/// Earlier names of kinds, still read so scripts and saved batch files keep working: (old name, its kind).
+pub const KIND_ALIASES: &[(&str, &str)] = &[
+    ("coated-microstrip", "microstrip-under-mask"),
+    ("embedded-microstrip", "microstrip-under-dielectric"),
+    ("edge-coupled-microstrip", "microstrip-pair"),
+    ("edge-coupled-stripline", "stripline-pair"),
+    ("broadside-stripline", "stripline-pair-stacked"),
+];
+
+/// The kind `name` stands for (itself, or the kind an earlier name now has); `None` when it is no kind.
+pub fn canonical_kind(name: &str) -> Option<&'static str> {
+    KINDS.iter().map(|k| k.0).find(|k| *k == name).or_else(|| {
+        KIND_ALIASES
+            .iter()
+            .find(|(old, _)| *old == name)
+            .map(|(_, new)| *new)
+    })
+}
 
 /// The copper layer a case's trace is on, in its one-rule project.
 pub const TRACE_LAYER: &str = "trace";
@@ -90,7 +110,7 @@ pub struct LineCase {
 fn known_fields(kind: &str) -> Option<&'static [&'static str]> {
     const COVERED: [&str; 4] = ["mask-thickness", "mask-dk", "cover", "cover-dk"];
     Some(match kind {
-        "microstrip" | "coated-microstrip" | "embedded-microstrip" => &[
+        "microstrip" | "microstrip-under-mask" | "microstrip-under-dielectric" => &[
             "width",
             "height",
             "thickness",
@@ -101,7 +121,7 @@ fn known_fields(kind: &str) -> Option<&'static [&'static str]> {
             COVERED[3],
             "etch-factor",
         ],
-        "edge-coupled-microstrip" => &[
+        "microstrip-pair" => &[
             "width",
             "spacing",
             "height",
@@ -148,7 +168,7 @@ fn known_fields(kind: &str) -> Option<&'static [&'static str]> {
             "gap",
             "etch-factor",
         ],
-        "edge-coupled-stripline" => &[
+        "stripline-pair" => &[
             "width",
             "spacing",
             "height",
@@ -159,7 +179,7 @@ fn known_fields(kind: &str) -> Option<&'static [&'static str]> {
             "gap",
             "etch-factor",
         ],
-        "broadside-stripline" => &[
+        "stripline-pair-stacked" => &[
             "width",
             "height",
             "separation",
@@ -218,6 +238,7 @@ pub fn project(
     fields: &BTreeMap<String, String>,
     target: Option<f64>,
 ) -> Result<Project> {
+    let kind = canonical_kind(kind).unwrap_or(kind);
     let Some(known) = known_fields(kind) else {
         let names: Vec<&str> = KINDS.iter().map(|k| k.0).collect();
         return Err(Error::Invalid {
@@ -281,8 +302,8 @@ pub fn project(
         .transpose()?;
     let over = || -> Result<Over> {
         let has = |a: &str, b: &str| fields.contains_key(a) || fields.contains_key(b);
-        let mask = has("mask-thickness", "mask-dk") || kind == "coated-microstrip";
-        let cover = has("cover", "cover-dk") || kind == "embedded-microstrip";
+        let mask = has("mask-thickness", "mask-dk") || kind == "microstrip-under-mask";
+        let cover = has("cover", "cover-dk") || kind == "microstrip-under-dielectric";
         Ok(match (mask, cover) {
             (true, true) => {
                 return Err(Error::Invalid {
@@ -303,13 +324,13 @@ pub fn project(
     };
     let build = match kind {
         "coplanar" | "coplanar-pair" => Build::NoPlane { h, dk },
-        "stripline" | "edge-coupled-stripline" => Build::TwoPlanes {
+        "stripline" | "stripline-pair" => Build::TwoPlanes {
             h,
             dk,
             h2: optional_length("height2")?.unwrap_or(h),
             dk2: dk_of("dk2")?.unwrap_or(dk),
         },
-        "broadside-stripline" => Build::Broadside {
+        "stripline-pair-stacked" => Build::Broadside {
             h,
             dk,
             separation: length("separation")?,
@@ -325,8 +346,8 @@ pub fn project(
     let spacing = || length("spacing");
     let gap = || length("gap");
     let (structure, s, g) = match kind {
-        "edge-coupled-microstrip" => (Structure::EdgePair, Some(spacing()?), None),
-        "edge-coupled-stripline" => match optional_length("gap")? {
+        "microstrip-pair" => (Structure::EdgePair, Some(spacing()?), None),
+        "stripline-pair" => match optional_length("gap")? {
             Some(g) => (Structure::CoplanarPair, Some(spacing()?), Some(g)),
             None => (Structure::EdgePair, Some(spacing()?), None),
         },
@@ -334,7 +355,7 @@ pub fn project(
             Some(g) => (Structure::Coplanar, None, Some(g)),
             None => (Structure::Single, None, None),
         },
-        "broadside-stripline" => (Structure::BroadsidePair, None, None),
+        "stripline-pair-stacked" => (Structure::BroadsidePair, None, None),
         "coplanar" | "grounded-coplanar" => (Structure::Coplanar, None, Some(gap()?)),
         "coplanar-pair" | "grounded-coplanar-pair" => {
             (Structure::CoplanarPair, Some(spacing()?), Some(gap()?))

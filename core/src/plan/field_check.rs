@@ -19,6 +19,8 @@ pub struct RuleCheck {
     pub layer: String,
     pub family: &'static str,
     pub structure: &'static str,
+    /// The line in plain words ([`section::CrossSection::describe`]).
+    pub description: String,
     /// The dimensions solved by the closed form (or as given when there is none), m.
     pub width_m: f64,
     pub spacing_m: Option<f64>,
@@ -35,6 +37,7 @@ struct RuleSetup {
     layer: String,
     family: &'static str,
     structure: &'static str,
+    description: String,
     /// The closed form's measured band for this cross-section (`closed_form::bands`).
     band: Option<f64>,
     dims: Dims,
@@ -63,6 +66,7 @@ impl RuleSetup {
             layer: rule.layer.clone(),
             family: cs.family_for(rule.structure),
             structure: rule.structure.label(),
+            description: cs.describe(rule.structure),
             band: bands::measured_for(&cs, rule.structure, &dims),
             geometry: build(&cs, rule.structure, &dims, etch)?,
             dims,
@@ -86,6 +90,7 @@ impl RuleSetup {
             layer: self.layer.clone(),
             family: self.family,
             structure: self.structure,
+            description: self.description.clone(),
             width_m: self.dims.w,
             spacing_m: self.dims.s,
             gap_m: self.dims.gap,

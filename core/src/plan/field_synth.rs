@@ -475,7 +475,7 @@ mod tests {
         assert_eq!(Project::from_json(&json).unwrap(), q);
         assert!(!p.to_json().contains("\"model\""));
         // The fab notes carry the field-solved width.
-        let notes = crate::output::report::fab_notes(&p, &plan);
+        let notes = crate::output::report::fab_notes(&p, &plan, None);
         let row = notes
             .impedance
             .iter()

@@ -21,8 +21,11 @@ pub struct RuleResult {
     pub layer: String,
     /// Plain family name, e.g. "coated microstrip".
     pub family: &'static str,
-    /// The structure as chosen in the rule, e.g. "edge-coupled pair".
+    /// The structure as chosen in the rule, e.g. "pair side by side".
     pub structure: &'static str,
+    /// The line in plain words, where it sits and its trade name, e.g. "trace on an outer layer under solder mask
+    /// (microstrip)" ([`crate::section::CrossSection::describe`]).
+    pub description: String,
     pub method: &'static str,
     /// The engine's estimated relative error of the impedance, %, when it states one (the field engines; the closed
     /// forms give their measured band in `model_band_pct` instead).
@@ -393,6 +396,7 @@ pub fn rule_figures(
         layer: rule.layer.clone(),
         family: cs.family_for(rule.structure),
         structure: rule.structure.label(),
+        description: cs.describe(rule.structure),
         method,
         error_estimate_pct: None,
         references: cs.references.clone(),

@@ -203,6 +203,52 @@ impl CrossSection {
         }
     }
 
+    /// Plain geometric words for the line and where it sits, with the trade name in brackets: "trace on an outer
+    /// layer under solder mask (microstrip)", "pair side by side between two planes, off-centre (stripline)".
+    /// What the app and the CLI show; [`CrossSection::family`] stays the stable name in JSON and the accuracy bands.
+    pub fn describe(&self, structure: Structure) -> String {
+        let coplanar = matches!(structure, Structure::Coplanar | Structure::CoplanarPair);
+        let (place, trade) = match self.medium {
+            Medium::Microstrip {
+                cover: Cover::Air, ..
+            } => ("on an outer layer, bare", "microstrip"),
+            Medium::Microstrip {
+                cover: Cover::Mask { .. },
+                ..
+            } => ("on an outer layer under solder mask", "microstrip"),
+            Medium::Microstrip {
+                cover: Cover::Dielectric { .. },
+                ..
+            } => ("over one plane, under more dielectric", "microstrip"),
+            Medium::Stripline { dual: true, .. } => (
+                "between two planes, beside another signal layer",
+                "stripline",
+            ),
+            Medium::Stripline {
+                h_below, h_above, ..
+            } if (h_below - h_above).abs() <= 1e-3 * h_below.max(h_above) => {
+                ("between two planes, centred", "stripline")
+            }
+            Medium::Stripline { .. } => ("between two planes, off-centre", "stripline"),
+            Medium::Broadside { .. } => ("between two planes", "stripline"),
+            Medium::NoPlane { .. } => ("with no plane", "coplanar"),
+        };
+        let trade = match (coplanar, self.medium) {
+            (true, Medium::Microstrip { .. }) => "grounded coplanar",
+            (true, _) => "coplanar",
+            (false, _) => trade,
+        };
+        let what = match structure {
+            Structure::Single => "trace",
+            other => other.label(),
+        };
+        if what.starts_with(trade) {
+            format!("{what} {place}")
+        } else {
+            format!("{what} {place} ({trade})")
+        }
+    }
+
     /// The family name as the rule's structure sees it: coplanar rules over a plane are grounded coplanar, not
     /// microstrip; everything else is [`CrossSection::family`].
     pub fn family_for(&self, structure: Structure) -> &'static str {
@@ -639,5 +685,84 @@ mod tests {
         let cs = resolve(&p.stackup, rule).unwrap();
         assert!(cs.family().contains("stripline"), "{}", cs.family());
         assert_eq!(cs.references.len(), 2);
+    }
+
+    fn section(medium: Medium) -> CrossSection {
+        CrossSection {
+            loss: Default::default(),
+            layering: None,
+            medium,
+            t: 35e-6,
+            references: Vec::new(),
+            warnings: Vec::new(),
+        }
+    }
+
+    #[test]
+    fn lines_are_described_in_plain_geometric_words() {
+        let p = demo::project();
+        let top = resolve(&p.stackup, &p.rules[0]).unwrap();
+        assert_eq!(
+            top.describe(Structure::Single),
+            "trace on an outer layer under solder mask (microstrip)"
+        );
+        assert_eq!(
+            top.describe(Structure::EdgePair),
+            "pair side by side on an outer layer under solder mask (microstrip)"
+        );
+        assert_eq!(
+            top.describe(Structure::Coplanar),
+            "coplanar trace on an outer layer under solder mask (grounded coplanar)"
+        );
+        let strip = |h_below: f64, h_above: f64| {
+            section(Medium::Stripline {
+                h_below,
+                h_above,
+                er: 4.0,
+                dual: false,
+            })
+        };
+        assert_eq!(
+            strip(100e-6, 100e-6).describe(Structure::Single),
+            "trace between two planes, centred (stripline)"
+        );
+        assert_eq!(
+            strip(100e-6, 300e-6).describe(Structure::Single),
+            "trace between two planes, off-centre (stripline)"
+        );
+        let broadside = section(Medium::Broadside {
+            h_above: 100e-6,
+            separation: 150e-6,
+            h_below: 100e-6,
+            er: 4.0,
+        });
+        assert_eq!(
+            broadside.describe(Structure::BroadsidePair),
+            "pair stacked between two planes (stripline)"
+        );
+        let bare = section(Medium::NoPlane { h: 1e-3, er: 4.0 });
+        assert_eq!(
+            bare.describe(Structure::CoplanarPair),
+            "coplanar pair with no plane"
+        );
+        // The structure menu's words are plain too; the stable family names stay for JSON and the bands.
+        for s in Structure::ALL {
+            let label = s.label();
+            for product_like in [
+                "edge-coupled",
+                "broadside",
+                "single-ended",
+                "embedded",
+                "coated",
+            ] {
+                assert!(!label.contains(product_like), "{label}");
+                assert!(
+                    !top.describe(s).contains(product_like),
+                    "{}",
+                    top.describe(s)
+                );
+            }
+        }
+        assert_eq!(top.family(), "coated microstrip");
     }
 }

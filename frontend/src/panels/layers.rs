@@ -106,7 +106,7 @@ pub fn Layers(props: &LayersProps) -> Html {
                     .iter()
                     .map(|w| (AttrValue::from(w.to_string()), AttrValue::from(format!("{w} oz"))))
                     .collect();
-                options.push(("custom".into(), format!("≈ {} oz", format_sig(oz, 3)).into()));
+                options.push(("custom".into(), format!("≈ {} oz", format_sig(oz, 2)).into()));
                 let selected: AttrValue = matched.map(|w| w.to_string()).unwrap_or_else(|| "custom".into()).into();
                 let weight = {
                     let d = d.clone();

@@ -6,6 +6,7 @@ pub mod notes;
 pub mod pictures;
 pub mod rules;
 pub mod share;
+pub mod summary;
 pub mod toolbar;
 
 pub use field_check::FieldCheck;

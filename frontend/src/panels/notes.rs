@@ -1,6 +1,10 @@
-//! The fab-notes view: a printable document (title, revision, stack table, impedance table, general notes and
-//! cautions) from the core's `report::fab_notes`, with CSV and Markdown downloads and a print button.
-//! Every name comes from the user and is rendered as text.
+//! The fab-notes view: a printable document (title, revision and today's date, stack table, cross-section drawing,
+//! impedance table with the engine of each row, general notes and cautions) from the core's `report::fab_notes`,
+//! with CSV and Markdown downloads and a print button. Every name comes from the user and is rendered as text; the
+//! drawing is the core's SVG (user text escaped there).
+//!
+//! Printed, the page fits A4 and US Letter: the tables have fixed layouts that wrap inside the page width
+//! (index.html's print rules), checked by tests/python/test_browser_notes.py on Chromium's PDF.
 
 use crate::bridge::{self, NotesView};
 use crate::link;
@@ -39,12 +43,27 @@ fn file_stem(title: &str) -> String {
     }
 }
 
+/// The printed width class of an impedance column (index.html gives each class its share of the page).
+fn column_class(head: &str) -> &'static str {
+    match head {
+        "Net class" => "c-net",
+        "Layer" => "c-layer",
+        "Structure" => "c-structure",
+        "Reference planes" => "c-refs",
+        "Status" => "c-status",
+        "Engine" => "c-engine",
+        _ => "c-num",
+    }
+}
+
 #[component]
 pub fn NotesPanel(props: &NotesProps) -> Html {
+    // The day the page was opened: the notes are issued today (the core reads no clock).
+    let today = use_state(bridge::today);
     let view = use_memo(
-        (props.project.clone(), props.plan.clone()),
-        |(project, plan)| match &**plan {
-            Ok(plan) => Ok(bridge::notes_view(project, plan)),
+        (props.project.clone(), props.plan.clone(), *today),
+        |(project, plan, today)| match &**plan {
+            Ok(plan) => Ok(bridge::notes_view(project, plan, *today)),
             Err(e) => Err(e.clone()),
         },
     );
@@ -94,8 +113,8 @@ pub fn NotesPanel(props: &NotesProps) -> Html {
                 if let Some(m) = &*message { <span class="error">{ m.clone() }</span> }
             </div>
             <h1 class="notes-title" data-testid="notes-title">{ format!("Fab notes: {}", view.title) }</h1>
-            if !view.revision.is_empty() {
-                <p class="notes-revision">{ format!("Revision: {}", view.revision) }</p>
+            if !view.issue.is_empty() {
+                <p class="notes-revision" data-testid="notes-issue">{ view.issue.clone() }</p>
             }
             <h3>{ "Stack" }</h3>
             <table class="notes-stack">
@@ -107,8 +126,16 @@ pub fn NotesPanel(props: &NotesProps) -> Html {
                 </tbody>
             </table>
             <p class="notes-total">{ format!("Total thickness: {}", view.total) }</p>
+            <figure class="notes-drawing" data-testid="notes-drawing">
+            { match &view.drawing {
+                Ok(svg) => Html::from_html_unchecked(AttrValue::from(svg.clone())),
+                Err(e) => html! { <p class="error">{ format!("No drawing: {e}") }</p> },
+            } }
+                <figcaption>{ "Cross-section of the stack (layer heights not to scale)." }</figcaption>
+            </figure>
             <h3>{ "Controlled impedance" }</h3>
             <table class="notes-impedance" data-testid="notes-impedance">
+                <colgroup>{ for view.impedance_head.iter().map(|h| html! { <col class={column_class(h)} /> }) }</colgroup>
                 <thead><tr>{ for view.impedance_head.iter().map(|h| html! { <th>{ *h }</th> }) }</tr></thead>
                 <tbody>
                 { for view.impedance.iter().map(|(row, bad)| html! {

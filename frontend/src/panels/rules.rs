@@ -139,7 +139,7 @@ fn results(i: usize, r: &RuleResult, project: &Project) -> Html {
             }
             <div class="rule-notes">
                 { verdict }
-                <span class="family">{ format!("{} · {}", r.family, r.method) }</span>
+                <span class="family">{ format!("{} · {}", r.description, r.method) }</span>
                 if r.references.is_empty() {
                     <span class="refs">{ " · no reference plane" }</span>
                 } else {

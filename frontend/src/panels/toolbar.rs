@@ -1,4 +1,4 @@
-//! The header: project title, file commands (new, open, save), undo/redo, display unit, analysis frequency and
+//! The header: project title and revision, file commands (new, open, save), undo/redo, display unit, analysis frequency and
 //! fabrication limits, the recent-projects menu, the status line and the notice that another tab changed this
 //! project.
 
@@ -105,6 +105,8 @@ pub fn Toolbar(props: &ToolbarProps) -> Html {
                 <h1>{ "Ohmstack" }</h1>
                 <TextField field={Field::Title} label="Project title" hidden_label=true size="title" value={p.title.clone()}
                     draft={draft(Field::Title)} dispatch={d.clone()} />
+                <TextField field={Field::Revision} label="Revision" hidden_label=true size="narrow" value={p.revision.clone()}
+                    placeholder={AttrValue::from("Revision")} draft={draft(Field::Revision)} dispatch={d.clone()} />
                 <nav class="commands no-print" aria-label="Project commands">
                     <button type="button" id="new-demo" onclick={click(&props.on_demo)}>{ "New from demo" }</button>
                     <button type="button" id="new-blank" onclick={click(&props.on_blank)}>{ "New blank" }</button>
