@@ -62,7 +62,7 @@ pub fn run(args: Args) -> Result<()> {
                     format!(
                         "{} {}",
                         r.family,
-                        match r.structure {
+                        match &*r.structure {
                             "single-ended" | "coplanar single-ended" => "",
                             "coplanar pair" => "pair",
                             other => other,

@@ -12,24 +12,25 @@ use crate::plan::spread::summary::SpreadSummary;
 use crate::plan::synthesis;
 use crate::section::lines::{reflection, return_loss_db, SingleLine};
 use crate::section::{self, Analysis, CrossSection, Dims};
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
+use std::borrow::Cow;
 
 /// The computed figures of one rule.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct RuleResult {
     pub name: String,
     pub layer: String,
     /// Plain family name, e.g. "coated microstrip".
-    pub family: &'static str,
+    pub family: Cow<'static, str>,
     /// The structure as chosen in the rule, e.g. "edge-coupled pair".
-    pub structure: &'static str,
-    pub method: &'static str,
+    pub structure: Cow<'static, str>,
+    pub method: Cow<'static, str>,
     pub references: Vec<String>,
     pub width_m: f64,
     pub spacing_m: Option<f64>,
     pub gap_m: Option<f64>,
     /// Which dimension synthesis solved, if any.
-    pub solved: Option<&'static str>,
+    pub solved: Option<Cow<'static, str>>,
     pub target_ohm: f64,
     pub tolerance_pct: f64,
     /// The controlled impedance (Z0, or Zdiff for pairs), Ω.
@@ -67,7 +68,7 @@ pub struct RuleResult {
 }
 
 /// One rule's outcome: figures, or the reason it could not be computed.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 #[serde(tag = "status", rename_all = "snake_case")]
 pub enum RuleOutcome {
     Ok(Box<RuleResult>),
@@ -75,7 +76,7 @@ pub enum RuleOutcome {
 }
 
 /// The fast field engine's answer for a rule's closed-form dimensions.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct FieldCheck {
     /// The controlled impedance by the field engine, Ω.
     pub impedance_ohm: f64,
@@ -96,7 +97,7 @@ pub fn field_check(
     rule: &ImpedanceRule,
     result: &RuleResult,
 ) -> Result<Option<FieldCheck>> {
-    if crate::engine::is_field_method(result.method) {
+    if crate::engine::is_field_method(&result.method) {
         return Ok(None);
     }
     let dims = Dims {
@@ -323,14 +324,14 @@ pub fn rule_figures(
         field_check: None,
         name: rule.name.clone(),
         layer: rule.layer.clone(),
-        family: cs.family_for(rule.structure),
-        structure: rule.structure.label(),
-        method,
+        family: cs.family_for(rule.structure).into(),
+        structure: rule.structure.label().into(),
+        method: method.into(),
         references: cs.references.clone(),
         width_m: dims.w,
         spacing_m: dims.s,
         gap_m: dims.gap,
-        solved,
+        solved: solved.map(Cow::Borrowed),
         target_ohm: rule.target_ohm,
         tolerance_pct: rule.tolerance_pct,
         impedance_ohm: z,
