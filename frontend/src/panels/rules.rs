@@ -17,6 +17,9 @@ pub struct RulesProps {
     pub plan: Option<Rc<Plan>>,
     /// True when the figures are from the last good entry, not the current text.
     pub stale: bool,
+    /// Per rule: its figures are the closed-form preview, and the field engine's are still being computed.
+    #[prop_or_default]
+    pub pending: Rc<Vec<bool>>,
     pub dispatch: Callback<Action>,
     /// Receives the potential map of each finished field check.
     #[prop_or_default]
@@ -51,10 +54,10 @@ fn figure(i: usize, key: &str, label: &str, text: String, value: Option<f64>) ->
     }
 }
 
-fn results(i: usize, r: &RuleResult, project: &Project) -> Html {
+fn results(i: usize, r: &RuleResult, project: &Project, pending: bool) -> Html {
     let unit = project.units;
     let pair = bridge::z_common(r).is_some();
-    let solved = |what: &str| r.solved == Some(what);
+    let solved = |what: &str| r.solved.as_deref() == Some(what);
     let mark = |what: &str| if solved(what) { " (solved)" } else { "" };
     let delay_ps_per_mm = r.delay_s_per_m * 1e9;
     let delay_ps_per_in = r.delay_s_per_m * 0.0254 * 1e12;
@@ -74,7 +77,11 @@ fn results(i: usize, r: &RuleResult, project: &Project) -> Html {
         }
     };
     html! {
-        <div class="rule-results">
+        <div class={classes!("rule-results", pending.then_some("pending"))} aria-busy={pending.to_string()}>
+            if pending {
+                <p class="pending-tag" role="status" data-testid={format!("rule-{i}-pending")}
+                    title="closed-form preview; the 2D field engine's figures replace it when they land">{ "field engine…" }</p>
+            }
             <div class="figures">
                 { figure(i, "width", &format!("Width{}", mark("width")), bridge::length_label(r.width_m, unit), Some(r.width_m)) }
                 if let (Some(s), true) = (r.spacing_m, pair) {
@@ -224,8 +231,9 @@ pub fn Rules(props: &RulesProps) -> Html {
         let width_label = if rule.solve == Solve::Width { "Start width" } else { "Width" };
         let spacing_label = if rule.solve == Solve::Spacing { "Start spacing" } else { "Spacing" };
         let outcome = props.plan.as_ref().and_then(|p| p.rules.get(i));
+        let waiting = props.pending.get(i).copied().unwrap_or(false);
         let body = match outcome {
-            Some(RuleOutcome::Ok(r)) => results(i, r, project),
+            Some(RuleOutcome::Ok(r)) => results(i, r, project, waiting),
             Some(RuleOutcome::Error { message, .. }) => html! {
                 <p class="error rule-error" data-testid={format!("rule-{i}-error")}>{ message.clone() }</p>
             },
@@ -249,7 +257,8 @@ pub fn Rules(props: &RulesProps) -> Html {
             html! {}
         };
         html! {
-            <li class={classes!("rule-card", props.stale.then_some("stale"))} data-testid={format!("rule-card-{i}")} aria-label={title.clone()}>
+            <li class={classes!("rule-card", props.stale.then_some("stale"))} data-testid={format!("rule-card-{i}")} aria-label={title.clone()}
+                data-field={if waiting { "pending" } else { "landed" }}>
                 <div class="rule-inputs">
                     <TextField field={Field::Rule(i, RuleField::Name)} label="Net class" size="wide" value={rule.name.clone()}
                         draft={draft(Field::Rule(i, RuleField::Name))} dispatch={d.clone()} />
