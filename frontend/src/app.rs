@@ -5,7 +5,7 @@ use crate::bridge;
 use crate::panels::{Layers, Rules, Toolbar};
 use crate::persist;
 use crate::plan_client::{self, PlanClient};
-use crate::plan_jobs::FieldPlan;
+use crate::plan_jobs::{FieldPlan, Previewer, RowState};
 use crate::state::{self, Action, Notice};
 use ohmstack_core::Plan;
 use std::rc::Rc;
@@ -35,9 +35,13 @@ impl Reducible for FieldState {
             plan_client::Event::Submitted(generation, project) => {
                 next.plan.submitted(generation, *project)
             }
-            plan_client::Event::Update(update) => {
+            plan_client::Event::Updates(updates) => {
                 // Results for an older generation are dropped without a render.
-                if !next.plan.apply(update) {
+                let mut taken = false;
+                for update in updates {
+                    taken |= next.plan.apply(update);
+                }
+                if !taken {
                     return self;
                 }
             }
@@ -116,7 +120,10 @@ pub fn App() -> Html {
     // The closed-form preview follows every keystroke at once; the field figures (field check and tolerance
     // spread, every rule on its engine) come from the plan worker rule by rule and replace the preview's row by
     // row as they land (plan_client.rs, plan_jobs.rs).
-    let preview = use_memo(state.project.clone(), bridge::analyse_preview);
+    let previewer = use_mut_ref(Previewer::default);
+    let preview = use_memo(state.project.clone(), move |p| {
+        previewer.borrow_mut().plan(p)
+    });
     let field = use_reducer(FieldState::default);
     let planner = use_mut_ref(|| None::<PlanClient>);
     let generation = use_mut_ref(|| 0u64);
@@ -162,20 +169,20 @@ pub fn App() -> Html {
         _ => None,
     };
     let settled = field.plan.settled_for(&state.project);
-    let (plan, pending): (Rc<Result<Plan, String>>, Rc<Vec<bool>>) = match &*preview {
+    let (plan, rows): (Rc<Result<Plan, String>>, Rc<Vec<RowState>>) = match &*preview {
         Ok(p) => {
-            let (merged, pending) = field.plan.merge(&state.project, p);
-            (Rc::new(Ok(merged)), Rc::new(pending))
+            let (merged, rows) = field.plan.merge(&state.project, p);
+            (Rc::new(Ok(merged)), Rc::new(rows))
         }
         Err(e) => (Rc::new(Err(e.clone())), Rc::new(Vec::new())),
     };
     // The last plan that computed, shown greyed while the current one cannot be.
-    let last_good = use_mut_ref(|| None::<(Rc<Plan>, Rc<Vec<bool>>)>);
-    let (shown, pending, plan_error) = match &*plan {
+    let last_good = use_mut_ref(|| None::<(Rc<Plan>, Rc<Vec<RowState>>)>);
+    let (shown, rows, plan_error) = match &*plan {
         Ok(p) => {
             let p = Rc::new(p.clone());
-            *last_good.borrow_mut() = Some((p.clone(), pending.clone()));
-            (Some(p), pending, None)
+            *last_good.borrow_mut() = Some((p.clone(), rows.clone()));
+            (Some(p), rows, None)
         }
         Err(e) => {
             let kept = last_good.borrow().clone();
@@ -497,7 +504,7 @@ pub fn App() -> Html {
             }
             <crate::panels::share::SharePanel project={project.clone()} on_load={on_load} saved_work={(*saved_work).clone()} />
             <Layers project={project.clone()} drafts={drafts.clone()} plan={shown.clone()} dispatch={dispatch.clone()} />
-            <Rules project={project.clone()} drafts={drafts} plan={shown} {pending} {stale} dispatch={dispatch} {on_field_map} />
+            <Rules project={project.clone()} drafts={drafts} plan={shown} {rows} {stale} dispatch={dispatch} {on_field_map} />
             <crate::panels::pictures::PicturesPanel project={project.clone()} plan={plan_rc.clone()} field_map={current_map} />
             <crate::panels::notes::NotesPanel project={project} plan={plan_rc} />
             <footer class="cautions">

@@ -22,10 +22,14 @@ pub fn plan_one_rule(
     ohmstack_core::plan::plan_rule(project, rule, options)
 }
 
-/// The instant plan: every rule on the closed form, no spread (microseconds a rule), recomputed on every keystroke
-/// and shown while the plan worker computes the field figures.
-pub fn analyse_preview(project: &Project) -> Result<Plan, String> {
-    plan_with(project, &PlanOptions::preview()).map_err(|e| e.to_string())
+/// The plan's stack rows, thickness and symmetry without any rule (the rules' rows are added by the caller); a
+/// stack that cannot be planned is its error message.
+pub fn plan_without_rules(project: &Project) -> Result<Plan, String> {
+    let bare = Project {
+        rules: Vec::new(),
+        ..project.clone()
+    };
+    plan_with(&bare, &PlanOptions::preview()).map_err(|e| e.to_string())
 }
 
 /// True when `text` ends in a digit or a decimal point, i.e. carries no unit word.
@@ -224,7 +228,7 @@ mod tests {
             assert!(lo < r.impedance_ohm && r.impedance_ohm < hi);
         }
         // Without a spread (the preview) there is none to read.
-        let quick = analyse_preview(&p).unwrap();
+        let quick = plan_with(&p, &PlanOptions::preview()).unwrap();
         assert!(spread_of(quick.rules[0].ok().unwrap()).is_none());
     }
 

@@ -34,7 +34,8 @@ impl Runner {
 pub enum Event {
     Started(Runner),
     Submitted(u64, Box<Project>),
-    Update(Update),
+    /// Updates that arrived together (rendered at once).
+    Updates(Vec<Update>),
     Fallback(String),
 }
 
@@ -112,12 +113,12 @@ impl PlanClient {
     fn attach(&self, worker: Worker) {
         let on_event = self.inner.borrow().on_event.clone();
         let on_message = Closure::<dyn FnMut(MessageEvent)>::new(move |e: MessageEvent| {
-            match serde_wasm_bindgen::from_value::<Update>(e.data()) {
-                Ok(update) => on_event(Event::Update(update)),
-                Err(err) => on_event(Event::Update(Update::Failed {
+            match serde_wasm_bindgen::from_value::<Vec<Update>>(e.data()) {
+                Ok(updates) => on_event(Event::Updates(updates)),
+                Err(err) => on_event(Event::Updates(vec![Update::Failed {
                     generation: 0,
                     message: format!("a plan worker message could not be read: {err}"),
-                })),
+                }])),
             }
         });
         // A worker the page's policy refuses, or one that crashes, reports here: plan on the page instead.
@@ -207,15 +208,15 @@ fn start_local(on_event: Rc<dyn Fn(Event)>) -> Option<Local> {
         let (planner, queued, port) = (planner.clone(), queued.clone(), channel.port2());
         Closure::<dyn FnMut(MessageEvent)>::new(move |_| {
             *queued.borrow_mut() = false;
-            let (update, busy) = {
+            let (batch, busy) = {
                 let mut p = planner.borrow_mut();
-                (p.step(), p.busy())
+                (p.run_batch(), p.busy())
             };
             if busy && !queued.replace(true) {
                 let _ = port.post_message(&JsValue::NULL);
             }
-            if let Some(update) = update {
-                on_event(Event::Update(update));
+            if !batch.is_empty() {
+                on_event(Event::Updates(batch));
             }
         })
     };

@@ -19,14 +19,17 @@ pub struct Request {
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 #[serde(tag = "kind", rename_all = "snake_case")]
 pub enum Update {
-    /// One rule's outcome on the field engine (with its field check and tolerance spread).
+    /// One rule's outcome on the field engine: first its nominal figures (with the field check), then the same
+    /// with the tolerance spread, which takes far longer (`complete`).
     Rule {
         generation: u64,
         index: usize,
         outcome: Box<RuleOutcome>,
+        /// True when the outcome carries everything the options ask (the spread too).
+        complete: bool,
         /// False when the outcome came from the cache (nothing the rule depends on changed).
         computed: bool,
-        /// Rules computed (not taken from the cache) since the worker started.
+        /// Rules computed in full (not taken from the cache) since the worker started.
         computations: u64,
     },
     /// Every rule of the generation has been reported.
@@ -103,6 +106,8 @@ struct Job {
     generation: u64,
     project: Project,
     next: usize,
+    /// Rule `next` has posted its nominal figures; its spread is due.
+    spread_due: bool,
 }
 
 /// The worker's state: the newest request, how far it got, and the cache. Each [`Planner::step`] does one rule, so
@@ -156,6 +161,7 @@ impl Planner {
                     generation: request.generation,
                     project,
                     next: 0,
+                    spread_due: false,
                 })
             }
             Err(message) => self.failure = Some((request.generation, message)),
@@ -173,8 +179,29 @@ impl Planner {
         self.computations
     }
 
-    /// Plans the next rule of the current job (from the cache when nothing it depends on changed), or reports the
-    /// job done; `None` when idle.
+    /// Steps until something has been computed (or the job ends, or there is nothing to do): rules taken from the
+    /// cache cost next to nothing, so they travel with the next computed row as one message and one render.
+    pub fn run_batch(&mut self) -> Vec<Update> {
+        let mut batch = Vec::new();
+        while let Some(update) = self.step() {
+            let end = !matches!(
+                update,
+                Update::Rule {
+                    computed: false,
+                    ..
+                }
+            );
+            batch.push(update);
+            if end {
+                break;
+            }
+        }
+        batch
+    }
+
+    /// The next piece of the current job: a rule from the cache; or a rule's nominal figures on its engine with
+    /// the field check (milliseconds), then in the next step its tolerance spread (the slow part); or the job's
+    /// end. `None` when idle.
     pub fn step(&mut self) -> Option<Update> {
         if let Some((generation, message)) = self.failure.take() {
             return Some(Update::Failed {
@@ -192,34 +219,91 @@ impl Planner {
             });
         };
         let index = job.next;
-        job.next += 1;
         let key = rule_key(&job.project, rule, &self.options);
-        let (outcome, computed) = match self.cache.get(&key) {
-            Some(hit) => (hit, false),
-            None => {
-                let outcome = plan_one_rule(&job.project, rule, &self.options);
+        let nominal = PlanOptions {
+            spread_samples: 0,
+            ..self.options
+        };
+        let (outcome, complete, computed) = if job.spread_due {
+            (plan_one_rule(&job.project, rule, &self.options), true, true)
+        } else if let Some(hit) = self.cache.get(&key) {
+            (hit, true, false)
+        } else if nominal == self.options {
+            (plan_one_rule(&job.project, rule, &self.options), true, true)
+        } else {
+            let outcome = plan_one_rule(&job.project, rule, &nominal);
+            // A rule that cannot be computed has no spread to follow.
+            let complete = matches!(outcome, RuleOutcome::Error { .. });
+            (outcome, complete, true)
+        };
+        if complete {
+            job.next += 1;
+            job.spread_due = false;
+            if computed {
                 self.computations += 1;
                 self.cache.put(key, outcome.clone());
-                (outcome, true)
             }
-        };
+        } else {
+            job.spread_due = true;
+        }
         Some(Update::Rule {
             generation: job.generation,
             index,
             outcome: Box::new(outcome),
+            complete,
             computed,
             computations: self.computations,
         })
     }
 }
 
+/// The closed-form preview with its rows cached by [`rule_key`]: a keystroke in one rule recomputes that rule's
+/// preview only (a closed form of a broadside or coupled stripline takes milliseconds, sixteen of them a frame).
+#[derive(Debug, Default)]
+pub struct Previewer {
+    cache: RuleCache,
+}
+
+impl Previewer {
+    /// The same plan as `plan_with(project, &PlanOptions::preview())`.
+    pub fn plan(&mut self, project: &Project) -> Result<ohmstack_core::Plan, String> {
+        let options = PlanOptions::preview();
+        // The plan's own rows (stack table, thickness, symmetry) without any rule: cheap, and the stack's check.
+        let mut plan = crate::bridge::plan_without_rules(project)?;
+        plan.rules = project
+            .rules
+            .iter()
+            .map(|rule| {
+                let key = rule_key(project, rule, &options);
+                self.cache.get(&key).unwrap_or_else(|| {
+                    let outcome = plan_one_rule(project, rule, &options);
+                    self.cache.put(key, outcome.clone());
+                    outcome
+                })
+            })
+            .collect();
+        Ok(plan)
+    }
+}
+
+/// Where a rule's row on screen stands.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum RowState {
+    /// The closed-form preview; the field engine's figures are being computed.
+    Preview,
+    /// The field engine's nominal figures; the tolerance spread is being computed.
+    Nominal,
+    /// Everything in.
+    Final,
+}
+
 /// The page's view of the field plan: the generation it asked for last, the project of that generation, and the
-/// rules landed so far. Updates of any other generation are dropped.
+/// rules landed so far (with whether each is complete). Updates of any other generation are dropped.
 #[derive(Debug, Clone, Default, PartialEq)]
 pub struct FieldPlan {
     pub generation: u64,
     pub project: Option<Project>,
-    pub rules: Vec<Option<RuleOutcome>>,
+    pub rules: Vec<Option<(RuleOutcome, bool)>>,
     /// Every rule of the generation has landed (or the request failed).
     pub done: bool,
     /// Rules the worker computed since it started (cache hits not counted).
@@ -248,12 +332,13 @@ impl FieldPlan {
             Update::Rule {
                 index,
                 outcome,
+                complete,
                 computations,
                 ..
             } => {
                 self.computations = self.computations.max(computations);
                 match self.rules.get_mut(index) {
-                    Some(slot) => *slot = Some(*outcome),
+                    Some(slot) => *slot = Some((*outcome, complete)),
                     None => return false,
                 }
             }
@@ -270,31 +355,35 @@ impl FieldPlan {
     }
 
     /// The plan to show for `project`: `preview` (the closed form, computed on the page) with every rule whose
-    /// field outcome has landed replaced by it, and for each rule whether it is still waiting. When the field plan
-    /// is for another project, every rule is waiting.
+    /// field outcome has landed replaced by it, and where each row stands. When the field plan is for another
+    /// project, every row is the preview's; after a failed request the preview is final (nothing is coming).
     pub fn merge(
         &self,
         project: &Project,
         preview: &ohmstack_core::Plan,
-    ) -> (ohmstack_core::Plan, Vec<bool>) {
+    ) -> (ohmstack_core::Plan, Vec<RowState>) {
         let mut plan = preview.clone();
         let current = self.project.as_ref() == Some(project);
-        let pending = plan
+        let states = plan
             .rules
             .iter_mut()
             .enumerate()
             .map(
                 |(i, row)| match self.rules.get(i).and_then(|r| r.as_ref()) {
-                    Some(field) if current => {
+                    Some((field, complete)) if current => {
                         *row = field.clone();
-                        false
+                        if *complete || self.done {
+                            RowState::Final
+                        } else {
+                            RowState::Nominal
+                        }
                     }
-                    // A failed request leaves the preview as the answer: nothing is coming.
-                    _ => !(current && self.done),
+                    _ if current && self.done => RowState::Final,
+                    _ => RowState::Preview,
                 },
             )
             .collect();
-        (plan, pending)
+        (plan, states)
     }
 
     /// Every rule of `project` has its field figures (or nothing more is coming for it).
@@ -325,32 +414,93 @@ mod tests {
     }
 
     #[test]
-    fn every_rule_is_reported_then_done_and_equals_the_whole_plan() {
-        let p = demo::project();
+    fn every_rule_lands_nominal_then_complete_and_equals_the_whole_plan() {
+        let mut p = demo::project();
+        // An unreachable target: an error row, final at once (no spread follows).
+        p.rules[1].target_ohm = 400.0;
         let mut planner = Planner::default();
         planner.request(&request(1, &p));
         let updates = run(&mut planner);
         let whole = ohmstack_core::plan_with(&p, &options()).unwrap();
-        assert_eq!(updates.len(), p.rules.len() + 1);
-        for (i, u) in updates[..p.rules.len()].iter().enumerate() {
+        let mut seen = Vec::new();
+        for u in &updates[..updates.len() - 1] {
             match u {
                 Update::Rule {
-                    generation,
+                    generation: 1,
                     index,
                     outcome,
-                    computed,
+                    complete,
+                    computed: true,
                     ..
                 } => {
-                    assert_eq!((*generation, *index, *computed), (1, i, true));
-                    assert_eq!(**outcome, whole.rules[i]);
+                    seen.push((*index, *complete));
+                    if *complete {
+                        assert_eq!(**outcome, whole.rules[*index]);
+                    } else {
+                        // The nominal figures: everything but the spread, already on the field engine's word.
+                        let mut expected = whole.rules[*index].clone();
+                        if let RuleOutcome::Ok(r) = &mut expected {
+                            r.spread = None;
+                            r.warnings
+                                .retain(|w| !w.message.starts_with("tolerance spread"));
+                        }
+                        assert_eq!(**outcome, expected);
+                    }
                 }
-                other => panic!("expected a rule, got {other:?}"),
+                other => panic!("expected a computed rule, got {other:?}"),
             }
         }
+        let mut expected = Vec::new();
+        for i in 0..p.rules.len() {
+            if i != 1 {
+                expected.push((i, false));
+            }
+            expected.push((i, true));
+        }
+        assert_eq!(seen, expected);
         assert!(
             matches!(updates.last(), Some(Update::Done { generation: 1, computations }) if *computations == p.rules.len() as u64)
         );
         assert!(!planner.busy() && planner.step().is_none());
+        // Asked again, every complete row comes from the cache in one batch with the end.
+        planner.request(&request(2, &p));
+        let batch = planner.run_batch();
+        assert_eq!(batch.len(), p.rules.len() + 1);
+        assert!(batch[..p.rules.len()].iter().all(|u| matches!(
+            u,
+            Update::Rule {
+                complete: true,
+                computed: false,
+                ..
+            }
+        )));
+    }
+
+    #[test]
+    fn a_newer_request_between_the_nominal_figures_and_the_spread_drops_the_spread() {
+        let p = demo::project();
+        let mut q = p.clone();
+        q.rules[0].target_ohm += 1.0;
+        let mut planner = Planner::default();
+        planner.request(&request(1, &p));
+        assert!(matches!(
+            planner.step(),
+            Some(Update::Rule {
+                index: 0,
+                complete: false,
+                ..
+            })
+        ));
+        planner.request(&request(2, &q));
+        assert!(matches!(
+            planner.step(),
+            Some(Update::Rule {
+                generation: 2,
+                index: 0,
+                complete: false,
+                ..
+            })
+        ));
     }
 
     #[test]
@@ -439,33 +589,87 @@ mod tests {
         let updates = run(&mut planner);
         let mut field = FieldPlan::default();
         field.submitted(2, p.clone());
-        let (shown, pending) = field.merge(&p, &preview);
+        let (shown, states) = field.merge(&p, &preview);
         assert_eq!(shown, preview);
-        assert!(pending.iter().all(|&w| w));
+        assert!(states.iter().all(|&s| s == RowState::Preview));
         // A late update of an older generation changes nothing.
         let mut old = updates[0].clone();
         if let Update::Rule { generation, .. } = &mut old {
             *generation = 1;
         }
         assert!(!field.apply(old));
+        // Rule 0's nominal field figures, then its spread.
         assert!(field.apply(updates[0].clone()));
-        let (shown, pending) = field.merge(&p, &preview);
-        assert!(!pending[0]);
-        assert!(pending[1..].iter().all(|&w| w));
+        let (shown, states) = field.merge(&p, &preview);
+        assert_eq!(states[0], RowState::Nominal);
+        assert!(states[1..].iter().all(|&s| s == RowState::Preview));
+        assert!(shown.rules[0].ok().unwrap().field_check.is_some());
+        assert!(shown.rules[0].ok().unwrap().spread.is_none());
+        assert!(field.apply(updates[1].clone()));
+        let (shown, states) = field.merge(&p, &preview);
+        assert_eq!(states[0], RowState::Final);
         assert!(shown.rules[0].ok().unwrap().spread.is_some());
-        assert!(shown.rules[1].ok().unwrap().spread.is_none());
-        for u in updates[1..].iter().cloned() {
+        assert!(shown.rules[1].ok().unwrap().field_check.is_none());
+        for u in updates[2..].iter().cloned() {
+            assert!(!field.settled_for(&p));
             assert!(field.apply(u));
         }
         assert!(field.settled_for(&p));
-        let (shown, pending) = field.merge(&p, &preview);
-        assert!(pending.iter().all(|&w| !w));
+        let (shown, states) = field.merge(&p, &preview);
+        assert!(states.iter().all(|&s| s == RowState::Final));
         assert_eq!(shown, ohmstack_core::plan_with(&p, &options()).unwrap());
         // Another project on screen: the figures are not merged over it.
         let mut q = p.clone();
         q.rules[0].target_ohm += 1.0;
         assert!(!field.settled_for(&q));
-        assert!(field.merge(&q, &preview).1.iter().all(|&w| w));
+        assert!(field
+            .merge(&q, &preview)
+            .1
+            .iter()
+            .all(|&s| s == RowState::Preview));
+    }
+
+    #[test]
+    fn cache_hits_travel_with_the_next_computed_rule() {
+        let mut p = demo::project();
+        let mut planner = planner();
+        planner.request(&request(1, &p));
+        // Nothing cached: one rule a batch, then the end.
+        let mut sizes = Vec::new();
+        while planner.busy() {
+            sizes.push(planner.run_batch().len());
+        }
+        assert_eq!(sizes, [vec![1; p.rules.len()], vec![1]].concat());
+        // Only the last rule changed: every row before it comes in the batch that carries it, then the end.
+        let last = p.rules.len() - 1;
+        p.rules[last].target_ohm += 1.0;
+        planner.request(&request(2, &p));
+        let batch = planner.run_batch();
+        assert_eq!(batch.len(), p.rules.len());
+        assert!(
+            matches!(batch.last(), Some(Update::Rule { computed: true, index, .. }) if *index == last)
+        );
+        assert!(matches!(
+            planner.run_batch()[..],
+            [Update::Done { generation: 2, .. }]
+        ));
+        assert!(planner.run_batch().is_empty());
+    }
+
+    #[test]
+    fn the_cached_preview_is_the_preview_plan() {
+        let mut p = demo::project();
+        let mut previewer = Previewer::default();
+        let options = ohmstack_core::PlanOptions::preview();
+        for step in 0..3 {
+            let i = step % p.rules.len();
+            p.rules[i].target_ohm += 0.5;
+            p.title = format!("step {step}");
+            let whole = ohmstack_core::plan_with(&p, &options).unwrap();
+            assert_eq!(previewer.plan(&p).unwrap(), whole);
+        }
+        p.stackup.layers.clear();
+        assert!(previewer.plan(&p).is_err());
     }
 
     #[test]

@@ -74,15 +74,15 @@ fn queue_step() {
     });
 }
 
-/// One rule (or the job's end), then a yield before the next.
+/// One computed rule (with the cached rows before it, or the job's end), then a yield before the next.
 fn step() {
     QUEUED.with(|q| q.set(false));
-    let (update, busy) = PLANNER.with(|p| {
+    let (batch, busy) = PLANNER.with(|p| {
         let mut p = p.borrow_mut();
-        (p.step(), p.busy())
+        (p.run_batch(), p.busy())
     });
-    if let Some(update) = update {
-        post(&js_sys::global().unchecked_into(), &update);
+    if !batch.is_empty() {
+        post_batch(&js_sys::global().unchecked_into(), &batch);
     }
     if busy {
         queue_step();
@@ -90,16 +90,21 @@ fn step() {
 }
 
 fn post(scope: &DedicatedWorkerGlobalScope, update: &Update) {
-    match serde_wasm_bindgen::to_value(update) {
+    post_batch(scope, std::slice::from_ref(update));
+}
+
+/// Posts updates as one message (a list), so the page renders them at once.
+fn post_batch(scope: &DedicatedWorkerGlobalScope, batch: &[Update]) {
+    match serde_wasm_bindgen::to_value(batch) {
         Ok(value) => {
             // Posting can only fail for values that cannot be cloned, which plain data is not.
             let _ = scope.post_message(&value);
         }
         Err(e) => {
-            let failed = Update::Failed {
-                generation: update.generation(),
+            let failed = [Update::Failed {
+                generation: batch.first().map_or(0, Update::generation),
                 message: format!("the plan worker could not send its result: {e}"),
-            };
+            }];
             if let Ok(value) = serde_wasm_bindgen::to_value(&failed) {
                 let _ = scope.post_message(&value);
             }

@@ -1,6 +1,7 @@
 //! The impedance rules: one card per controlled net class, its inputs on top and its computed figures below.
 
 use crate::bridge;
+use crate::plan_jobs::RowState;
 use crate::state::{Action, Draft, Field, RuleField};
 use crate::widgets::{Select, TextField};
 use ohmstack_core::base::units::format_sig;
@@ -17,9 +18,9 @@ pub struct RulesProps {
     pub plan: Option<Rc<Plan>>,
     /// True when the figures are from the last good entry, not the current text.
     pub stale: bool,
-    /// Per rule: its figures are the closed-form preview, and the field engine's are still being computed.
+    /// Per rule: where its figures stand (closed-form preview, field figures without the spread yet, or final).
     #[prop_or_default]
-    pub pending: Rc<Vec<bool>>,
+    pub rows: Rc<Vec<RowState>>,
     pub dispatch: Callback<Action>,
     /// Receives the potential map of each finished field check.
     #[prop_or_default]
@@ -54,7 +55,7 @@ fn figure(i: usize, key: &str, label: &str, text: String, value: Option<f64>) ->
     }
 }
 
-fn results(i: usize, r: &RuleResult, project: &Project, pending: bool) -> Html {
+fn results(i: usize, r: &RuleResult, project: &Project, state: RowState) -> Html {
     let unit = project.units;
     let pair = bridge::z_common(r).is_some();
     let solved = |what: &str| r.solved.as_deref() == Some(what);
@@ -77,10 +78,14 @@ fn results(i: usize, r: &RuleResult, project: &Project, pending: bool) -> Html {
         }
     };
     html! {
-        <div class={classes!("rule-results", pending.then_some("pending"))} aria-busy={pending.to_string()}>
-            if pending {
+        <div class={classes!("rule-results", (state == RowState::Preview).then_some("pending"))} aria-busy={(state != RowState::Final).to_string()}>
+            if state == RowState::Preview {
                 <p class="pending-tag" role="status" data-testid={format!("rule-{i}-pending")}
                     title="closed-form preview; the 2D field engine's figures replace it when they land">{ "field engine…" }</p>
+            }
+            if state == RowState::Nominal {
+                <p class="pending-tag" role="status" data-testid={format!("rule-{i}-spread-pending")}
+                    title="the field engine's figures are in; the tolerance spread follows">{ "tolerance spread…" }</p>
             }
             <div class="figures">
                 { figure(i, "width", &format!("Width{}", mark("width")), bridge::length_label(r.width_m, unit), Some(r.width_m)) }
@@ -231,9 +236,9 @@ pub fn Rules(props: &RulesProps) -> Html {
         let width_label = if rule.solve == Solve::Width { "Start width" } else { "Width" };
         let spacing_label = if rule.solve == Solve::Spacing { "Start spacing" } else { "Spacing" };
         let outcome = props.plan.as_ref().and_then(|p| p.rules.get(i));
-        let waiting = props.pending.get(i).copied().unwrap_or(false);
+        let row = props.rows.get(i).copied().unwrap_or(RowState::Final);
         let body = match outcome {
-            Some(RuleOutcome::Ok(r)) => results(i, r, project, waiting),
+            Some(RuleOutcome::Ok(r)) => results(i, r, project, row),
             Some(RuleOutcome::Error { message, .. }) => html! {
                 <p class="error rule-error" data-testid={format!("rule-{i}-error")}>{ message.clone() }</p>
             },
@@ -258,7 +263,7 @@ pub fn Rules(props: &RulesProps) -> Html {
         };
         html! {
             <li class={classes!("rule-card", props.stale.then_some("stale"))} data-testid={format!("rule-card-{i}")} aria-label={title.clone()}
-                data-field={if waiting { "pending" } else { "landed" }}>
+                data-field={match row { RowState::Preview => "pending", RowState::Nominal => "nominal", RowState::Final => "landed" }}>
                 <div class="rule-inputs">
                     <TextField field={Field::Rule(i, RuleField::Name)} label="Net class" size="wide" value={rule.name.clone()}
                         draft={draft(Field::Rule(i, RuleField::Name))} dispatch={d.clone()} />
