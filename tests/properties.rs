@@ -338,12 +338,12 @@ proptest! {
                 prop_assert!(r.eps_eff >= 1.0 - 1e-12, "eps_eff {}", r.eps_eff);
             }
         }
-        // analyze_rule on its own agrees with the plan row.
+        // evaluate_rule (the rule on its own engine) agrees with the plan row.
         for (rule, outcome) in p.rules.iter().zip(&plan.rules) {
-            match (ohmstack_core::plan::analyze_rule(&p, rule), outcome) {
+            match (ohmstack_core::plan::evaluate_rule(&p, rule), outcome) {
                 (Ok(a), RuleOutcome::Ok(b)) => prop_assert_eq!(a.impedance_ohm, b.impedance_ohm),
                 (Err(_), RuleOutcome::Error { .. }) => {}
-                (a, b) => prop_assert!(false, "analyze_rule {:?} vs plan {:?}", a.is_ok(), b),
+                (a, b) => prop_assert!(false, "evaluate_rule {:?} vs plan {:?}", a.is_ok(), b),
             }
         }
     }
@@ -461,6 +461,7 @@ impl Family {
             kind: format!("{self:?}"),
             cross_section: CrossSection {
                 loss: Default::default(),
+                layering: None,
                 medium,
                 t,
                 references: Vec::new(),
@@ -555,6 +556,7 @@ proptest! {
         for structure in [Structure::Single, Structure::EdgePair] {
             let cs = |a, b| CrossSection {
                 loss: Default::default(),
+                layering: None,
                 medium: Medium::Stripline { h_below: a, h_above: b, er, dual: false },
                 t,
                 references: Vec::new(),

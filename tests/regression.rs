@@ -142,6 +142,7 @@ fn fuzz_models_coplanar_thick_narrow_strip() {
     use ohmstack_core::Structure;
     let cs = CrossSection {
         loss: Default::default(),
+        layering: None,
         medium: Medium::NoPlane {
             h: 0.04725843667006398,
             er: 1.0054834447335024,

@@ -10,7 +10,7 @@ const RULE: &str = "Pair 90 grounded coplanar";
 
 #[test]
 fn a_wide_band_sits_next_to_the_number() {
-    let (code, table, err) = ohmstack(&["analyze", "-"], FIXTURE);
+    let (code, table, err) = ohmstack(&["analyze", "-", "--engine", "closed-form"], FIXTURE);
     assert_eq!(code, 0, "{err}");
     let row = table
         .lines()
@@ -25,7 +25,10 @@ fn a_wide_band_sits_next_to_the_number() {
         .unwrap();
     assert!(!row.contains("(±"), "{row}");
 
-    let (code, json, err) = ohmstack(&["analyze", "-", "--json"], FIXTURE);
+    let (code, json, err) = ohmstack(
+        &["analyze", "-", "--json", "--engine", "closed-form"],
+        FIXTURE,
+    );
     assert_eq!(code, 0, "{err}");
     let v: serde_json::Value = serde_json::from_str(&json).unwrap();
     let rule = v["rules"]
@@ -53,7 +56,10 @@ fn the_field_check_uses_the_same_band_and_finds_the_rule_inside_it() {
         c["field_error_pct"].as_f64().unwrap(),
     );
     assert!(diff.abs() <= band + field_err, "{c}");
-    let (_, json, _) = ohmstack(&["analyze", "-", "--json"], FIXTURE);
+    let (_, json, _) = ohmstack(
+        &["analyze", "-", "--json", "--engine", "closed-form"],
+        FIXTURE,
+    );
     let plan: serde_json::Value = serde_json::from_str(&json).unwrap();
     let rule = plan["rules"]
         .as_array()

@@ -15,6 +15,7 @@ use std::time::Duration;
 fn cs(medium: Medium, t: f64) -> CrossSection {
     CrossSection {
         loss: Default::default(),
+        layering: None,
         medium,
         t,
         references: vec![],

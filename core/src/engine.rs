@@ -109,6 +109,24 @@ impl Engine {
         }
     }
 
+    /// The method name its figures carry (the closed form's varies by family; this names the engine).
+    pub fn method_name(&self) -> &'static str {
+        match self {
+            Engine::ClosedForm => "closed-form model",
+            Engine::Field { .. } => BOUNDARY_METHOD,
+            Engine::Reference { .. } => FIELD_METHOD,
+        }
+    }
+
+    /// The field engine whose figures carry `method` (`None` for a closed form's).
+    pub fn that_made(method: &str, project: &Project) -> Option<Engine> {
+        match method {
+            BOUNDARY_METHOD => Some(Engine::field(project)),
+            FIELD_METHOD => Some(Engine::reference(project)),
+            _ => None,
+        }
+    }
+
     /// Whether this is the instant closed form (synthesis then needs no refinement beyond it).
     pub fn is_closed_form(&self) -> bool {
         matches!(self, Engine::ClosedForm)
@@ -224,5 +242,58 @@ mod tests {
             closed.controlled(),
             field.controlled()
         );
+    }
+
+    /// The field engines see each dielectric layer as it is; the closed forms a merged Dk. On an inner layer between
+    /// a 4.6 core and a 3.2 prepreg the merged Dk moves Z by over a per cent, while the two independent field
+    /// engines agree on the layered section within their error estimates.
+    #[test]
+    fn field_engines_model_each_dielectric_layer() {
+        let mut p = crate::design::demo::project();
+        for l in &mut p.stackup.layers {
+            let dk = match l.name() {
+                "Core 1" => 4.6,
+                "PP2" => 3.2,
+                _ => continue,
+            };
+            match l {
+                crate::design::stackup::Layer::Core(d)
+                | crate::design::stackup::Layer::Prepreg(d) => d.dk = dk,
+                _ => unreachable!("Core 1 and PP2 are dielectrics"),
+            }
+        }
+        let rule = p
+            .rules
+            .iter()
+            .find(|r| r.name == "Single-ended 50 Ω inner")
+            .unwrap();
+        let layered = section::resolve(&p.stackup, rule).unwrap();
+        assert!(layered.layering.as_ref().unwrap().is_mixed());
+        let merged = CrossSection {
+            layering: None,
+            ..layered.clone()
+        };
+        let dims = Dims {
+            w: rule.width_m,
+            s: rule.spacing_m,
+            gap: rule.gap_m,
+        };
+        let field = Engine::field(&p);
+        let a = field.analyze(&layered, rule.structure, &dims).unwrap();
+        let b = field.analyze(&merged, rule.structure, &dims).unwrap();
+        let r = Engine::reference(&p)
+            .analyze(&layered, rule.structure, &dims)
+            .unwrap();
+        let merged_error = (b.controlled() / a.controlled() - 1.0).abs() * 100.0;
+        assert!(merged_error > 1.0, "merged Dk moves Z by {merged_error} %");
+        let between = (a.controlled() / r.controlled() - 1.0).abs() * 100.0;
+        let allowed = a.error_estimate_pct.unwrap() + r.error_estimate_pct.unwrap();
+        assert!(between <= allowed, "{between} % vs {allowed} %");
+        // εeff lies between the layers' Dk.
+        let eps = match &a.analysis {
+            Analysis::Single(line) => line.eps_eff,
+            Analysis::Pair(pair) => pair.odd().eps_eff,
+        };
+        assert!((3.2..=4.6).contains(&eps), "{eps}");
     }
 }

@@ -429,7 +429,7 @@ use ohmstack_core::line::loss;
 use ohmstack_core::output::plot::{self, LinePlot, Series};
 use ohmstack_core::output::report::{self, FabNotes};
 use ohmstack_core::output::{draw, touchstone};
-use ohmstack_core::plan::spread::{self, ImpedanceModel, SampleModel, SpreadOptions};
+use ohmstack_core::plan::spread::{self, SampleModel, SpreadOptions};
 use ohmstack_core::section::Dims;
 
 /// The share-link fragment (`v1.…`, no `#`) of `project`.
@@ -700,30 +700,8 @@ pub fn spread_view(project: &Project, idx: usize) -> Result<SpreadView, String> 
         model: SampleModel::Quadratic,
     };
     let summary = spread::run_for_result(project, rule, &r, &opts).map_err(|e| e.to_string())?;
-    // The summary keeps 32 bin counts only; the plot bins raw samples over the window too, so the samples are
-    // drawn again exactly as `spread::run_with_model` draws them (same setup, surface, seed and deviates).
-    let dims = Dims {
-        w: r.width_m,
-        s: r.spacing_m,
-        gap: r.gap_m,
-    };
-    let err = |e: ohmstack_core::Error| e.to_string();
-    let setup = spread::Setup::new(project, rule, &r.cross_section, &dims).map_err(err)?;
-    let closed = spread::result_model(rule, &r).map_err(err)?;
-    let model: &dyn ImpedanceModel = &closed;
-    let mut ev = setup.evaluator(model);
-    let mut direct = |d: &[f64]| ev.z(d);
-    let surface = spread::Quadratic::fit(&setup.params, &mut direct).map_err(err)?;
-    let draws = spread::standard_draws(&setup.params, opts.samples, spread::rule_seed(opts.seed))
-        .map_err(err)?;
-    let (_, samples) = spread::monte_carlo_on(
-        &setup.params,
-        &draws,
-        setup.lower_ohm,
-        setup.upper_ohm,
-        &mut |d| surface.sample(d, &mut direct),
-    )
-    .map_err(err)?;
+    // The summary keeps 32 bin counts only; the plot bins the raw samples, drawn again exactly as the summary's.
+    let samples = spread::result_samples(project, rule, &r, &opts).map_err(|e| e.to_string())?;
     let mc = &summary.monte_carlo;
     let svg = plot::histogram(&plot::Histogram {
         title: format!("Tolerance spread of {} ({} samples)", rule.name, mc.samples),

@@ -71,6 +71,7 @@ fuzz_target!(|data: &[u8]| {
     };
     let cs = CrossSection {
         loss: Default::default(),
+        layering: None,
         medium,
         t: n.f64_near(35e-6),
         references: Vec::new(),

@@ -43,7 +43,9 @@ def surface_project() -> dict:
             {"type": "core", "name": "C1", "thickness_m": H, "dk": ER, "df": 0.02},
             layer("L2", 35, "plane"),
         ],
-        "rules": [{"name": "50", "layer": "L1", "structure": "single", "target_ohm": 50, "width_m": 3e-4}],
+        # The closed form explicitly: the check below is against scikit-rf's coding of the same published model.
+        "rules": [{"name": "50", "layer": "L1", "structure": "single", "target_ohm": 50, "width_m": 3e-4,
+                   "model": "closed_form"}],
     }
 
 

@@ -94,6 +94,12 @@ pub fn run(args: Args) -> Result<()> {
                 for w in &r.warnings {
                     println!("    note: {}", w.message);
                 }
+                if let Some(c) = &r.closed_form_check {
+                    println!(
+                        "    cross-check: the closed form ({}) gives {:.2} Ω here, {:+.1} % against the field figure",
+                        c.method, c.impedance_ohm, c.difference_pct
+                    );
+                }
             }
             RuleOutcome::Error { name, message } => println!("{name:<28} error: {message}"),
         }

@@ -235,6 +235,7 @@ mod properties {
             kind: "coated-microstrip".into(),
             cross_section: CrossSection {
                 loss: Default::default(),
+                layering: None,
                 medium: Medium::Microstrip { h: H, er, cover },
                 t: tn * H,
                 references: Vec::new(),

@@ -519,6 +519,7 @@ mod tests {
         use crate::section::{CrossSection, Medium};
         let cs = |medium| CrossSection {
             loss: Default::default(),
+            layering: None,
             medium,
             t: 0.0,
             references: Vec::new(),
@@ -584,6 +585,7 @@ mod tests {
                 kind: "test".into(),
                 cross_section: CrossSection {
                     loss: Default::default(),
+                    layering: None,
                     medium,
                     t,
                     references: Vec::new(),

@@ -1,5 +1,6 @@
 //! The saved design: a stackup, the impedance rules routed on it, fabrication limits and display preferences.
-//! Serialised as JSON with `"schema": 1`; unknown or wrong fields are errors that name the field's path.
+//! Serialised as JSON with `"schema": 2` (schema 1 files are migrated on read); unknown or wrong fields are errors
+//! that name the field's path.
 
 use crate::base::error::{self, Error, Result};
 use crate::base::units::LengthUnit;
@@ -8,7 +9,7 @@ use crate::design::stackup::{Layer, Stackup};
 use serde::{Deserialize, Serialize};
 
 /// The schema version this build writes. Older versions are migrated on read (see [`Project::from_json`]).
-pub const SCHEMA_VERSION: u32 = 1;
+pub const SCHEMA_VERSION: u32 = 2;
 
 /// The routing structure of a rule. Whether it is microstrip or stripline (and which variant) follows from where the
 /// layer sits in the stack, so the user picks only the shape of the net.
@@ -72,18 +73,19 @@ pub enum Solve {
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize, Default)]
 #[serde(rename_all = "snake_case")]
 pub enum RuleModel {
-    /// The published closed-form model of the structure (fast; the default).
-    #[default]
+    /// The published closed-form model of the structure, chosen explicitly (instant, but several per cent off on
+    /// thick, masked, coupled and coplanar cross-sections: docs/accuracy.md).
     ClosedForm,
-    /// The 2D field solver: the free dimension is solved on it, starting from the closed form's answer (for where
-    /// the closed form is flagged: thick copper in coplanar gaps, solder mask, etched traces).
+    /// The fast 2D field engine (the default since schema 2): the free dimension is solved on it, starting from
+    /// the closed form's answer.
+    #[default]
     FieldSolver,
 }
 
 impl RuleModel {
-    /// Whether this is the default (left out of saved files, so older files and links read the same).
-    pub fn is_closed_form(&self) -> bool {
-        *self == RuleModel::ClosedForm
+    /// Whether this is the default (left out of saved files).
+    pub fn is_default(&self) -> bool {
+        *self == RuleModel::default()
     }
 }
 
@@ -103,7 +105,7 @@ pub struct ImpedanceRule {
     #[serde(default)]
     pub solve: Solve,
     /// What computes the figures.
-    #[serde(default, skip_serializing_if = "RuleModel::is_closed_form")]
+    #[serde(default, skip_serializing_if = "RuleModel::is_default")]
     pub model: RuleModel,
     /// Trace width at the base of the trace, m (the starting value when solving for width).
     pub width_m: f64,
@@ -184,6 +186,36 @@ pub struct Project {
     pub rules: Vec<ImpedanceRule>,
 }
 
+/// Schema 1 → 2: a rule without `model` meant the closed form; in schema 2 it means the field engine. The
+/// rules keep no `model` key, so they move to the field engine (the point of the change), and the note says so.
+fn migrate_1_to_2(value: &mut serde_json::Value) -> Option<String> {
+    value["schema"] = serde_json::json!(2);
+    let moved: Vec<String> = value
+        .get("rules")
+        .and_then(|r| r.as_array())
+        .into_iter()
+        .flatten()
+        .filter(|r| r.get("model").is_none())
+        .map(|r| {
+            r.get("name")
+                .and_then(|n| n.as_str())
+                .unwrap_or("?")
+                .to_string()
+        })
+        .collect();
+    (!moved.is_empty()).then(|| {
+        format!(
+            "saved by an older version, which solved {} on closed-form models; now solved on the 2D field \
+             engine, so widths and figures may differ from the saved design (set a rule's model to closed form \
+             for the old figures)",
+            match moved.len() {
+                1 => format!("rule \"{}\"", moved[0]),
+                n => format!("{n} rules"),
+            }
+        )
+    })
+}
+
 fn default_freq() -> f64 {
     1e9
 }
@@ -196,31 +228,46 @@ pub const MAX_JSON_BYTES: usize = 1 << 20;
 impl Project {
     /// Reads a project from JSON, migrating older schema versions; errors name the offending field's path.
     pub fn from_json(text: &str) -> Result<Project> {
+        Project::from_json_noting(text).map(|(project, _)| project)
+    }
+
+    /// [`Project::from_json`], also returning what the migration from an older schema changed, in the user's
+    /// words (empty for a current file): the app and the CLI say it when an old file or link opens.
+    pub fn from_json_noting(text: &str) -> Result<(Project, Vec<String>)> {
         if text.len() > MAX_JSON_BYTES {
             return Err(Error::Schema {
                 message: format!("file is larger than {MAX_JSON_BYTES} bytes"),
             });
         }
-        let value: serde_json::Value = serde_json::from_str(text).map_err(|e| Error::Schema {
-            message: format!("not valid JSON: {e}"),
-        })?;
+        let mut value: serde_json::Value =
+            serde_json::from_str(text).map_err(|e| Error::Schema {
+                message: format!("not valid JSON: {e}"),
+            })?;
         let schema = value
             .get("schema")
             .and_then(|v| v.as_u64())
             .ok_or_else(|| Error::Schema {
                 message: "field `schema` is missing or not a whole number".into(),
             })?;
-        if schema != u64::from(SCHEMA_VERSION) {
-            return Err(Error::Schema {
-                message: format!("schema {schema} is not known to this version (it reads schema {SCHEMA_VERSION})"),
-            });
+        let mut notes = Vec::new();
+        match schema {
+            1 => notes.extend(migrate_1_to_2(&mut value)),
+            s if s == u64::from(SCHEMA_VERSION) => {}
+            _ => {
+                return Err(Error::Schema {
+                    message: format!(
+                        "schema {schema} is not known to this version (it reads schemas 1 to {SCHEMA_VERSION}); \
+                         open it with a newer version"
+                    ),
+                })
+            }
         }
         let project: Project =
             serde_path_to_error::deserialize(value).map_err(|e| Error::Schema {
                 message: format!("at `{}`: {}", e.path(), e.inner()),
             })?;
         project.validate()?;
-        Ok(project)
+        Ok((project, notes))
     }
 
     /// Pretty JSON, the same schema the CLI and the web app read.
@@ -436,11 +483,37 @@ mod tests {
     }
 
     #[test]
+    fn schema_1_rules_move_to_the_field_engine_and_say_so() {
+        // Schema 1 left `model` out for the closed form; schema 2 leaves it out for the field engine.
+        let mut v: serde_json::Value =
+            serde_json::from_str(&crate::design::demo::project().to_json()).unwrap();
+        v["schema"] = serde_json::json!(1);
+        let (p, notes) = Project::from_json_noting(&v.to_string()).unwrap();
+        assert_eq!(p.schema, SCHEMA_VERSION);
+        assert!(p.rules.iter().all(|r| r.model == RuleModel::FieldSolver));
+        assert_eq!(notes.len(), 1);
+        assert!(
+            notes[0].contains(&format!("{} rules", p.rules.len())) && notes[0].contains("field"),
+            "{notes:?}"
+        );
+        // A rule that named its model keeps it, and then there is nothing to say about it.
+        for r in v["rules"].as_array_mut().unwrap() {
+            r["model"] = serde_json::json!("closed_form");
+        }
+        let (p, notes) = Project::from_json_noting(&v.to_string()).unwrap();
+        assert!(p.rules.iter().all(|r| r.model == RuleModel::ClosedForm));
+        assert!(notes.is_empty(), "{notes:?}");
+        // A current file has nothing to say either.
+        let current = crate::design::demo::project().to_json();
+        assert!(Project::from_json_noting(&current).unwrap().1.is_empty());
+    }
+
+    #[test]
     fn future_schema_is_refused() {
         let text =
             crate::design::demo::project()
                 .to_json()
-                .replacen("\"schema\": 1", "\"schema\": 99", 1);
+                .replacen("\"schema\": 2", "\"schema\": 99", 1);
         let e = Project::from_json(&text).unwrap_err().to_string();
         assert!(e.contains("schema 99"), "{e}");
     }

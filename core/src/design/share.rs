@@ -7,7 +7,7 @@
 //! v1.<payload>
 //! payload = base64url, no padding (RFC 4648 §5), of
 //!           zlib (RFC 1950: 2-byte header, raw deflate RFC 1951, Adler-32 trailer), of
-//!           the project as compact JSON (the same schema as the project file, `"schema": 1`)
+//!           the project as compact JSON (the same schema as the project file, `"schema"` number)
 //! ```
 //!
 //! The version comes first so a decoder knows what follows before it reads anything else. Anyone can decode a

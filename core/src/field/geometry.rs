@@ -196,8 +196,47 @@ fn len(field: &str, v: f64) -> Result<f64> {
 }
 
 impl LayerStack {
-    /// The layer stack a resolved cross-section stands for (one Dk per side, as the stackup merged them).
+    /// The layer stack a resolved cross-section stands for: each dielectric layer as it is in the stack when the
+    /// section carries its layering, else one Dk per side.
     pub fn from_cross_section(cs: &CrossSection) -> Result<LayerStack> {
+        let mut stack = LayerStack::merged(cs)?;
+        if let Some(layering) = &cs.layering {
+            let slabs = |side: &[(f64, f64)], name: &str| -> Result<Vec<Slab>> {
+                let mut out: Vec<Slab> = Vec::with_capacity(side.len());
+                for &(h, er) in side {
+                    let er = error::permittivity(name, er)?;
+                    let h = error::length_or_zero(name, h)?;
+                    // Neighbours of equal Dk are one slab: no interface to mesh.
+                    match out.last_mut() {
+                        Some(last) if last.er == er => last.h += h,
+                        _ if h > 0.0 => out.push(Slab { h, er }),
+                        _ => {}
+                    }
+                }
+                Ok(out)
+            };
+            match cs.medium {
+                Medium::Microstrip { .. } | Medium::Stripline { .. } => {
+                    let mut below = slabs(&layering.below, "dk")?;
+                    below.reverse();
+                    if !below.is_empty() {
+                        stack.below = below;
+                    }
+                }
+                _ => {}
+            }
+            if let Medium::Stripline { .. } = cs.medium {
+                let above = slabs(&layering.above, "dk")?;
+                if !above.is_empty() {
+                    stack.above = above;
+                }
+            }
+        }
+        Ok(stack)
+    }
+
+    /// The layer stack with one Dk per side, as the closed forms see it.
+    fn merged(cs: &CrossSection) -> Result<LayerStack> {
         let t = error::length_or_zero("thickness", cs.t)?;
         Ok(match cs.medium {
             Medium::Microstrip { h, er, cover } => {
@@ -644,6 +683,7 @@ mod tests {
     fn ms(cover: Cover) -> CrossSection {
         CrossSection {
             loss: Default::default(),
+            layering: None,
             medium: Medium::Microstrip {
                 h: 100e-6,
                 er: 4.0,

@@ -244,6 +244,7 @@ mod tests {
     fn grid_hits_every_edge_and_grades_toward_corners() {
         let cs = CrossSection {
             loss: Default::default(),
+            layering: None,
             medium: Medium::Microstrip {
                 h: 100e-6,
                 er: 4.0,

@@ -333,6 +333,7 @@ mod tests {
     fn microstrip() -> CrossSection {
         CrossSection {
             loss: Default::default(),
+            layering: None,
             medium: Medium::Microstrip {
                 h: 170e-6,
                 er: 4.2,
@@ -457,6 +458,7 @@ mod tests {
     fn broadside_map_drives_upper_positive() {
         let cs = CrossSection {
             loss: Default::default(),
+            layering: None,
             medium: Medium::Broadside {
                 h_above: 150e-6,
                 separation: 120e-6,

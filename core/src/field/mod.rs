@@ -27,6 +27,7 @@
 //!
 //! let cs = CrossSection {
 //!     loss: Default::default(),
+//!     layering: None,
 //!     medium: Medium::Microstrip { h: 170e-6, er: 4.2, cover: Cover::Air },
 //!     t: 35e-6,
 //!     references: vec![],

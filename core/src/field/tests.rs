@@ -43,6 +43,7 @@ fn cohn_coupled(w: f64, s: f64, b: f64, er: f64) -> (f64, f64) {
 fn stripline(h: f64, er: f64, t: f64) -> CrossSection {
     CrossSection {
         loss: Default::default(),
+        layering: None,
         medium: Medium::Stripline {
             h_below: h,
             h_above: h,
@@ -133,6 +134,7 @@ fn edge_coupled_stripline_matches_cohn_within_0_3_pct() {
 fn microstrip(h: f64, er: f64, t: f64, cover: Cover) -> CrossSection {
     CrossSection {
         loss: Default::default(),
+        layering: None,
         medium: Medium::Microstrip { h, er, cover },
         t,
         references: vec![],
@@ -197,6 +199,7 @@ fn coplanar_in_air_matches_the_exact_conformal_map() {
     let (w, g) = (100e-6, 50e-6);
     let cs = CrossSection {
         loss: Default::default(),
+        layering: None,
         medium: Medium::NoPlane { h: 100e-6, er: 1.0 },
         t: 0.0,
         references: vec![],
@@ -390,6 +393,7 @@ fn broadside_pair_in_one_dielectric() {
     // Homogeneous dielectric: both modes have εeff = εr exactly; the odd mode (strong coupling) is below the even.
     let cs = CrossSection {
         loss: Default::default(),
+        layering: None,
         medium: Medium::Broadside {
             h_above: 150e-6,
             separation: 100e-6,

@@ -755,6 +755,7 @@ mod tests {
     fn microstrip_model(w: f64, h: f64, t: f64, er: f64, df: f64, rough: Roughness) -> LineModel {
         let cs = CrossSection {
             loss: Default::default(),
+            layering: None,
             medium: Medium::Microstrip {
                 h,
                 er,
@@ -975,6 +976,7 @@ mod tests {
         rule.structure = Structure::Coplanar;
         let cs = CrossSection {
             loss: Default::default(),
+            layering: None,
             medium: Medium::NoPlane { h: 335e-6, er: 3.6 },
             t: 35e-6,
             references: vec![],
@@ -1004,6 +1006,7 @@ mod tests {
     fn zero_thickness_is_an_error_not_a_panic() {
         let cs = CrossSection {
             loss: Default::default(),
+            layering: None,
             medium: Medium::Microstrip {
                 h: 1e-4,
                 er: 4.0,

@@ -1102,7 +1102,8 @@ pub(crate) mod tests {
         let w0 = crate::plan(&p).unwrap().rules[0].ok().unwrap().width_m;
         assert!((pts[0].0 - 0.7 * w0).abs() < 1e-12 && (pts[30].0 - 1.3 * w0).abs() < 1e-12);
         // The middle point is the solution itself; impedance falls as the trace widens.
-        assert!((pts[15].1 - 50.0).abs() < 1e-6, "{}", pts[15].1);
+        // (to the field engine's root-finding tolerance, 0.01 % of target)
+        assert!((pts[15].1 - 50.0).abs() < 50.0 * 1e-4, "{}", pts[15].1);
         assert!(pts.windows(2).all(|w| w[1].1 < w[0].1));
         assert!(z_vs_width(&p, 99, 10).is_err());
         let svg = line_plot(&LinePlot {

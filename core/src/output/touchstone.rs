@@ -206,6 +206,7 @@ mod tests {
         use crate::section::{Cover, CrossSection, Medium};
         let cs = CrossSection {
             loss: Default::default(),
+            layering: None,
             medium: Medium::Microstrip {
                 h: 170e-6,
                 er: 4.2,

@@ -238,6 +238,7 @@ pub fn parse(kind: &str, fields: &BTreeMap<String, String>) -> Result<LineCase> 
         kind: kind.to_string(),
         cross_section: CrossSection {
             loss: Default::default(),
+            layering: None,
             medium,
             t,
             references: Vec::new(),

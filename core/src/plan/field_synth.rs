@@ -455,26 +455,25 @@ mod tests {
             .warnings
             .iter()
             .any(|w| w.message.contains("thickness correction")));
-        // The spread is centred on the field solver's nominal, with the closed form's sensitivities.
+        // The spread samples the field engine's response, centred on its nominal.
         let s = r.spread.as_ref().unwrap();
         assert!((s.nominal_ohm - r.impedance_ohm).abs() < 1e-9 * r.impedance_ohm);
-        assert!(s.warnings.iter().any(|w| w.message.contains("scaled")));
-        // Other rules are untouched, and a second plan gives the same figures (from the cache).
-        let closed = crate::plan(&crate::design::demo::project()).unwrap();
-        assert_eq!(
-            plan.rules[0].ok().unwrap().width_m,
-            closed.rules[0].ok().unwrap().width_m
+        assert!(
+            s.response.starts_with(crate::engine::BOUNDARY_METHOD),
+            "{}",
+            s.response
         );
+        // A second plan gives the same figures (from the cache).
         let again = crate::plan_with(&p, &crate::PlanOptions::with_spread()).unwrap();
         assert_eq!(again.rules[i], plan.rules[i]);
-        // Saved files name the model only when it is not the default.
-        let json = p.to_json();
+        // Saved files name the model only when it is not the default (the field engine, since schema 2).
+        let mut q = p.clone();
+        q.rules[0].model = crate::design::project::RuleModel::ClosedForm;
+        let json = q.to_json();
         assert_eq!(json.matches("\"model\"").count(), 1);
-        assert!(json.contains("\"field_solver\""));
-        assert_eq!(Project::from_json(&json).unwrap(), p);
-        assert!(!crate::design::demo::project()
-            .to_json()
-            .contains("\"model\""));
+        assert!(json.contains("\"closed_form\""));
+        assert_eq!(Project::from_json(&json).unwrap(), q);
+        assert!(!p.to_json().contains("\"model\""));
         // The fab notes carry the field-solved width.
         let notes = crate::output::report::fab_notes(&p, &plan);
         let row = notes

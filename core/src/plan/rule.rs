@@ -62,6 +62,10 @@ pub struct RuleResult {
     /// and [`crate::PlanOptions::field_check`] asked for it: the honest check of the closed form's number.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub field_check: Option<FieldCheck>,
+    /// The closed form's figure at the same dimensions, when the headline comes from a field engine: the instant
+    /// cross-check shown beside the field figure, with its difference.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub closed_form_check: Option<ClosedFormCheck>,
     /// Tolerance spread and yield, when asked for with [`PlanOptions::spread_samples`].
     #[serde(skip_serializing_if = "Option::is_none")]
     pub spread: Option<SpreadSummary>,
@@ -89,6 +93,17 @@ pub struct FieldCheck {
     pub closed_form_difference_pct: f64,
     /// The field engine's estimated error, %.
     pub error_estimate_pct: f64,
+}
+
+/// The closed form's answer at a field result's dimensions.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct ClosedFormCheck {
+    /// The published model that made it.
+    pub method: String,
+    /// The controlled impedance by the closed form, Ω.
+    pub impedance_ohm: f64,
+    /// (closed − field)/field, %.
+    pub difference_pct: f64,
 }
 
 /// The field engine's check of a closed-form result (`None` when the result already comes from a field engine).
@@ -272,6 +287,19 @@ fn compute(project: &Project, rule: &ImpedanceRule, engine: &Engine) -> Result<R
             result.warnings.push(n);
         }
     }
+    if !engine.is_closed_form() {
+        // Microseconds beside a field solve; a structure the closed forms refuse simply has no cross-check.
+        if let Ok(closed) =
+            Engine::ClosedForm.analyze(&result.cross_section, rule.structure, &solved.dims)
+        {
+            let z = closed.controlled();
+            result.closed_form_check = Some(ClosedFormCheck {
+                method: closed.method.to_string(),
+                impedance_ohm: z,
+                difference_pct: (z - result.impedance_ohm) / result.impedance_ohm * 100.0,
+            });
+        }
+    }
     Ok(result)
 }
 
@@ -294,6 +322,9 @@ pub fn rule_figures(
     let gamma = reflection(z, rule.target_ohm);
     let deviation_pct = (z - rule.target_ohm) / rule.target_ohm * 100.0;
     let mut warnings = cs.warnings.clone();
+    if !crate::engine::is_field_method(method) {
+        warnings.extend(cs.merged_dielectric_note());
+    }
     warnings.extend(analysis.warnings().iter().cloned());
     let loss = match crate::line::loss::for_rule(project, rule, &cs, &dims)
         .and_then(|m| m.at(project.analysis_freq_hz))
@@ -322,6 +353,7 @@ pub fn rule_figures(
     RuleResult {
         model_band_pct,
         field_check: None,
+        closed_form_check: None,
         name: rule.name.clone(),
         layer: rule.layer.clone(),
         family: cs.family_for(rule.structure).into(),
@@ -363,13 +395,17 @@ impl RuleOutcome {
 
 #[cfg(test)]
 mod tests {
+    use super::*;
 
     #[test]
     fn the_field_engine_checks_every_closed_form_rule_and_can_overrule_its_verdict() {
         // The demo's radio feed: the closed form puts it on target, while the field engine at the same width gives
         // about 44 Ω (thick copper in narrow coplanar gaps under mask, where the closed form is known to miss; the
         // finite-volume reference agrees with the field engine, see field::boundary tests). The check says so.
-        let p = crate::design::demo::project();
+        let mut p = crate::design::demo::project();
+        for r in &mut p.rules {
+            r.model = crate::design::project::RuleModel::ClosedForm;
+        }
         let plan = crate::plan_with(&p, &crate::PlanOptions::with_spread()).unwrap();
         for (rule, outcome) in p.rules.iter().zip(&plan.rules) {
             let r = outcome.ok().unwrap();
@@ -394,9 +430,8 @@ mod tests {
         let c = feed.field_check.as_ref().unwrap();
         assert!(feed.within_tolerance);
         assert!(c.impedance_ohm < 46.0 && !c.within_tolerance, "{c:?}");
-        // A field-solver rule needs no check: its headline already is the field figure.
-        let mut q = p.clone();
-        q.rules[0].model = crate::design::project::RuleModel::FieldSolver;
+        // A field-solver rule (the default) needs no check: its headline already is the field figure.
+        let q = crate::design::demo::project();
         let plan = crate::plan_with(&q, &crate::PlanOptions::with_spread()).unwrap();
         assert!(plan.rules[0].ok().unwrap().field_check.is_none());
         // Without the option nothing is computed.
@@ -405,5 +440,35 @@ mod tests {
             .unwrap()
             .field_check
             .is_none());
+    }
+
+    #[test]
+    fn a_field_result_carries_the_closed_form_beside_it() {
+        let p = crate::design::demo::project();
+        let plan = crate::plan(&p).unwrap();
+        for (rule, outcome) in p.rules.iter().zip(&plan.rules) {
+            let r = outcome.ok().unwrap();
+            let c = r.closed_form_check.as_ref().expect("a cross-check");
+            let dims = Dims {
+                w: r.width_m,
+                s: r.spacing_m,
+                gap: r.gap_m,
+            };
+            let closed = Engine::ClosedForm
+                .analyze(&r.cross_section, rule.structure, &dims)
+                .unwrap()
+                .controlled();
+            assert_eq!(c.impedance_ohm, closed);
+            assert!((c.difference_pct - (closed / r.impedance_ohm - 1.0) * 100.0).abs() < 1e-9);
+        }
+        // The radio feed is where the closed form misses most (thick copper in narrow coplanar gaps under mask).
+        let feed = plan.rule("Radio feed 50 Ω").unwrap().ok().unwrap();
+        let c = feed.closed_form_check.as_ref().unwrap();
+        assert!(c.difference_pct > 5.0, "{c:?}");
+        // A closed-form result has none.
+        let mut q = p.clone();
+        q.rules[0].model = crate::design::project::RuleModel::ClosedForm;
+        let r = crate::plan(&q).unwrap();
+        assert!(r.rules[0].ok().unwrap().closed_form_check.is_none());
     }
 }

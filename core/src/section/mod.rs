@@ -84,6 +84,70 @@ pub struct CrossSection {
     /// built by hand rather than resolved).
     #[serde(skip)]
     pub loss: SectionLoss,
+    /// The dielectric layers as they are in the stack, for the field engines (the closed forms take the merged Dk
+    /// of `medium`). `None` for a section built by hand or with one dielectric per side.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub layering: Option<Layering>,
+}
+
+/// The dielectric layers on each side of a trace, each `(pressed height m, Dk)`, listed from the trace outward.
+/// For a microstrip `below` is the side of its plane (whichever way up) and `above` is unused (the cover is in
+/// [`Medium`]); for a stripline `below` leads to the plane later in the stack, `above` to the earlier one. Their
+/// heights add up to the heights in [`Medium`]. A copper layer in between counts as the dielectric next to it.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Layering {
+    pub below: Vec<(f64, f64)>,
+    pub above: Vec<(f64, f64)>,
+}
+
+impl CrossSection {
+    /// The closed form's note when the layers around the trace differ in Dk: it merges them into one Dk (the
+    /// field engines model each layer, so their figures carry no such note).
+    pub fn merged_dielectric_note(&self) -> Option<Warning> {
+        if !self.layering.as_ref().is_some_and(Layering::is_mixed) {
+            return None;
+        }
+        let (side, er) = match self.medium {
+            Medium::Microstrip { er, .. } => ("under", er),
+            Medium::Stripline { er, .. } => ("around", er),
+            _ => return None,
+        };
+        Some(Warning::new(format!(
+            "dielectrics of different Dk {side} the trace: the closed form combines them into Dk {er:.3} (the \
+             field engine models each layer)"
+        )))
+    }
+}
+
+impl Layering {
+    /// Whether the layers differ in Dk (otherwise the merged medium is already exact).
+    pub fn is_mixed(&self) -> bool {
+        let mut dks = self.below.iter().chain(&self.above).map(|&(_, dk)| dk);
+        let Some(first) = dks.next() else {
+            return false;
+        };
+        dks.any(|dk| (dk - first).abs() > 1e-9 * first)
+    }
+}
+
+/// The layers strictly between `from` (the trace) and `to` (a plane or one past the edge), from the trace outward.
+fn layers_between(stackup: &Stackup, from: usize, to: usize) -> Vec<(f64, f64)> {
+    let idx: Vec<usize> = if from < to {
+        (from + 1..to).collect()
+    } else {
+        (to + 1..from).rev().collect()
+    };
+    let dk_of = |j: usize| stackup.layers[j].dielectric().map(|d| d.dk);
+    idx.iter()
+        .enumerate()
+        .map(|(k, &j)| {
+            let dk = dk_of(j)
+                .or_else(|| idx[..k].iter().rev().find_map(|&i| dk_of(i)))
+                .or_else(|| idx[k + 1..].iter().find_map(|&i| dk_of(i)))
+                .unwrap_or(1.0);
+            (stackup.pressed_thickness_m(j), dk)
+        })
+        .collect()
 }
 
 /// The copper surfaces of a line: the trace layer (also its coplanar grounds) and the planes on each side.
@@ -299,6 +363,7 @@ pub fn resolve(stackup: &Stackup, rule: &ImpedanceRule) -> Result<CrossSection> 
         )));
     };
     let t = trace.thickness_m;
+    let mut layering = None;
     let medium = match (above, below, partner) {
         (Some(a), Some(b), Some(_)) => {
             let (h_above, er_a, m_a) = region(stackup, a, top_trace);
@@ -325,13 +390,14 @@ pub fn resolve(stackup: &Stackup, rule: &ImpedanceRule) -> Result<CrossSection> 
             })
         }
         (Some(a), Some(b), None) => {
-            let (h_above, er_a, m_a) = region(stackup, a, idx);
-            let (h_below, er_b, m_b) = region(stackup, idx, b);
+            let (h_above, er_a, _) = region(stackup, a, idx);
+            let (h_below, er_b, _) = region(stackup, idx, b);
             // Each side is a parallel-plate capacitance ε/h; the line sees their sum, so weight each side's Dk by 1/h.
             let er = (er_a / h_above + er_b / h_below) / (1.0 / h_above + 1.0 / h_below);
-            if m_a || m_b || (er_a - er_b).abs() > 0.01 * er {
-                mixed_note("around", er, &mut warnings);
-            }
+            layering = Some(Layering {
+                below: layers_between(stackup, idx, b),
+                above: layers_between(stackup, idx, a),
+            });
             let dual = (a + 1..b).any(|j| j != idx && stackup.layers[j].copper().is_some());
             Medium::Stripline {
                 h_below,
@@ -341,10 +407,11 @@ pub fn resolve(stackup: &Stackup, rule: &ImpedanceRule) -> Result<CrossSection> 
             }
         }
         (Some(plane), None, None) | (None, Some(plane), None) => {
-            let (h, er, mixed) = region(stackup, plane, idx);
-            if mixed {
-                mixed_note("under", er, &mut warnings);
-            }
+            let (h, er, _) = region(stackup, plane, idx);
+            layering = Some(Layering {
+                below: layers_between(stackup, idx, plane),
+                above: Vec::new(),
+            });
             // Walk outward, away from the plane, to find what covers the trace.
             let outward: Vec<usize> = if plane > idx {
                 (0..idx).rev().collect()
@@ -434,6 +501,7 @@ pub fn resolve(stackup: &Stackup, rule: &ImpedanceRule) -> Result<CrossSection> 
         references,
         warnings,
         loss: SectionLoss::default(),
+        layering,
     };
     let (df, spec_freq_hz) = rule_dielectric(stackup, rule, &cs);
     cs.loss = SectionLoss {

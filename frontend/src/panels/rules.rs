@@ -98,6 +98,7 @@ fn results(i: usize, r: &RuleResult, project: &Project, state: RowState) -> Html
                 <div class="figure main">
                     <span class="fig-label">{ z_label }</span>
                     <span class="fig-value" data-testid={format!("rule-{i}-impedance")} data-value={r.impedance_ohm.to_string()}>{ format!("{:.2}", r.impedance_ohm) }</span>
+                    <span class="fig-engine muted" data-testid={format!("rule-{i}-method")}>{ r.method }</span>
                     // The closed form's measured band, when wide, sits next to the number it qualifies.
                     if let Some(b) = r.model_band_pct {
                         <span class="badge bad" data-testid={format!("rule-{i}-model-band")} title="measured against the 2D field solver (docs/accuracy.md); use the field solver for this rule">{ format!("closed form ±{}% vs field solver", format_sig(b, 3)) }</span>
@@ -105,6 +106,10 @@ fn results(i: usize, r: &RuleResult, project: &Project, state: RowState) -> Html
                 </div>
                 if let Some(c) = &r.field_check {
                     { figure(i, "field-check", "Field engine (Ω)", format!("{:.2} ({:+.2}% vs target)", c.impedance_ohm, c.deviation_pct), Some(c.impedance_ohm)) }
+                }
+                // The instant closed form beside the field figure it approximates, with its difference.
+                if let Some(c) = &r.closed_form_check {
+                    { figure(i, "closed-form-check", "Closed form (Ω)", format!("{:.2} ({:+.1}% vs field)", c.impedance_ohm, c.difference_pct), Some(c.impedance_ohm)) }
                 }
                 if let Some(zc) = bridge::z_common(r) {
                     { figure(i, "zcommon", "Zcommon (Ω)", format!("{zc:.2}"), Some(zc)) }

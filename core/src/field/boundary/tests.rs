@@ -35,6 +35,7 @@ fn cohn_1955(w: f64, s: f64, b: f64, er: f64) -> (f64, f64) {
 fn stripline(b: f64, t: f64, er: f64) -> CrossSection {
     CrossSection {
         loss: Default::default(),
+        layering: None,
         medium: Medium::Stripline {
             h_below: 0.5 * (b - t),
             h_above: 0.5 * (b - t),
@@ -186,6 +187,7 @@ fn wen_geometry(w: f64, gap: f64, er: f64) -> Geometry {
 fn microstrip(h: f64, t: f64, er: f64, cover: Cover) -> CrossSection {
     CrossSection {
         loss: Default::default(),
+        layering: None,
         medium: Medium::Microstrip { h, er, cover },
         t,
         references: vec![],
@@ -208,6 +210,7 @@ fn cases() -> Vec<(&'static str, Geometry)> {
     let pair = dims(150e-6, Some(150e-6), None);
     let offset = CrossSection {
         loss: Default::default(),
+        layering: None,
         medium: Medium::Stripline {
             h_below: 150e-6,
             h_above: 300e-6,
@@ -220,6 +223,7 @@ fn cases() -> Vec<(&'static str, Geometry)> {
     };
     let broadside = CrossSection {
         loss: Default::default(),
+        layering: None,
         medium: Medium::Broadside {
             h_above: 200e-6,
             separation: 150e-6,
@@ -232,6 +236,7 @@ fn cases() -> Vec<(&'static str, Geometry)> {
     };
     let noplane = CrossSection {
         loss: Default::default(),
+        layering: None,
         medium: Medium::NoPlane { h: 800e-6, er: 4.4 },
         t: 35e-6,
         references: vec![],

@@ -39,7 +39,8 @@
 //! structure the models know is covered; a field solver can implement the same trait and be fitted by
 //! [`Quadratic::fit`] into a response surface, or replace the whole per-sample evaluator, since [`monte_carlo`],
 //! [`corners`], [`sensitivities`] and [`Quadratic::fit`] take any `FnMut(&[f64]) -> Result<f64>` of the parameter
-//! deviations. A new [`Medium`] variant needs one line in each of `medium_slots`, `set_medium_slots` and
+//! deviations. The layering of a section (each layer as the field engines see it) follows the medium's slots.
+//! A new [`Medium`] variant needs one line in each of `medium_slots`, `set_medium_slots` and
 //! `dk_slots` (the compiler points there).
 
 pub mod rng;
@@ -64,12 +65,19 @@ use rng::Rng;
 /// The impedance model the spread calls per sample: the controlled impedance (Z0, or Zdiff for pairs), Ω.
 pub trait ImpedanceModel {
     fn impedance(&self, cs: &CrossSection, structure: Structure, dims: &Dims) -> Result<f64>;
+    /// What it is, in words, for the summary.
+    fn name(&self) -> &'static str {
+        "custom model"
+    }
 }
 
 /// Every engine is a spread model: the closed form per sample, or a field solver behind the response surface.
 impl ImpedanceModel for Engine {
     fn impedance(&self, cs: &CrossSection, structure: Structure, dims: &Dims) -> Result<f64> {
         Engine::impedance(self, cs, structure, dims)
+    }
+    fn name(&self) -> &'static str {
+        self.method_name()
     }
 }
 
@@ -301,8 +309,26 @@ fn dk_slots(m: &Medium) -> &'static [usize] {
 fn slots_of(cs: &CrossSection, dims: &Dims) -> Vec<f64> {
     let mut v = Vec::with_capacity(8);
     medium_slots(&cs.medium, &mut v);
+    // The layers as the field engines see them: heights and Dk, linear in each layer's own values.
+    if let Some(l) = &cs.layering {
+        for &(h, er) in l.below.iter().chain(&l.above) {
+            v.extend([h, er]);
+        }
+    }
     v.extend([cs.t, dims.w, dims.s.unwrap_or(0.0), dims.gap.unwrap_or(0.0)]);
     v
+}
+
+/// Writes the medium and layering slots (everything before `t`) back into `cs`.
+fn set_section_slots(cs: &mut CrossSection, v: &[f64]) {
+    set_medium_slots(&mut cs.medium, v);
+    if let Some(l) = &mut cs.layering {
+        let n = l.below.len() + l.above.len();
+        let start = v.len() - 4 - 2 * n;
+        for (k, layer) in l.below.iter_mut().chain(l.above.iter_mut()).enumerate() {
+            *layer = (v[start + 2 * k], v[start + 2 * k + 1]);
+        }
+    }
 }
 
 /// A normal sample reaches about 4σ in 10⁴ draws; require the quantity to stay above `floor` at 1.5 × its limit.
@@ -712,7 +738,7 @@ impl Evaluator<'_> {
             }
         }
         let nm = ns - 4;
-        set_medium_slots(&mut self.cs.medium, &self.slots);
+        set_section_slots(&mut self.cs, &self.slots);
         self.cs.t = self.slots[nm];
         Dims {
             w: self.slots[nm + 1],
@@ -1038,54 +1064,128 @@ pub fn run(
     run_with_model(project, rule, result, opts, &Engine::ClosedForm)
 }
 
-/// The closed form times a constant: calibrated to the field solver at a rule's nominal line, so the spread of a
-/// field-solver rule keeps the closed form's sensitivities around the field solver's nominal impedance.
-#[derive(Debug, Clone, Copy)]
-pub struct ScaledClosedForm {
-    pub factor: f64,
+/// The field engine's response over the tolerance box, at the cost of 2n + 1 field solves: the closed form times
+/// a correction factor r(δ) = Z_field(δ) / Z_closed(δ), fitted per parameter by a quadratic through the nominal
+/// and the ± limits. It reproduces the field engine exactly at the nominal and at every axis limit; the closed form
+/// carries the cross terms and the shape between (the ratio of two smooth models of the same line varies slowly,
+/// so its cross terms are second order; measured against direct field samples in the tests).
+#[derive(Debug, Clone, PartialEq)]
+pub struct FieldCorrection {
+    /// The engine's method name, for the summary.
+    pub method: &'static str,
+    ratio0: f64,
+    lin: Vec<f64>,
+    sq: Vec<f64>,
 }
 
-impl ImpedanceModel for ScaledClosedForm {
-    fn impedance(&self, cs: &CrossSection, structure: Structure, dims: &Dims) -> Result<f64> {
-        Engine::ClosedForm
-            .impedance(cs, structure, dims)
-            .map(|z| self.factor * z)
+impl FieldCorrection {
+    /// Fits the correction of the closed form to `field` over `setup`'s parameters.
+    pub fn fit(setup: &Setup, field: &Engine) -> Result<FieldCorrection> {
+        let mut on_field = setup.evaluator(field);
+        let mut on_closed = setup.evaluator(&Engine::ClosedForm);
+        let mut ratio = |d: &[f64]| -> Result<f64> { Ok(on_field.z(d)? / on_closed.z(d)?) };
+        let n = setup.params.len();
+        let mut dev = vec![0.0; n];
+        let ratio0 = ratio(&dev)?;
+        let (mut lin, mut sq) = (Vec::with_capacity(n), Vec::with_capacity(n));
+        for (k, p) in setup.params.iter().enumerate() {
+            let l = p.limit;
+            dev[k] = l;
+            let rp = ratio(&dev)?;
+            dev[k] = -l;
+            let rm = ratio(&dev)?;
+            dev[k] = 0.0;
+            lin.push((rp - rm) / (2.0 * l));
+            sq.push((rp - 2.0 * ratio0 + rm) / (2.0 * l * l));
+        }
+        Ok(FieldCorrection {
+            method: field.method_name(),
+            ratio0,
+            lin,
+            sq,
+        })
+    }
+
+    /// The factor at the deviations `d`.
+    pub fn factor(&self, d: &[f64]) -> f64 {
+        self.ratio0
+            + d.iter()
+                .zip(self.lin.iter().zip(&self.sq))
+                .map(|(x, (a, b))| (a + b * x) * x)
+                .sum::<f64>()
     }
 }
 
-/// The model a planned rule's spread samples: the closed form (factor 1) for a closed-form rule; for a
-/// field-solver rule the closed form scaled to the field solver's nominal.
-pub fn result_model(rule: &ImpedanceRule, result: &RuleResult) -> Result<ScaledClosedForm> {
-    if rule.model == crate::design::project::RuleModel::ClosedForm {
-        return Ok(ScaledClosedForm { factor: 1.0 });
-    }
+/// The correction a planned rule's spread needs: `None` when its figures come from the closed form, else the fit
+/// to the engine that made them (the fast field engine, or the reference solver when the result names it).
+pub fn result_correction(
+    project: &Project,
+    rule: &ImpedanceRule,
+    result: &RuleResult,
+) -> Result<Option<FieldCorrection>> {
+    let Some(engine) = Engine::that_made(result.method, project) else {
+        return Ok(None);
+    };
     let dims = Dims {
         w: result.width_m,
         s: result.spacing_m,
         gap: result.gap_m,
     };
-    let closed = Engine::ClosedForm.impedance(&result.cross_section, rule.structure, &dims)?;
-    Ok(ScaledClosedForm {
-        factor: result.impedance_ohm / closed,
-    })
+    let setup = Setup::new(project, rule, &result.cross_section, &dims)?;
+    FieldCorrection::fit(&setup, &engine).map(Some)
 }
 
-/// The spread of a planned rule with [`result_model`] (a note says when it is scaled).
+/// The spread of a planned rule on the response of the engine that made its figures ([`result_correction`]).
 pub fn run_for_result(
     project: &Project,
     rule: &ImpedanceRule,
     result: &RuleResult,
     opts: &SpreadOptions,
 ) -> Result<SpreadSummary> {
-    let model = result_model(rule, result)?;
-    let mut s = run_with_model(project, rule, result, opts, &model)?;
-    if rule.model != crate::design::project::RuleModel::ClosedForm {
-        s.warnings.push(Warning::new(format!(
-            "spread from the closed form's sensitivities, scaled by {} to the field solver's nominal",
-            format_sig(model.factor, 4)
-        )));
-    }
-    Ok(s)
+    let correction = result_correction(project, rule, result)?;
+    run_corrected(
+        project,
+        rule,
+        result,
+        opts,
+        &Engine::ClosedForm,
+        correction.as_ref(),
+    )
+}
+
+/// The Monte Carlo samples of [`run_for_result`] (same setup, response, surface, seed and deviates; without
+/// centring), for drawing a histogram.
+pub fn result_samples(
+    project: &Project,
+    rule: &ImpedanceRule,
+    result: &RuleResult,
+    opts: &SpreadOptions,
+) -> Result<Vec<f64>> {
+    let correction = result_correction(project, rule, result)?;
+    let dims = Dims {
+        w: result.width_m,
+        s: result.spacing_m,
+        gap: result.gap_m,
+    };
+    let setup = Setup::new(project, rule, &result.cross_section, &dims)?;
+    let mut ev = setup.evaluator(&Engine::ClosedForm);
+    let mut direct = |d: &[f64]| corrected(ev.z(d), correction.as_ref(), d);
+    let surface = match opts.model {
+        SampleModel::Direct => None,
+        SampleModel::Quadratic => Some(Quadratic::fit(&setup.params, &mut direct)?),
+    };
+    let draws = standard_draws(&setup.params, opts.samples, rule_seed(opts.seed))?;
+    let (_, samples) = monte_carlo_on(
+        &setup.params,
+        &draws,
+        setup.lower_ohm,
+        setup.upper_ohm,
+        &mut |d| match &surface {
+            Some(q) => q.sample(d, &mut direct),
+            None => direct(d),
+        },
+    )?;
+    Ok(samples)
 }
 
 /// Analyses `rule` (synthesis included) and runs its spread.
@@ -1098,13 +1198,25 @@ pub fn run_rule(
     run_for_result(project, rule, &result, opts)
 }
 
-/// Runs the whole spread with any impedance model (the hook for a field-solver response surface).
+/// Runs the whole spread with any impedance model called directly (or through its quadratic surface).
 pub fn run_with_model(
     project: &Project,
     rule: &ImpedanceRule,
     result: &RuleResult,
     opts: &SpreadOptions,
     model: &dyn ImpedanceModel,
+) -> Result<SpreadSummary> {
+    run_corrected(project, rule, result, opts, model, None)
+}
+
+/// The spread on `model` times `correction`'s factor (when given).
+fn run_corrected(
+    project: &Project,
+    rule: &ImpedanceRule,
+    result: &RuleResult,
+    opts: &SpreadOptions,
+    model: &dyn ImpedanceModel,
+    correction: Option<&FieldCorrection>,
 ) -> Result<SpreadSummary> {
     let dims = Dims {
         w: result.width_m,
@@ -1122,7 +1234,7 @@ pub fn run_with_model(
     let seed = rule_seed(opts.seed);
     let (lower, upper) = (setup.lower_ohm, setup.upper_ohm);
     let mut ev = setup.evaluator(model);
-    let mut direct = |d: &[f64]| ev.z(d);
+    let mut direct = |d: &[f64]| corrected(ev.z(d), correction, d);
     let (z0, sens) = sensitivities(&setup.params, &mut direct)?;
     let surface = match opts.model {
         SampleModel::Direct => None,
@@ -1156,7 +1268,9 @@ pub fn run_with_model(
         )));
     }
     let centred = if opts.centre {
-        match centre(project, &setup, model, &sorted, z0, &mc, opts, &draws) {
+        match centre(
+            project, &setup, model, correction, &sorted, z0, &mc, opts, &draws,
+        ) {
             Ok(c) => Some(c),
             Err(e) => {
                 warnings.push(Warning::new(format!("tolerance centring: {e}")));
@@ -1171,6 +1285,13 @@ pub fn run_with_model(
     Ok(SpreadSummary {
         seed: opts.seed,
         model: opts.model,
+        response: match correction {
+            Some(c) => format!(
+                "{}, with the closed form's shape between its solves",
+                c.method
+            ),
+            None => model.name().to_string(),
+        },
         target_ohm: setup.target_ohm,
         lower_ohm: lower,
         upper_ohm: upper,
@@ -1186,11 +1307,20 @@ pub fn run_with_model(
     })
 }
 
+/// `z` times the correction's factor at `d`, when there is a correction.
+fn corrected(z: Result<f64>, correction: Option<&FieldCorrection>, d: &[f64]) -> Result<f64> {
+    match correction {
+        Some(c) => z.map(|z| z * c.factor(d)),
+        None => z,
+    }
+}
+
 #[allow(clippy::too_many_arguments)]
 fn centre(
     project: &Project,
     setup: &Setup,
     model: &dyn ImpedanceModel,
+    correction: Option<&FieldCorrection>,
     sorted: &[f64],
     z0: f64,
     mc: &MonteCarlo,
@@ -1229,11 +1359,11 @@ fn centre(
     let x = roots::solve(setup.free.name(), z0 + shift, &bracket, |x| {
         let s = setup.with_free(x);
         let mut ev = s.evaluator(model);
-        ev.z(&zero)
+        corrected(ev.z(&zero), correction, &zero)
     })?;
     let moved = setup.with_free(x);
     let mut ev = moved.evaluator(model);
-    let mut direct = |d: &[f64]| ev.z(d);
+    let mut direct = |d: &[f64]| corrected(ev.z(d), correction, d);
     let surface = match opts.model {
         SampleModel::Direct => None,
         SampleModel::Quadratic => Some(Quadratic::fit(&moved.params, &mut direct)?),

@@ -142,6 +142,8 @@ pub struct SpreadSummary {
     pub seed: u64,
     /// What the corners and samples called.
     pub model: SampleModel,
+    /// The engine whose response was sampled, in words (see [`super::FieldCorrection`]).
+    pub response: String,
     pub target_ohm: f64,
     pub lower_ohm: f64,
     pub upper_ohm: f64,
