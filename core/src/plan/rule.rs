@@ -96,7 +96,7 @@ pub struct FieldCheck {
 }
 
 /// The closed form's answer at a field result's dimensions.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct ClosedFormCheck {
     /// The published model that made it.
     pub method: String,

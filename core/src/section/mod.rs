@@ -94,7 +94,7 @@ pub struct CrossSection {
 /// For a microstrip `below` is the side of its plane (whichever way up) and `above` is unused (the cover is in
 /// [`Medium`]); for a stripline `below` leads to the plane later in the stack, `above` to the earlier one. Their
 /// heights add up to the heights in [`Medium`]. A copper layer in between counts as the dielectric next to it.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct Layering {
     pub below: Vec<(f64, f64)>,
     pub above: Vec<(f64, f64)>,

@@ -98,7 +98,7 @@ fn results(i: usize, r: &RuleResult, project: &Project, state: RowState) -> Html
                 <div class="figure main">
                     <span class="fig-label">{ z_label }</span>
                     <span class="fig-value" data-testid={format!("rule-{i}-impedance")} data-value={r.impedance_ohm.to_string()}>{ format!("{:.2}", r.impedance_ohm) }</span>
-                    <span class="fig-engine muted" data-testid={format!("rule-{i}-method")}>{ r.method }</span>
+                    <span class="fig-engine muted" data-testid={format!("rule-{i}-method")}>{ r.method.to_string() }</span>
                     // The closed form's measured band, when wide, sits next to the number it qualifies.
                     if let Some(b) = r.model_band_pct {
                         <span class="badge bad" data-testid={format!("rule-{i}-model-band")} title="measured against the 2D field solver (docs/accuracy.md); use the field solver for this rule">{ format!("closed form ±{}% vs field solver", format_sig(b, 3)) }</span>

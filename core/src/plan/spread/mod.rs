@@ -1123,7 +1123,7 @@ pub fn result_correction(
     rule: &ImpedanceRule,
     result: &RuleResult,
 ) -> Result<Option<FieldCorrection>> {
-    let Some(engine) = Engine::that_made(result.method, project) else {
+    let Some(engine) = Engine::that_made(&result.method, project) else {
         return Ok(None);
     };
     let dims = Dims {
