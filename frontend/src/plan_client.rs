@@ -112,7 +112,12 @@ impl PlanClient {
 
     fn attach(&self, worker: Worker) {
         let on_event = self.inner.borrow().on_event.clone();
+        // Whether this worker ever answered: one that did and then stopped died on a request (which the page's
+        // thread would die on too), not on the page's policy.
+        let answered = Rc::new(std::cell::Cell::new(false));
+        let seen = answered.clone();
         let on_message = Closure::<dyn FnMut(MessageEvent)>::new(move |e: MessageEvent| {
+            seen.set(true);
             match serde_wasm_bindgen::from_value::<Vec<Update>>(e.data()) {
                 Ok(updates) => on_event(Event::Updates(updates)),
                 Err(err) => on_event(Event::Updates(vec![Update::Failed {
@@ -121,7 +126,9 @@ impl PlanClient {
                 }])),
             }
         });
-        // A worker the page's policy refuses, or one that crashes, reports here: plan on the page instead.
+        // A worker the page's policy refuses, or one that fails to start, reports here: plan on the page instead.
+        // One that stopped after answering is replaced by a fresh worker, and the request it stopped on is reported
+        // as failed rather than re-run. Handled on a later task: this closure belongs to the backend replaced.
         let weak = Rc::downgrade(&self.inner);
         let on_error = Closure::<dyn FnMut(web_sys::Event)>::new(move |e: web_sys::Event| {
             let why = e
@@ -129,9 +136,18 @@ impl PlanClient {
                 .map(|e| e.message())
                 .filter(|m| !m.is_empty())
                 .unwrap_or_else(|| "the plan worker stopped".into());
-            if let Some(inner) = weak.upgrade() {
-                PlanClient { inner }.fall_back(&why);
-            }
+            let (weak, answered) = (weak.clone(), answered.get());
+            gloo::timers::callback::Timeout::new(0, move || {
+                if let Some(inner) = weak.upgrade() {
+                    let client = PlanClient { inner };
+                    if answered {
+                        client.replace_worker(&why);
+                    } else {
+                        client.fall_back(&why);
+                    }
+                }
+            })
+            .forget();
         });
         worker.set_onmessage(Some(on_message.as_ref().unchecked_ref()));
         worker.set_onerror(Some(on_error.as_ref().unchecked_ref()));
@@ -140,6 +156,31 @@ impl PlanClient {
             _on_message: on_message,
             _on_error: on_error,
         };
+    }
+
+    /// After a worker stopped mid-request: reports that request as failed and starts a fresh worker for the next.
+    fn replace_worker(&self, why: &str) {
+        let (on_event, generation) = {
+            let mut inner = self.inner.borrow_mut();
+            if let Backend::Worker { worker, .. } = &inner.backend {
+                worker.terminate();
+            }
+            inner.backend = Backend::None;
+            (
+                inner.on_event.clone(),
+                inner.last.as_ref().map_or(0, |r| r.generation),
+            )
+        };
+        on_event(Event::Updates(vec![Update::Failed {
+            generation,
+            message: format!(
+                "the field engine stopped ({why}); the figures shown are the closed form's"
+            ),
+        }]));
+        match spawn_worker() {
+            Ok(worker) => self.attach(worker),
+            Err(e) => self.fall_back(&e),
+        }
     }
 
     /// Moves planning onto this thread and re-sends the last request there.
