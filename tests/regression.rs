@@ -101,14 +101,16 @@ fn legal_extreme_lengths_give_finite_results_or_errors() {
                     ("thickness", "0"),
                     ("dk", "4"),
                     ("spacing", w),
-                    ("gap", w),
                     ("separation", h),
-                    ("mask-thickness", h),
-                    ("mask-dk", "3.5"),
-                    ("cover", h),
-                    ("cover-dk", "4"),
                 ]
                 .into_iter()
+                .chain(match kind {
+                    "coated-microstrip" => vec![("mask-thickness", h), ("mask-dk", "3.5")],
+                    "embedded-microstrip" => vec![("cover", h), ("cover-dk", "4")],
+                    // A gap makes a stripline coplanar (field engines only); only the coplanar kinds get one.
+                    k if k.contains("coplanar") => vec![("gap", w)],
+                    _ => vec![],
+                })
                 .map(|(k, v)| (k.to_string(), v.to_string()))
                 .collect();
                 // Keep only the fields the kind knows (parse rejects the others by name).

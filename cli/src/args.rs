@@ -89,10 +89,6 @@ core_parser!(
     Percent -> f64 = |f, t| parse_number(f, t, &["%"])
 );
 core_parser!(
-    /// A plain number.
-    Number -> f64 = |f, t| parse_number(f, t, &[])
-);
-core_parser!(
     /// A length of a line case, checked here and kept as text: the case reader takes text.
     LengthText -> String = |f, t| parse_length(f, t).map(|_| t.to_string())
 );
@@ -184,6 +180,13 @@ pub struct CaseArgs {
     /// Dielectric constant of the cover
     #[arg(long, value_name = "NUMBER", value_parser = NumberText, allow_hyphen_values = true)]
     pub cover_dk: Option<String>,
+    /// Dielectric constant of the --height2 dielectric of a stripline (default: --dk)
+    #[arg(long, value_name = "NUMBER", value_parser = NumberText, allow_hyphen_values = true)]
+    pub dk2: Option<String>,
+    /// Etch factor (thickness / one-side undercut): trapezoidal traces, narrower on top by 2·thickness/factor
+    /// (default: rectangular; the field engines model it, the closed forms do not)
+    #[arg(long, value_name = "NUMBER", value_parser = NumberText, allow_hyphen_values = true)]
+    pub etch_factor: Option<String>,
 }
 
 impl CaseArgs {
@@ -202,6 +205,8 @@ impl CaseArgs {
             ("mask-dk", &self.mask_dk),
             ("cover", &self.cover),
             ("cover-dk", &self.cover_dk),
+            ("dk2", &self.dk2),
+            ("etch-factor", &self.etch_factor),
         ]
         .into_iter()
         .filter_map(|(k, v)| v.as_ref().map(|v| (k.to_string(), v.clone())))
@@ -297,6 +302,50 @@ pub struct FoilArgs {
     /// Roughness model of the preset [default: hammerstad-groiss]
     #[arg(long, value_name = "MODEL", ignore_case = true)]
     pub foil_model: Option<FoilModel>,
+}
+
+/// The engines a single cross-section (`calc`, `solve`, `batch`) is computed on.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, clap::ValueEnum)]
+pub enum CaseEngine {
+    /// The published closed-form models (instant; rectangular traces)
+    ClosedForm,
+    /// The fast 2D field engine (boundary elements, milliseconds)
+    #[default]
+    Field,
+    /// The finite-volume 2D field solver, the independent reference (up to seconds)
+    Reference,
+}
+
+impl CaseEngine {
+    /// The name as typed on the command line and in batch lines (`closed-form`, `field`, `reference`).
+    pub fn name(self) -> &'static str {
+        match self {
+            CaseEngine::ClosedForm => "closed-form",
+            CaseEngine::Field => "field",
+            CaseEngine::Reference => "reference",
+        }
+    }
+
+    /// Reads a name as `name` gives it (batch lines carry the engine as text).
+    pub fn from_name(text: &str) -> Option<CaseEngine> {
+        [
+            CaseEngine::ClosedForm,
+            CaseEngine::Field,
+            CaseEngine::Reference,
+        ]
+        .into_iter()
+        .find(|e| e.name() == text.trim())
+    }
+}
+
+/// `--engine` of `calc`, `solve` and `batch`.
+#[derive(clap::Args)]
+#[command(next_help_heading = "Engine")]
+pub struct CaseEngineArgs {
+    /// Engine: `field` (2D field engine, boundary elements; the default), `closed-form` (published formulas,
+    /// instant) or `reference` (finite-volume field solver, slow)
+    #[arg(long, value_enum, value_name = "ENGINE", default_value_t = CaseEngine::Field)]
+    pub engine: CaseEngine,
 }
 
 /// `--engine`: which engine answers every rule, over each rule's own choice.

@@ -121,7 +121,7 @@ fn field_calc_bad_input_names_the_field() {
         (vec!["--width", "-1mm"], "width"),
         (
             vec!["--width", "0.1mm", "--etch-factor", "0.1"],
-            "etch_factor",
+            "etch-factor",
         ),
         (vec!["--width", "0.1mm", "--tolerance", "nan"], "tolerance"),
         (vec!["--width", "0.1mm", "--spacing", "abc"], "spacing"),

@@ -114,6 +114,57 @@ fn calc_and_solve_reject_hostile_numbers_in_every_field() {
     }
 }
 
+/// The options a case takes beyond width, height, thickness and Dk (solder mask, cover, a second dielectric, the
+/// etch factor, coplanar grounds between planes), each given every hostile number in turn, on both engines a
+/// script would pick.
+#[test]
+fn case_options_reject_hostile_numbers() {
+    let microstrip = [
+        "calc",
+        "microstrip",
+        "--width",
+        "0.3mm",
+        "--height",
+        "0.17mm",
+        "--thickness",
+        "35um",
+        "--dk",
+        "4.2",
+    ];
+    let stripline = [
+        "calc",
+        "stripline",
+        "--width",
+        "0.1mm",
+        "--height",
+        "0.15mm",
+        "--thickness",
+        "17um",
+        "--dk",
+        "4",
+    ];
+    let options: &[(&[&str], &[&str], &str)] = &[
+        (&microstrip, &["--mask-dk", "3.5"], "--mask-thickness"),
+        (&microstrip, &["--mask-thickness", "20um"], "--mask-dk"),
+        (&microstrip, &["--cover-dk", "3.8"], "--cover"),
+        (&microstrip, &["--cover", "0.1mm"], "--cover-dk"),
+        (&microstrip, &[], "--etch-factor"),
+        (&stripline, &["--height2", "0.2mm"], "--dk2"),
+        (&stripline, &["--dk2", "3.6"], "--height2"),
+        (&stripline, &[], "--gap"),
+    ];
+    for bad in HOSTILE_NUMBERS {
+        for (base, with, option) in options {
+            for engine in ["field", "closed-form"] {
+                let mut args = base.to_vec();
+                args.extend(*with);
+                args.extend([*option, *bad, "--engine", engine]);
+                assert_clean_failure(&args, Vec::new());
+            }
+        }
+    }
+}
+
 #[test]
 fn every_project_command_rejects_hostile_stdin() {
     let big = {

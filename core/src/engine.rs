@@ -289,6 +289,7 @@ mod tests {
         let between = (a.controlled() / r.controlled() - 1.0).abs() * 100.0;
         let allowed = a.error_estimate_pct.unwrap() + r.error_estimate_pct.unwrap();
         assert!(between <= allowed, "{between} % vs {allowed} %");
+        eprintln!("merged Dk moves Z by {merged_error:.2} %; field vs reference {between:.3} % (allowed {allowed:.2} %)");
         // εeff lies between the layers' Dk.
         let eps = match &a.analysis {
             Analysis::Single(line) => line.eps_eff,

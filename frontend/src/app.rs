@@ -472,7 +472,13 @@ pub fn App() -> Html {
                     .map_err(|e| e.to_string())
                     .and_then(|text| persist::open_file(&text))
                 {
-                    Ok(project) => Action::Load(Box::new(project), format!("opened {name}")),
+                    Ok((project, notes)) => Action::Load(
+                        Box::new(project),
+                        std::iter::once(format!("opened {name}"))
+                            .chain(notes.iter().map(|n| format!("it was {n}")))
+                            .collect::<Vec<_>>()
+                            .join("; "),
+                    ),
                     Err(e) => Action::Notify(Some(Notice {
                         error: true,
                         text: format!("could not open {name}: {e}; your work is unchanged"),

@@ -437,9 +437,10 @@ pub fn encode_link(project: &Project) -> String {
     ohmstack_core::design::share::encode(project)
 }
 
-/// Reads a share link (untrusted); the error is the core's `ShareError` text.
-pub fn decode_link(link: &str) -> Result<Project, String> {
-    ohmstack_core::design::share::decode(link).map_err(|e| e.to_string())
+/// Reads a share link (untrusted; the error is the core's `ShareError` text), with what reading an older schema
+/// changed, in the user's words (said when the link opens).
+pub fn decode_link_noting(link: &str) -> Result<(Project, Vec<String>), String> {
+    ohmstack_core::design::share::decode_noting(link).map_err(|e| e.to_string())
 }
 
 /// Reads a saved project (untrusted: validated like a file).

@@ -153,7 +153,8 @@ pub fn decode_project(text: &str) -> Result<Project, String> {
         Ok(p) => Ok(p),
         Err(strict) => {
             let p: Project = serde_json::from_str(text).map_err(|_| strict.to_string())?;
-            if p.schema != ohmstack_core::design::project::SCHEMA_VERSION {
+            // Schema 1 reads as schema 2 (the only change is what a missing `model` means).
+            if p.schema > ohmstack_core::design::project::SCHEMA_VERSION {
                 return Err(strict.to_string());
             }
             p.stackup.validate().map_err(|e| e.to_string())?;
@@ -164,8 +165,8 @@ pub fn decode_project(text: &str) -> Result<Project, String> {
 
 /// Reads a project file chosen by the user: exactly the CLI's schema ([`Project::from_json`]), the core's message
 /// on failure.
-pub fn open_file(text: &str) -> Result<Project, String> {
-    Project::from_json(text).map_err(|e| e.to_string())
+pub fn open_file(text: &str) -> Result<(Project, Vec<String>), String> {
+    Project::from_json_noting(text).map_err(|e| e.to_string())
 }
 
 /// The history as JSON: `{"undo": [...], "redo": [...]}`, the most recent steps only.

@@ -24,9 +24,12 @@ def run(*args: str, stdin: str = "") -> subprocess.CompletedProcess:
     return subprocess.run([ohmstack_bin(), *args], input=stdin, capture_output=True, text=True, timeout=600)
 
 
-def batch(cases: list[dict]) -> list[dict]:
-    """Sends cases to `ohmstack batch` as JSON lines; returns one result dict per case (in order)."""
-    text = "".join(json.dumps(c) + "\n" for c in cases)
+def batch(cases: list[dict], engine: str = "closed-form") -> list[dict]:
+    """Sends cases to `ohmstack batch` as JSON lines; returns one result dict per case (in order).
+
+    `batch` computes on the field engine unless told otherwise; most modules here check the published closed forms,
+    so each case gets `"engine": engine` (closed-form by default) unless it names one itself."""
+    text = "".join(json.dumps({"engine": engine, **c}) + "\n" for c in cases)
     proc = run("batch", stdin=text)
     assert proc.returncode == 0, proc.stderr
     out = [json.loads(line) for line in proc.stdout.splitlines() if line.strip()]

@@ -174,8 +174,9 @@ pub fn run(args: &[String]) -> Result<()> {
     }
     let bin = crate::dist::target_dir().join("release").join("ohmstack");
     let start = Instant::now();
+    // The closed form is what the peer computes; batch's default engine is the field engine.
     let mut child = Command::new(&bin)
-        .arg("batch")
+        .args(["batch", "--engine", "closed-form"])
         .stdin(Stdio::piped())
         .stdout(Stdio::null())
         .spawn()

@@ -1,9 +1,11 @@
 //! `ohmstack batch`: JSON lines of line cases on stdin, one JSON result per line on stdout. A bad line gets an
-//! error object and the batch goes on.
+//! error object and the batch goes on. Each line is computed as `calc` (or `solve`, with a target) computes it, on
+//! the field engine unless the line's `"engine"` or `--engine` says otherwise.
 
 use ohmstack_core::base::units::parse_number;
 
-use crate::commands::calc::{compute, evaluated_json};
+use crate::args::{CaseEngine, CaseEngineArgs};
+use crate::commands::calc::{case_json, compute};
 use anyhow::{anyhow, bail, Context, Result};
 use serde_json::{json, Value};
 use std::collections::BTreeMap;
@@ -11,15 +13,20 @@ use std::io::{BufRead, Write};
 
 const FORMAT: &str = "Each input line is one object, e.g. \
 {\"structure\": \"microstrip\", \"width\": \"0.3mm\", \"height\": \"0.17mm\", \"dk\": 4.2}; \
-with a \"target\" (Ω) the width is solved. Each output line is the result, or {\"line\": N, \"error\": \"…\"}.";
+with a \"target\" (Ω) the width is solved. The keys are calc's options without the dashes in front \
+(\"mask-thickness\", \"etch-factor\", \"dk2\", …); an \"engine\" key (closed-form, field, reference) overrides \
+--engine for its line. Each output line is the result, or {\"line\": N, \"error\": \"…\"}.";
 
 #[derive(clap::Args)]
 #[command(after_help = FORMAT)]
-pub struct Args {}
+pub struct Args {
+    #[command(flatten)]
+    pub engine: CaseEngineArgs,
+}
 
 /// One JSON object per line in: `{"structure": "microstrip", "width": "0.3mm", ..., "target": 50}` (with a target,
 /// the width is solved). One JSON object per line out, `{"error": "..."}` for a bad line; the batch goes on.
-pub fn run(_: Args) -> Result<()> {
+pub fn run(args: Args) -> Result<()> {
     let stdin = std::io::stdin();
     let stdout = std::io::stdout();
     let mut out = std::io::BufWriter::new(stdout.lock());
@@ -28,7 +35,7 @@ pub fn run(_: Args) -> Result<()> {
         if line.trim().is_empty() {
             continue;
         }
-        let result = batch_line(&line)
+        let result = batch_line(&line, args.engine.engine)
             .unwrap_or_else(|e| json!({ "line": n + 1, "error": format!("{e:#}") }));
         serde_json::to_writer(&mut out, &result)?;
         out.write_all(b"\n")?;
@@ -36,7 +43,7 @@ pub fn run(_: Args) -> Result<()> {
     Ok(())
 }
 
-fn batch_line(line: &str) -> Result<Value> {
+fn batch_line(line: &str, default_engine: CaseEngine) -> Result<Value> {
     let value: Value = serde_json::from_str(line).context("not a JSON object")?;
     let object = value
         .as_object()
@@ -60,6 +67,11 @@ fn batch_line(line: &str) -> Result<Value> {
         .remove("target")
         .map(|t| parse_number("target", &t, &["ohm", "Ω"]))
         .transpose()?;
-    let (case, e) = compute(&kind, map, target)?;
-    Ok(evaluated_json(&case, &e))
+    let engine = match map.remove("engine") {
+        Some(name) => CaseEngine::from_name(&name).ok_or_else(|| {
+            anyhow!("engine: unknown engine {name:?}; use closed-form, field or reference")
+        })?,
+        None => default_engine,
+    };
+    Ok(case_json(&compute(&kind, map, target, engine)?))
 }

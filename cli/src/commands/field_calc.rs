@@ -1,6 +1,6 @@
 //! `ohmstack field-calc KIND`: a 2D field solve of one structure given by its dimensions, next to the closed form.
 
-use ohmstack_core::base::units::parse_length;
+use ohmstack_core::base::units::{parse_length, parse_number};
 use ohmstack_core::closed_form::bands;
 use ohmstack_core::field::boundary::{self, BemOptions};
 use ohmstack_core::field::extract::compare_in_band;
@@ -8,7 +8,7 @@ use ohmstack_core::field::{build, FieldSolve};
 use ohmstack_core::plan::case;
 use ohmstack_core::Structure;
 
-use crate::args::{CaseArgs, Number};
+use crate::args::CaseArgs;
 use crate::commands::field::{
     comparison_line, field_json, print_field, write_map, FieldEngine, SolverArgs,
 };
@@ -28,10 +28,6 @@ pub struct Args {
     pub json: bool,
     #[command(flatten)]
     pub case: CaseArgs,
-    /// Etch factor of the trace sides (default: a rectangular trace)
-    #[arg(long, value_name = "NUMBER", value_parser = Number, allow_hyphen_values = true,
-          help_heading = "Field solver")]
-    pub etch_factor: Option<f64>,
     /// Which field engine solves: the fast boundary-element engine, or the finite-volume reference (default)
     #[arg(long, value_enum, default_value_t = FieldEngine::Reference, help_heading = "Field solver")]
     pub engine: FieldEngine,
@@ -43,7 +39,10 @@ pub fn run(args: Args) -> Result<()> {
     let kind = args.case.kind.as_str();
     let mut map = args.case.fields();
     let options = args.solver.options()?;
-    let etch = args.etch_factor;
+    let etch = map
+        .get("etch-factor")
+        .map(|text| parse_number("etch-factor", text, &[]))
+        .transpose()?;
     let map_path = args.solver.map;
     let json = args.json;
     // Kinds that name their own pattern (pairs, coplanar) take --spacing/--gap as `calc` does; for the plain

@@ -129,6 +129,12 @@ pub fn encode(project: &Project) -> String {
 /// Reads a link back into a project. Accepts the bare fragment (`v1.…`), the fragment with its `#`, or a whole
 /// URL (everything up to the last `#` is ignored); surrounding whitespace is ignored, nothing else is forgiven.
 pub fn decode(link: &str) -> Result<Project, ShareError> {
+    decode_noting(link).map(|(project, _)| project)
+}
+
+/// [`decode`], also returning what reading an older schema changed, in the user's words
+/// ([`Project::from_json_noting`]): the app says it when an old link opens.
+pub fn decode_noting(link: &str) -> Result<(Project, Vec<String>), ShareError> {
     let text = link.trim();
     let text = match text.rfind('#') {
         Some(i) => &text[i + 1..],
@@ -156,7 +162,7 @@ pub fn decode(link: &str) -> Result<Project, ShareError> {
     }
     // Exact text, so `v01.` is not taken for `v1.`.
     match number {
-        "1" => decode_v1(payload),
+        "1" => decode_v1_noting(payload),
         _ => Err(ShareError::UnsupportedVersion {
             found: number.chars().take(12).collect(),
             supported: LINK_VERSION,
@@ -166,6 +172,10 @@ pub fn decode(link: &str) -> Result<Project, ShareError> {
 
 /// Decodes a version-1 payload (the text after `v1.`). Kept unchanged forever once a later version exists.
 pub fn decode_v1(payload: &str) -> Result<Project, ShareError> {
+    decode_v1_noting(payload).map(|(project, _)| project)
+}
+
+fn decode_v1_noting(payload: &str) -> Result<(Project, Vec<String>), ShareError> {
     if payload.is_empty() {
         return Err(ShareError::Truncated);
     }
@@ -200,7 +210,7 @@ pub fn decode_v1(payload: &str) -> Result<Project, ShareError> {
     let text = std::str::from_utf8(&json).map_err(|_| ShareError::Corrupt {
         detail: "the data is not UTF-8 text".into(),
     })?;
-    Project::from_json(text).map_err(ShareError::InvalidProject)
+    Project::from_json_noting(text).map_err(ShareError::InvalidProject)
 }
 
 fn version_prefix_len() -> usize {
@@ -260,6 +270,18 @@ fn inflate_limited(input: &[u8], limit: usize) -> Result<Vec<u8>, ShareError> {
 
 #[cfg(test)]
 mod tests {
+    #[test]
+    fn an_old_link_says_its_rules_are_now_field_solved() {
+        // The golden demo link was written with schema 1, when a rule without a model was a closed-form rule.
+        let link = include_str!("../../../tests/fixtures/demo.link");
+        let (project, notes) = super::decode_noting(link).unwrap();
+        assert_eq!(notes.len(), 1, "{notes:?}");
+        assert!(notes[0].contains("field engine"), "{notes:?}");
+        // A fresh link has nothing to say.
+        let fresh = super::encode(&project);
+        assert!(super::decode_noting(&fresh).unwrap().1.is_empty());
+    }
+
     use super::*;
     use proptest::prelude::*;
 

@@ -16,7 +16,8 @@ pub mod spread;
 pub mod synthesis;
 
 pub use rule::{
-    analyze_rule, evaluate_rule, evaluate_rule_with, rule_figures, RuleOutcome, RuleResult,
+    analyze_rule, evaluate_rule, evaluate_rule_with, rule_figures, solve_line, RuleOutcome,
+    RuleResult, SolvedLine,
 };
 
 /// One row of the stack table.

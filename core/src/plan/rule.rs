@@ -25,6 +25,10 @@ pub struct RuleResult {
     /// The structure as chosen in the rule, e.g. "edge-coupled pair".
     pub structure: Cow<'static, str>,
     pub method: Cow<'static, str>,
+    /// The engine's estimated relative error of the impedance, %, when it states one (the field engines; the closed
+    /// forms give their measured band in `model_band_pct` instead).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub error_estimate_pct: Option<f64>,
     pub references: Vec<String>,
     pub width_m: f64,
     pub spacing_m: Option<f64>,
@@ -258,15 +262,46 @@ fn solve_free_dimension(
     }
 }
 
-fn compute(project: &Project, rule: &ImpedanceRule, engine: &Engine) -> Result<RuleResult> {
+/// One rule's line on an engine before its figures: the resolved cross-section, the dimensions after synthesis
+/// (and which one was solved), the engine's answer at them and the synthesis's notes. [`evaluate_rule_with`] builds
+/// a rule's figures from it; `calc`, `solve` and `batch` show it as it is (a line case has no loss inputs).
+#[derive(Debug, Clone, PartialEq)]
+pub struct SolvedLine {
+    pub cross_section: CrossSection,
+    pub dims: Dims,
+    pub solved: Option<&'static str>,
+    pub answer: Answer,
+    pub notes: Vec<Warning>,
+}
+
+/// Resolves the rule's cross-section, solves its free dimension on `engine` and analyses it there.
+pub fn solve_line(project: &Project, rule: &ImpedanceRule, engine: &Engine) -> Result<SolvedLine> {
+    rule.validate(&project.stackup)?;
+    solve_validated(project, rule, engine)
+}
+
+fn solve_validated(project: &Project, rule: &ImpedanceRule, engine: &Engine) -> Result<SolvedLine> {
     let cs = section::resolve(&project.stackup, rule)?;
     let solved = solve_free_dimension(project, rule, &cs, engine)?;
     let answer = match solved.answer {
         Some(a) => a,
         None => engine.analyze(&cs, rule.structure, &solved.dims)?,
     };
-    let mut notes = solved.notes;
-    if let Some(err) = answer.error_estimate_pct {
+    Ok(SolvedLine {
+        cross_section: cs,
+        dims: solved.dims,
+        solved: solved.dimension,
+        answer,
+        notes: solved.notes,
+    })
+}
+
+fn compute(project: &Project, rule: &ImpedanceRule, engine: &Engine) -> Result<RuleResult> {
+    let line = solve_validated(project, rule, engine)?;
+    let (cs, answer) = (line.cross_section, line.answer);
+    let mut notes = line.notes;
+    let error_estimate_pct = answer.error_estimate_pct;
+    if let Some(err) = error_estimate_pct {
         notes.push(Warning::new(format!(
             "figures from the {} (estimated error {} %); loss from the closed-form models at these dimensions",
             answer.method,
@@ -277,11 +312,12 @@ fn compute(project: &Project, rule: &ImpedanceRule, engine: &Engine) -> Result<R
         project,
         rule,
         cs,
-        solved.dims,
-        solved.dimension,
+        line.dims,
+        line.solved,
         answer.method,
         answer.analysis,
     );
+    result.error_estimate_pct = error_estimate_pct;
     for n in notes {
         if !result.warnings.contains(&n) {
             result.warnings.push(n);
@@ -290,7 +326,7 @@ fn compute(project: &Project, rule: &ImpedanceRule, engine: &Engine) -> Result<R
     if !engine.is_closed_form() {
         // Microseconds beside a field solve; a structure the closed forms refuse simply has no cross-check.
         if let Ok(closed) =
-            Engine::ClosedForm.analyze(&result.cross_section, rule.structure, &solved.dims)
+            Engine::ClosedForm.analyze(&result.cross_section, rule.structure, &line.dims)
         {
             let z = closed.controlled();
             result.closed_form_check = Some(ClosedFormCheck {
@@ -359,6 +395,7 @@ pub fn rule_figures(
         family: cs.family_for(rule.structure).into(),
         structure: rule.structure.label().into(),
         method: method.into(),
+        error_estimate_pct: None,
         references: cs.references.clone(),
         width_m: dims.w,
         spacing_m: dims.s,

@@ -61,7 +61,7 @@ fn decide(fragment: Option<&str>, local: Option<&Project>, current: &Project) ->
             _ => Decision::Keep(None),
         };
     };
-    match bridge::decode_link(fragment) {
+    match bridge::decode_link_noting(fragment) {
         Err(message) => {
             let kept = "The link was not opened; your current work is kept.";
             let status = Some(Status::Error(format!("{message}. {kept}")));
@@ -70,8 +70,14 @@ fn decide(fragment: Option<&str>, local: Option<&Project>, current: &Project) ->
                 _ => Decision::Keep(status),
             }
         }
-        Ok(linked) => {
-            let opened = Status::Info(format!("Opened the linked project “{}”.", linked.title));
+        Ok((linked, notes)) => {
+            // An old link's numbers may now come from another engine: say so rather than let them change silently.
+            let opened = Status::Info(
+                std::iter::once(format!("Opened the linked project “{}”.", linked.title))
+                    .chain(notes.iter().map(|n| format!("It was {n}.")))
+                    .collect::<Vec<_>>()
+                    .join(" "),
+            );
             match local {
                 Some(l) if *l != linked => Decision::Ask(
                     Box::new(linked),

@@ -72,18 +72,20 @@ pub struct BemOptions {
 impl Default for BemOptions {
     fn default() -> Self {
         BemOptions {
+            // Dielectric interfaces (mask, cover, layer boundaries) graded finely far out: an embedded pair on the
+            // 12-layer fixture was 0.35 % low against the reference with 1.25 / 2.0 here, 0.05 % with 1.1 / 1.3.
             fine: MeshParams {
                 first: 1e-3,
                 growth: 1.6,
-                growth_interface: 1.25,
-                growth_far: 2.0,
+                growth_interface: 1.1,
+                growth_far: 1.3,
                 far: 5.0,
             },
             coarse: MeshParams {
-                first: 3e-3,
-                growth: 2.0,
-                growth_interface: 1.4,
-                growth_far: 2.5,
+                first: 2e-3,
+                growth: 1.8,
+                growth_interface: 1.25,
+                growth_far: 2.0,
                 far: 4.0,
             },
             tolerance: 3e-3,
