@@ -7,7 +7,7 @@
 //! let first = plan.rules[0].ok().unwrap();
 //! // Solved on the 2D field engine (every rule's default) to 0.01 % of the 50 Ω target.
 //! assert!((first.impedance_ohm - 50.0).abs() < 5e-3);
-//! assert!(ohmstack_core::engine::is_field_method(first.method));
+//! assert!(ohmstack_core::engine::is_field_method(&first.method));
 //! ```
 //!
 //! The modules are layers, listed here from the bottom up; a layer imports only from layers below it (held by

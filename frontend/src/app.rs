@@ -4,14 +4,61 @@
 use crate::bridge;
 use crate::panels::{Layers, Rules, Toolbar};
 use crate::persist;
+use crate::plan_client::{self, PlanClient};
+use crate::plan_jobs::{FieldPlan, Previewer, RowState};
 use crate::state::{self, Action, Notice};
 use ohmstack_core::Plan;
 use std::rc::Rc;
 use wasm_bindgen::JsCast;
 use yew::prelude::*;
 
-/// How long typing must pause before the tolerance spread is recomputed, ms.
-const SPREAD_DELAY_MS: u32 = 250;
+/// The field plan as the page sees it, with where it runs.
+#[derive(Default, PartialEq)]
+struct FieldState {
+    plan: FieldPlan,
+    /// "worker", or "page" when the plan runs on the page's thread ("" until the client starts).
+    runner: &'static str,
+    /// Why no worker plans, when none does.
+    fallback: Option<String>,
+}
+
+impl Reducible for FieldState {
+    type Action = plan_client::Event;
+
+    fn reduce(self: Rc<Self>, event: Self::Action) -> Rc<Self> {
+        let mut next = FieldState {
+            plan: self.plan.clone(),
+            runner: self.runner,
+            fallback: self.fallback.clone(),
+        };
+        match event {
+            plan_client::Event::Submitted(generation, project) => {
+                next.plan.submitted(generation, *project)
+            }
+            plan_client::Event::Updates(updates) => {
+                // Results for an older generation are dropped without a render.
+                let mut taken = false;
+                for update in updates {
+                    taken |= next.plan.apply(update);
+                }
+                if !taken {
+                    return self;
+                }
+            }
+            plan_client::Event::Started(runner) => {
+                // A fallback reported while starting stands.
+                if next.fallback.is_none() {
+                    next.runner = runner.name();
+                }
+            }
+            plan_client::Event::Fallback(why) => {
+                next.runner = "page";
+                next.fallback = Some(why);
+            }
+        }
+        Rc::new(next)
+    }
+}
 
 /// This tab's hold on its saved project.
 #[derive(Default)]
@@ -70,23 +117,39 @@ pub fn App() -> Html {
     let saved_work = use_memo((), |_| crate::panels::share::local_work().map(Rc::new));
     let project = Rc::new(state.project.clone());
     let drafts = Rc::new(state.drafts.clone());
-    // Impedance, loss and delay follow every keystroke; the tolerance spread (slow for the moment-method
-    // striplines) follows once typing pauses for SPREAD_DELAY_MS, and replaces the quick plan when it is for the
-    // same project.
-    let quick = use_memo(state.project.clone(), bridge::analyse_quick);
-    let full = use_state(|| None::<(ohmstack_core::Project, Rc<Result<Plan, String>>)>);
-    let pending = use_mut_ref(|| None::<gloo::timers::callback::Timeout>);
+    // The closed-form preview follows every keystroke at once; the field figures (field check and tolerance
+    // spread, every rule on its engine) come from the plan worker rule by rule and replace the preview's row by
+    // row as they land (plan_client.rs, plan_jobs.rs).
+    let previewer = use_mut_ref(Previewer::default);
+    let preview = use_memo(state.project.clone(), move |p| {
+        previewer.borrow_mut().plan(p)
+    });
+    let field = use_reducer(FieldState::default);
+    let planner = use_mut_ref(|| None::<PlanClient>);
+    let generation = use_mut_ref(|| 0u64);
     {
-        let (full, pending) = (full.clone(), pending.clone());
+        let (planner, field) = (planner.clone(), field.dispatcher());
+        use_effect_with((), move |_| {
+            let dispatch = field.clone();
+            let client = PlanClient::start(move |event| dispatch.dispatch(event));
+            field.dispatch(plan_client::Event::Started(client.runner()));
+            *planner.borrow_mut() = Some(client);
+        });
+    }
+    {
+        let (planner, generation, field) =
+            (planner.clone(), generation.clone(), field.dispatcher());
+        let plannable = preview.is_ok();
         use_effect_with(state.project.clone(), move |p| {
-            let p = p.clone();
-            *pending.borrow_mut() = Some(gloo::timers::callback::Timeout::new(
-                SPREAD_DELAY_MS,
-                move || {
-                    let plan = bridge::analyse(&p);
-                    full.set(Some((p, Rc::new(plan))));
-                },
-            ));
+            // A stack that cannot be planned keeps the last good figures on screen (issue 17): nothing to send.
+            if plannable {
+                let mut g = generation.borrow_mut();
+                *g += 1;
+                field.dispatch(plan_client::Event::Submitted(*g, Box::new(p.clone())));
+                if let Some(client) = planner.borrow().as_ref() {
+                    client.submit(*g, p);
+                }
+            }
         });
     }
     // The potential map of the last field check, with the project it was solved for (any edit makes it stale).
@@ -105,19 +168,27 @@ pub fn App() -> Html {
         Some((p, view)) if *p == state.project => Some(view.clone()),
         _ => None,
     };
-    let (plan, settled): (Rc<Result<Plan, String>>, bool) = match &*full {
-        Some((p, plan)) if *p == state.project => (plan.clone(), true),
-        _ => (Rc::new((*quick).clone()), false),
+    let settled = field.plan.settled_for(&state.project);
+    let (plan, rows): (Rc<Result<Plan, String>>, Rc<Vec<RowState>>) = match &*preview {
+        Ok(p) => {
+            let (merged, rows) = field.plan.merge(&state.project, p);
+            (Rc::new(Ok(merged)), Rc::new(rows))
+        }
+        Err(e) => (Rc::new(Err(e.clone())), Rc::new(Vec::new())),
     };
     // The last plan that computed, shown greyed while the current one cannot be.
-    let last_good = use_mut_ref(|| None::<Rc<Plan>>);
-    let (shown, plan_error) = match &*plan {
+    let last_good = use_mut_ref(|| None::<(Rc<Plan>, Rc<Vec<RowState>>)>);
+    let (shown, rows, plan_error) = match &*plan {
         Ok(p) => {
             let p = Rc::new(p.clone());
-            *last_good.borrow_mut() = Some(p.clone());
-            (Some(p), None)
+            *last_good.borrow_mut() = Some((p.clone(), rows.clone()));
+            (Some(p), rows, None)
         }
-        Err(e) => (last_good.borrow().clone(), Some(e.clone())),
+        Err(e) => {
+            let kept = last_good.borrow().clone();
+            let (p, w) = kept.map(|(p, w)| (Some(p), w)).unwrap_or_default();
+            (p, w, Some(e.clone()))
+        }
     };
     let stale = plan_error.is_some() || state.has_errors();
     let plan_rc = plan.clone();
@@ -419,18 +490,28 @@ pub fn App() -> Html {
         })
     };
     html! {
-        <main id="app" data-ready="true" data-stale={stale.to_string()} data-settled={settled.to_string()}>
+        <main id="app" data-ready="true" data-stale={stale.to_string()} data-settled={settled.to_string()}
+            data-field-runner={field.runner} data-field-generation={field.plan.generation.to_string()}
+            data-field-computations={field.plan.computations.to_string()}>
             <Toolbar project={project.clone()} drafts={drafts.clone()} can_undo={!state.undo.is_empty()} can_redo={!state.redo.is_empty()}
                 notice={state.notice.clone()} storage={(*storage).clone()} dispatch={dispatch.clone()}
                 {on_demo} {on_blank} {on_save} {on_open} recent={recent_menu} {on_reopen}
                 conflict={(*conflict).clone()} {on_take_theirs} {on_keep_copy} />
             <crate::panels::summary::SummaryPanel plan={shown.clone()} unit={state.project.units} {stale} />
+            if let Some(why) = &field.fallback {
+                <p class="note" role="status" data-testid="field-fallback" title={why.clone()}>
+                    { "The field engine runs on this page (a background worker could not start), one rule at a time: typing may pause briefly while it works." }
+                </p>
+            }
+            if let Some(e) = &field.plan.failure {
+                <p class="error" role="alert" data-testid="field-failure">{ format!("The field engine could not plan this project: {e}") }</p>
+            }
             if let Some(e) = plan_error {
                 <p class="error" role="alert" data-testid="plan-error">{ e }</p>
             }
             <crate::panels::share::SharePanel project={project.clone()} on_load={on_load} saved_work={(*saved_work).clone()} />
             <Layers project={project.clone()} drafts={drafts.clone()} plan={shown.clone()} dispatch={dispatch.clone()} />
-            <Rules project={project.clone()} drafts={drafts} plan={shown} {stale} dispatch={dispatch} {on_field_map} />
+            <Rules project={project.clone()} drafts={drafts} plan={shown} {rows} {stale} dispatch={dispatch} {on_field_map} />
             <crate::panels::pictures::PicturesPanel project={project.clone()} plan={plan_rc.clone()} field_map={current_map} />
             <crate::panels::notes::NotesPanel project={project} plan={plan_rc} />
             <footer class="cautions">

@@ -4,17 +4,32 @@
 use ohmstack_core::base::units::{self, format_sig, LengthUnit};
 use ohmstack_core::design::project::{ImpedanceRule, Solve, Structure};
 use ohmstack_core::section;
-use ohmstack_core::{plan_with, Plan, PlanOptions, Project, RuleResult, Stackup};
+use ohmstack_core::{plan_with, Plan, PlanOptions, Project, RuleOutcome, RuleResult, Stackup};
 
-/// Plans the project with loss and a 10 000-sample tolerance spread per rule (the quadratic response surface keeps
-/// it fast enough for every keystroke); a bad stack becomes its error message, a bad rule its row's message.
-pub fn analyse(project: &Project) -> Result<Plan, String> {
-    plan_with(project, &PlanOptions::with_spread()).map_err(|e| e.to_string())
+/// What the plan worker computes for every rule: loss, the field engine's check and a 10 000-sample tolerance
+/// spread, i.e. `plan_with(.., &PlanOptions::with_spread())`, one rule at a time (`plan_jobs.rs`).
+pub fn field_options() -> PlanOptions {
+    PlanOptions::with_spread()
 }
 
-/// Plans the project without the tolerance spread: what every keystroke recomputes.
-pub fn analyse_quick(project: &Project) -> Result<Plan, String> {
-    plan_with(project, &PlanOptions::default()).map_err(|e| e.to_string())
+/// One rule's row of the plan with `options` (a rule that cannot be computed becomes its row's message). The stack
+/// must already be valid.
+pub fn plan_one_rule(
+    project: &Project,
+    rule: &ImpedanceRule,
+    options: &PlanOptions,
+) -> RuleOutcome {
+    ohmstack_core::plan::plan_rule(project, rule, options)
+}
+
+/// The plan's stack rows, thickness and symmetry without any rule (the rules' rows are added by the caller); a
+/// stack that cannot be planned is its error message.
+pub fn plan_without_rules(project: &Project) -> Result<Plan, String> {
+    let bare = Project {
+        rules: Vec::new(),
+        ..project.clone()
+    };
+    plan_with(&bare, &PlanOptions::preview()).map_err(|e| e.to_string())
 }
 
 /// True when `text` ends in a digit or a decimal point, i.e. carries no unit word.
@@ -198,7 +213,7 @@ mod tests {
     fn loss_and_spread_are_read_when_present() {
         // The app plans with loss and spread: every demo rule carries both, and the figures are the core's.
         let p = ohmstack_core::design::demo::project();
-        let plan = analyse(&p).unwrap();
+        let plan = plan_with(&p, &field_options()).unwrap();
         for outcome in &plan.rules {
             let r = outcome.ok().unwrap();
             let (f, db_in, db_cm) = loss_at(r).unwrap();
@@ -213,8 +228,8 @@ mod tests {
             );
             assert!(lo < r.impedance_ohm && r.impedance_ohm < hi);
         }
-        // Without a spread (the quick plan) there is none to read.
-        let quick = analyse_quick(&p).unwrap();
+        // Without a spread (the preview) there is none to read.
+        let quick = plan_with(&p, &PlanOptions::preview()).unwrap();
         assert!(spread_of(quick.rules[0].ok().unwrap()).is_none());
     }
 

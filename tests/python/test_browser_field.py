@@ -161,27 +161,32 @@ def test_field_solver_model_in_the_browser_equals_the_cli(driver):
     assert browser.console_errors(driver) == []
 
 
-def test_field_engine_checks_each_card_and_overrules_a_closed_form_verdict(driver):
-    """Once the page settles, every closed-form rule card carries the fast field engine's figure at the same
-    dimensions (equal to `ohmstack field --engine field`), and the demo's radio feed, on target by its closed form,
-    is marked outside its tolerance because the field engine puts it near 44 Ω."""
+def test_every_card_shows_the_field_figure_with_the_closed_form_beside_it(driver):
+    """Every rule is on the field engine by default: once each card's field figures land, its headline equals
+    `ohmstack analyze` (the same engine natively) and the closed form's figure at the same dimensions sits beside it.
+    The demo's radio feed is where the closed form misses most (thick copper in narrow coplanar gaps under mask)."""
     driver.get(browser.app_url())
     browser.wait_ready(driver)
-    browser.wait_for(lambda: driver.find_element(By.ID, "app").get_attribute("data-settled") == "true",
-                     timeout=60, what="settled page")
     demo = run("demo").stdout
     rules = json.loads(demo)["rules"]
-    proc = run("field", "-", "--engine", "field", "--json", stdin=demo)
+    browser.wait_for(lambda: all(
+        driver.find_element(By.CSS_SELECTOR, f"[data-testid='rule-card-{i}']").get_attribute("data-field")
+        in ("nominal", "landed")
+        and driver.find_elements(By.CSS_SELECTOR, f"[data-testid='rule-{i}-closed-form-check']")
+        for i in range(len(rules))), timeout=120, what="every card's field figures")
+    proc = run("analyze", "-", "--json", stdin=demo)
     assert proc.returncode == 0, proc.stderr
-    native = {c["name"]: c["comparison"]["field_ohm"] for c in json.loads(proc.stdout)}
+    native = {r["name"]: r for r in json.loads(proc.stdout)["rules"]}
     for i, rule in enumerate(rules):
-        el = driver.find_element(By.CSS_SELECTOR, f"[data-testid='rule-{i}-field-check']")
-        shown = float(el.get_attribute("data-value"))
-        assert abs(shown / native[rule["name"]] - 1) < 1e-6, (rule["name"], shown, native[rule["name"]])
+        n = native[rule["name"]]
+        assert n["method"] == "2D field solver (boundary elements)", n["method"]
+        shown = float(driver.find_element(By.CSS_SELECTOR, f"[data-testid='rule-{i}-impedance']").get_attribute("data-value"))
+        # WASM and native libm differ in the last bits; the synthesis stops within 1e-4 of target.
+        assert abs(shown / n["impedance_ohm"] - 1) < 1e-6, (rule["name"], shown, n["impedance_ohm"])
+        closed = float(driver.find_element(By.CSS_SELECTOR, f"[data-testid='rule-{i}-closed-form-check']").get_attribute("data-value"))
+        assert abs(closed / n["closed_form_check"]["impedance_ohm"] - 1) < 1e-5, (rule["name"], closed)
     feed = next(i for i, r in enumerate(rules) if r["name"] == "Radio feed 50 Ω")
-    verdict = driver.find_element(By.CSS_SELECTOR, f"[data-testid='rule-{feed}-verdict']").text
-    assert "outside" in verdict and "field engine" in verdict, verdict
-    card = driver.find_element(By.CSS_SELECTOR, f"[data-testid='rule-{feed}-field-check']")
-    browser.screenshot(driver, "field-engine-check")
-    assert float(card.get_attribute("data-value")) < 46.0
+    closed = float(driver.find_element(By.CSS_SELECTOR, f"[data-testid='rule-{feed}-closed-form-check']").get_attribute("data-value"))
+    assert closed > 1.05 * 50.0, closed
+    browser.screenshot(driver, "field-engine-with-closed-form-beside")
     assert browser.console_errors(driver) == []

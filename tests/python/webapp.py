@@ -96,8 +96,10 @@ def assert_same_numbers(driver, project: dict):
     shown, core = shown_impedances(driver), core_impedances(project)
     assert len(shown) == len(core) > 0
     for s, c in zip(shown, core):
-        # Same core compiled to WASM: agreement to round-off.
-        assert abs(s - c) < 1e-9, (s, c)
+        # Same core compiled to WASM. The field engine's synthesis stops within 1e-4 of target, and WASM's libm
+        # differs from the native one in the last bits, so the root finder's iterates differ: measured 1.7e-7
+        # relative. A wrong project or a closed-form figure differs by far more.
+        assert abs(s / c - 1) < 1e-6, (s, c)
 
 
 def no_alert(driver) -> bool:

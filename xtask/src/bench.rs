@@ -327,6 +327,53 @@ pub fn run(args: &[String]) -> Result<()> {
             ),
             "cargo xtask bench (bench/browser_bench.py bundle)".into(),
         ));
+        // The plan worker on the 12-layer, 16-rule fixture, as it is and with every rule on the field solver.
+        let fixture = root()
+            .join("tests")
+            .join("fixtures")
+            .join("twelve_layer_sixteen_rules.json");
+        let edits = if o.quick { "4" } else { "8" };
+        for (variant, extra) in [
+            ("as saved", None),
+            ("every rule on the field solver", Some("field")),
+        ] {
+            let dist_str = dist.to_string_lossy().to_string();
+            let fixture_str = fixture.to_string_lossy().to_string();
+            let mut args = vec!["worker", &dist_str, &fixture_str, edits];
+            args.extend(extra);
+            let wk = browser(&args)?;
+            let cmd = format!(
+                "cargo xtask bench (bench/browser_bench.py worker dist/ohmstack.html tests/fixtures/twelve_layer_sixteen_rules.json {edits}{})",
+                extra.map(|e| format!(" {e}")).unwrap_or_default()
+            );
+            rows.push((
+                format!("plan worker, 12 layers / 16 rules ({variant}): whole plan with spread, cold cache"),
+                format!("{:.0} ms", num(&wk, "whole_plan_ms")?),
+                cmd.clone(),
+            ));
+            rows.push((
+                format!("plan worker ({variant}): one-rule edit → that rule's field figures / its spread"),
+                format!(
+                    "median {:.0} ms (max {:.0}) / median {:.0} ms (max {:.0}) over {edits} edits",
+                    num(&wk, "edit_median_ms")?,
+                    num(&wk, "edit_max_ms")?,
+                    num(&wk, "spread_median_ms")?,
+                    num(&wk, "spread_max_ms")?
+                ),
+                cmd.clone(),
+            ));
+            rows.push((
+                format!("plan worker ({variant}): main-thread long tasks (> 50 ms) while typing key by key"),
+                format!(
+                    "{:.0} tasks, longest {:.0} ms ({:.0} keys in {:.1} s)",
+                    num(&wk, "long_tasks_while_typing")?,
+                    num(&wk, "longest_task_while_typing_ms")?,
+                    num(&wk, "typing_keys")?,
+                    num(&wk, "typing_ms")? / 1000.0
+                ),
+                cmd,
+            ));
+        }
     }
     let mut md = format!(
         "# cargo xtask bench{}\n\nmachine at start: {started}\nmachine at end: {}\n\n| figure | value | command |\n|---|---|---|\n",

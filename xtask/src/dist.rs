@@ -14,6 +14,47 @@ const APP_MARKER: &str = "<!-- OHMSTACK:APP -->";
 /// Where index.html takes the Content-Security-Policy hashes.
 const CSP_SCRIPT_MARKER: &str = "OHMSTACK:SCRIPT-HASH";
 const CSP_STYLE_MARKER: &str = "OHMSTACK:STYLE-HASH";
+/// The id of the app's inline module script, which the worker loader reads back.
+const APP_SCRIPT_ID: &str = "ohmstack-app";
+/// Ends the wasm-bindgen glue inside the app script: the plan worker's source is the script's text up to here.
+const GLUE_END: &str = "/*OHMSTACK:GLUE-END*/";
+/// The plan worker's loader (the page calls `ohmstackPlanWorker()` from Rust, frontend/src/plan_client.rs). The
+/// worker is a classic worker from a Blob URL (the CSP allows `worker-src blob:` and nothing else): its source is
+/// this file's own glue, read back from the app script up to [`GLUE_END`] before the app renders, plus `ohmstackWorkerMain`; the WASM
+/// reaches it as the compiled `WebAssembly.Module` in its first message. The worker's Rust `main` finds no
+/// `window` and serves plan requests (frontend/src/worker.rs); requests that arrive while it instantiates are
+/// queued and replayed. A worker that cannot start throws, which the page sees as the worker's `error` event and
+/// answers by planning on its own thread.
+const WORKER_LOADER: &str = r#"let ohmstackModule = null;
+function ohmstackWorkerMain() {
+  const queued = [];
+  let starting = null;
+  self.onmessage = (e) => {
+    if (starting !== null) { queued.push(e.data); return; }
+    starting = __wbg_init({ module_or_path: e.data.module }).then(() => {
+      for (const data of queued) self.dispatchEvent(new MessageEvent("message", { data }));
+      queued.length = 0;
+    }, (err) => setTimeout(() => { throw new Error("the plan worker could not start: " + err); }));
+  };
+}
+// Read before the app renders (rendering replaces the body's content, this script with it).
+const ohmstackGlue = (() => {
+  const own = document.getElementById("ohmstack-app")?.textContent ?? "";
+  const end = own.indexOf("/*OHMSTACK:" + "GLUE-END*/");
+  return end < 0 ? null : own.slice(0, end);
+})();
+globalThis.ohmstackPlanWorker = () => {
+  if (ohmstackModule === null) throw new Error("the app is still loading");
+  if (ohmstackGlue === null) throw new Error("the app script has no glue marker");
+  const source = ohmstackGlue + "\n(" + ohmstackWorkerMain.toString() + ")();\n";
+  const url = URL.createObjectURL(new Blob([source], { type: "text/javascript" }));
+  // The URL stays valid for the page's life: the worker's fetch of it may still be under way after this returns.
+  // A classic worker: a module worker from a blob: URL is refused on a file:// page (opaque origin), and the
+  // glue has no imports or exports once its final export line is stripped.
+  const worker = new Worker(url, { name: "ohmstack-plan" });
+  worker.postMessage({ module: ohmstackModule });
+  return worker;
+};"#;
 
 /// Adds the wasm32 target through rustup when it is missing.
 pub fn ensure_wasm_target() -> Result<()> {
@@ -110,17 +151,23 @@ pub fn run() -> Result<PathBuf> {
         .join("wasm-release")
         .join("ohmstack-web.wasm");
     let (js, wasm) = bindgen_inline(&wasm_path)?;
+    // The plan worker runs this glue as a classic script (see WORKER_LOADER).
+    if js.contains("import.meta") || js.lines().any(|l| l.trim_start().starts_with("export ")) {
+        bail!("the wasm-bindgen glue has imports or exports left, so the plan worker could not run it");
+    }
     // The WASM travels deflate-compressed (raw deflate, decoded by the browser's own DecompressionStream), which
     // roughly halves the file against plain base64 of the binary; async compile, so no 8 MB sync limit either.
     let packed = miniz_oxide::deflate::compress_to_vec(&wasm, 10);
     let wasm_b64 = base64::engine::general_purpose::STANDARD.encode(&packed);
     let script = format!(
-        "{js}\nconst b64 = \"{wasm_b64}\";\n\
+        "{js}\n{GLUE_END}\n{WORKER_LOADER}\nconst b64 = \"{wasm_b64}\";\n\
          try {{\n\
            const packed = Uint8Array.from(atob(b64), (c) => c.charCodeAt(0));\n\
            const inflated = new Blob([packed]).stream().pipeThrough(new DecompressionStream(\"deflate-raw\"));\n\
            const bytes = await new Response(inflated).arrayBuffer();\n\
-           await __wbg_init({{ module_or_path: bytes }});\n\
+           // Compiled once here and posted to the plan worker, which instantiates the same module.\n\
+           ohmstackModule = await WebAssembly.compile(bytes);\n\
+           await __wbg_init({{ module_or_path: ohmstackModule }});\n\
          }} catch (e) {{\n\
            document.body.dataset.loadError = String(e);\n\
            const p = document.createElement('p'); p.className = 'load-error';\n\
@@ -149,7 +196,7 @@ pub fn run() -> Result<PathBuf> {
         .replace(CSP_STYLE_MARKER, &format!("sha256-{}", sha256_b64(&style)))
         .replace(
             APP_MARKER,
-            &format!("<script type=\"module\">{script}</script>"),
+            &format!("<script type=\"module\" id=\"{APP_SCRIPT_ID}\">{script}</script>"),
         );
     let dist = root().join("dist");
     std::fs::create_dir_all(&dist)?;

@@ -204,7 +204,7 @@ fn print_spread(project: &Project, name: &str, r: &RuleResult, s: &SpreadSummary
                 "              "
             },
             x.parameter,
-            per_unit(x.unit, x.dz_dp, u),
+            per_unit(&x.unit, x.dz_dp, u),
             x.impact_ohm
         );
     }

@@ -1,10 +1,10 @@
 //! Validity notes: input that is legal but outside a formula's published fit is still computed and comes back
 //! with a warning that says which range was left.
 
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 
 /// A note attached to a result: the value is computed, but the user should know this.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct Warning {
     pub message: String,
 }

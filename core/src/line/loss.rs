@@ -104,7 +104,7 @@ pub struct LossInputs {
 }
 
 /// A loss figure in the three usual units.
-#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
 pub struct Db {
     pub db_per_m: f64,
     pub db_per_cm: f64,
@@ -123,7 +123,7 @@ impl Db {
 }
 
 /// One mode (a single line, or the odd or even mode of a pair, per line) at one frequency.
-#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
 pub struct ModeLoss {
     pub r_ohm_per_m: f64,
     pub l_h_per_m: f64,
@@ -159,7 +159,7 @@ impl ModeLoss {
 }
 
 /// Loss of a line at one frequency: one mode for a single line, odd and even for a pair.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct LossAt {
     pub freq_hz: f64,
     pub skin_depth_m: f64,
@@ -172,7 +172,7 @@ pub struct LossAt {
     pub odd: Option<ModeLoss>,
     #[serde(skip_serializing_if = "Option::is_none")]
     pub even: Option<ModeLoss>,
-    #[serde(skip_serializing_if = "Vec::is_empty")]
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
     pub warnings: Vec<Warning>,
 }
 

@@ -451,8 +451,8 @@ pub fn cross_section_svg(project: &Project, rule_idx: Option<usize>) -> Result<S
                 r##"<text class="result" x="{}" y="{}" fill="#222222">{} · {} · Z {:.2} Ω (target {} Ω)</text>"##,
                 num(STACK_X0),
                 num(height - 10.0),
-                xml_escape(res.structure),
-                xml_escape(res.family),
+                xml_escape(&res.structure),
+                xml_escape(&res.family),
                 res.impedance_ohm,
                 crate::base::units::format_sig(res.target_ohm, 4)
             );

@@ -233,7 +233,7 @@ pub fn fab_notes(project: &Project, plan: &Plan, date: Option<IssueDate>) -> Fab
                         .map_or(r.within_tolerance, |c| c.within_tolerance),
                 ),
                 method: r.method.to_string(),
-                field_solved: is_field_method(r.method),
+                field_solved: is_field_method(&r.method),
                 field_check_ohm: r.field_check.as_ref().map(|c| c.impedance_ohm),
                 error: None,
             },

@@ -137,38 +137,7 @@ pub fn plan_with(project: &Project, options: &PlanOptions) -> Result<Plan> {
     let rules = project
         .rules
         .iter()
-        .map(|rule| match rule_on_plan_engine(project, rule, options) {
-            Ok(mut r) => {
-                if options.field_check {
-                    match rule::field_check(project, rule, &r) {
-                        Ok(c) => r.field_check = c,
-                        Err(e) => r
-                            .warnings
-                            .push(Warning::new(format!("field engine check: {e}"))),
-                    }
-                }
-                if options.spread_samples > 0 {
-                    let opts = SpreadOptions {
-                        samples: options.spread_samples,
-                        seed: options.seed,
-                        centre: true,
-                        model: options.spread_model,
-                    };
-                    match spread::run_for_result(project, rule, &r, &opts) {
-                        Ok(s) => r.spread = Some(s),
-                        Err(e) => r
-                            .warnings
-                            .push(Warning::new(format!("tolerance spread: {e}"))),
-                    }
-                }
-                RuleOutcome::Ok(Box::new(r))
-            }
-            // Named by the rule's own name, never an internal path such as `rules[5]`.
-            Err(e) => RuleOutcome::Error {
-                name: rule.name.clone(),
-                message: format!("{}: {e}", rule.name),
-            },
-        })
+        .map(|rule| plan_rule(project, rule, options))
         .collect();
     Ok(Plan {
         title: project.title.clone(),
@@ -178,6 +147,48 @@ pub fn plan_with(project: &Project, options: &PlanOptions) -> Result<Plan> {
         layers,
         rules,
     })
+}
+
+/// One row of [`plan_with`]: the rule on its engine, with the field check and the spread the options ask for (a
+/// check or spread that cannot be computed becomes a warning on the row). The stack must already be valid. The
+/// app's plan worker calls this rule by rule so that it can post each row as it lands.
+pub fn plan_rule(
+    project: &Project,
+    rule: &crate::design::project::ImpedanceRule,
+    options: &PlanOptions,
+) -> RuleOutcome {
+    match rule_on_plan_engine(project, rule, options) {
+        Ok(mut r) => {
+            if options.field_check {
+                match rule::field_check(project, rule, &r) {
+                    Ok(c) => r.field_check = c,
+                    Err(e) => r
+                        .warnings
+                        .push(Warning::new(format!("field engine check: {e}"))),
+                }
+            }
+            if options.spread_samples > 0 {
+                let opts = SpreadOptions {
+                    samples: options.spread_samples,
+                    seed: options.seed,
+                    centre: true,
+                    model: options.spread_model,
+                };
+                match spread::run_for_result(project, rule, &r, &opts) {
+                    Ok(s) => r.spread = Some(s),
+                    Err(e) => r
+                        .warnings
+                        .push(Warning::new(format!("tolerance spread: {e}"))),
+                }
+            }
+            RuleOutcome::Ok(Box::new(r))
+        }
+        // Named by the rule's own name, never an internal path such as `rules[5]`.
+        Err(e) => RuleOutcome::Error {
+            name: rule.name.clone(),
+            message: format!("{}: {e}", rule.name),
+        },
+    }
 }
 
 /// One rule on the engine the options ask for: its own, or the closed form for a preview.
@@ -213,8 +224,31 @@ mod tests {
         }
         let preview = crate::plan_with(&p, &crate::PlanOptions::preview()).unwrap();
         for r in preview.rules.iter().filter_map(|r| r.ok()) {
-            assert!(!crate::engine::is_field_method(r.method), "{}", r.method);
+            assert!(!crate::engine::is_field_method(&r.method), "{}", r.method);
         }
+    }
+
+    #[test]
+    fn rule_by_rule_equals_the_whole_plan_and_survives_a_json_round_trip() {
+        // The app's worker plans rule by rule and sends each outcome across as data: both must give the plan's
+        // rows exactly (an unreachable target makes one row an error row).
+        let mut p = crate::design::demo::project();
+        p.rules[1].target_ohm = 400.0;
+        let options = crate::PlanOptions::with_spread();
+        let plan = crate::plan_with(&p, &options).unwrap();
+        for (rule, row) in p.rules.iter().zip(&plan.rules) {
+            let one = super::plan_rule(&p, rule, &options);
+            assert_eq!(&one, row);
+            let text = serde_json::to_string(&one).unwrap();
+            let mut back: crate::RuleOutcome = serde_json::from_str(&text).unwrap();
+            // The section's loss inputs are not part of the JSON (the figures computed from them are).
+            if let (crate::RuleOutcome::Ok(b), crate::RuleOutcome::Ok(o)) = (&mut back, &one) {
+                b.cross_section.loss = o.cross_section.loss;
+            }
+            assert_eq!(back, one);
+            assert_eq!(serde_json::to_string(&back).unwrap(), text);
+        }
+        assert!(matches!(plan.rules[1], crate::RuleOutcome::Error { .. }));
     }
 
     #[test]

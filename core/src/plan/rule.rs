@@ -12,21 +12,22 @@ use crate::plan::spread::summary::SpreadSummary;
 use crate::plan::synthesis;
 use crate::section::lines::{reflection, return_loss_db, SingleLine};
 use crate::section::{self, Analysis, CrossSection, Dims};
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
+use std::borrow::Cow;
 
 /// The computed figures of one rule.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct RuleResult {
     pub name: String,
     pub layer: String,
     /// Plain family name, e.g. "coated microstrip".
-    pub family: &'static str,
+    pub family: Cow<'static, str>,
     /// The structure as chosen in the rule, e.g. "pair side by side".
-    pub structure: &'static str,
+    pub structure: Cow<'static, str>,
     /// The line in plain words, where it sits and its trade name, e.g. "trace on an outer layer under solder mask
     /// (microstrip)" ([`crate::section::CrossSection::describe`]).
     pub description: String,
-    pub method: &'static str,
+    pub method: Cow<'static, str>,
     /// The engine's estimated relative error of the impedance, %, when it states one (the field engines; the closed
     /// forms give their measured band in `model_band_pct` instead).
     #[serde(skip_serializing_if = "Option::is_none")]
@@ -36,7 +37,7 @@ pub struct RuleResult {
     pub spacing_m: Option<f64>,
     pub gap_m: Option<f64>,
     /// Which dimension synthesis solved, if any.
-    pub solved: Option<&'static str>,
+    pub solved: Option<Cow<'static, str>>,
     pub target_ohm: f64,
     pub tolerance_pct: f64,
     /// The controlled impedance (Z0, or Zdiff for pairs), Ω.
@@ -78,7 +79,7 @@ pub struct RuleResult {
 }
 
 /// One rule's outcome: figures, or the reason it could not be computed.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 #[serde(tag = "status", rename_all = "snake_case")]
 pub enum RuleOutcome {
     Ok(Box<RuleResult>),
@@ -86,7 +87,7 @@ pub enum RuleOutcome {
 }
 
 /// The fast field engine's answer for a rule's closed-form dimensions.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct FieldCheck {
     /// The controlled impedance by the field engine, Ω.
     pub impedance_ohm: f64,
@@ -102,7 +103,7 @@ pub struct FieldCheck {
 }
 
 /// The closed form's answer at a field result's dimensions.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct ClosedFormCheck {
     /// The published model that made it.
     pub method: String,
@@ -118,7 +119,7 @@ pub fn field_check(
     rule: &ImpedanceRule,
     result: &RuleResult,
 ) -> Result<Option<FieldCheck>> {
-    if crate::engine::is_field_method(result.method) {
+    if crate::engine::is_field_method(&result.method) {
         return Ok(None);
     }
     let dims = Dims {
@@ -394,16 +395,16 @@ pub fn rule_figures(
         closed_form_check: None,
         name: rule.name.clone(),
         layer: rule.layer.clone(),
-        family: cs.family_for(rule.structure),
-        structure: rule.structure.label(),
+        family: cs.family_for(rule.structure).into(),
+        structure: rule.structure.label().into(),
         description: cs.describe(rule.structure),
-        method,
+        method: method.into(),
         error_estimate_pct: None,
         references: cs.references.clone(),
         width_m: dims.w,
         spacing_m: dims.s,
         gap_m: dims.gap,
-        solved,
+        solved: solved.map(Cow::Borrowed),
         target_ohm: rule.target_ohm,
         tolerance_pct: rule.tolerance_pct,
         impedance_ohm: z,

@@ -3,10 +3,10 @@
 
 use crate::base::units::C0;
 use crate::base::validity::Warning;
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 
 /// Quasi-static analysis of one line: characteristic impedance and effective relative permittivity.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct SingleLine {
     /// Characteristic impedance, Ω.
     pub z0: f64,
@@ -36,7 +36,7 @@ impl SingleLine {
 }
 
 /// Quasi-static analysis of a symmetric coupled pair by its odd and even modes.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct CoupledPair {
     /// Odd-mode impedance (one line against ground with the pair driven differentially), Ω.
     pub z_odd: f64,
@@ -102,7 +102,7 @@ pub fn return_loss_db(gamma: f64) -> f64 {
 pub const MAX_RETURN_LOSS_DB: f64 = 300.0;
 
 /// The outcome of one model evaluation.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 #[serde(tag = "modes", rename_all = "snake_case")]
 pub enum Analysis {
     Single(SingleLine),

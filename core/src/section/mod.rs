@@ -9,7 +9,7 @@ use crate::base::validity::Warning;
 use crate::design::project::{ImpedanceRule, Structure};
 use crate::design::roughness::Roughness;
 use crate::design::stackup::{CopperRole, Layer, Stackup};
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 
 pub mod lines;
 
@@ -24,7 +24,7 @@ pub struct Dims {
 }
 
 /// What covers a microstrip trace on the side away from its plane.
-#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
 #[serde(tag = "kind", rename_all = "snake_case")]
 pub enum Cover {
     Air,
@@ -41,7 +41,7 @@ pub enum Cover {
 }
 
 /// The dielectric surroundings of the trace(s).
-#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
 #[serde(tag = "kind", rename_all = "snake_case")]
 pub enum Medium {
     /// One plane: `h` is the dielectric height from the plane to the trace, `er` its Dk.
@@ -71,7 +71,7 @@ pub enum Medium {
 }
 
 /// A resolved cross-section for one rule.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct CrossSection {
     pub medium: Medium,
     /// Trace copper thickness, m.
@@ -94,7 +94,7 @@ pub struct CrossSection {
 /// For a microstrip `below` is the side of its plane (whichever way up) and `above` is unused (the cover is in
 /// [`Medium`]); for a stripline `below` leads to the plane later in the stack, `above` to the earlier one. Their
 /// heights add up to the heights in [`Medium`]. A copper layer in between counts as the dielectric next to it.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct Layering {
     pub below: Vec<(f64, f64)>,
     pub above: Vec<(f64, f64)>,

@@ -90,20 +90,26 @@ pub fn PicturesPanel(props: &PicturesProps) -> Html {
     let drawing = use_memo((props.project.clone(), rule), |(p, r)| {
         bridge::cross_section_svg(p, *r)
     });
-    let plots = use_memo(
-        (props.project.clone(), props.plan.clone(), rule),
-        |(p, plan, r)| {
-            let i = (*r)?;
-            if let Err(e) = &**plan {
-                return Some((Err(e.clone()), Err(e.clone()), Err(e.clone())));
-            }
-            Some((
-                bridge::loss_plot_svg(p, i),
-                bridge::z_width_plot_svg(p, i),
-                bridge::spread_view(p, i),
-            ))
-        },
-    );
+    // The plots are computed from the project; of the plan only its error matters. Keyed on what the chosen rule
+    // depends on (crate::plan_jobs::rule_key) and that error: an edit of another rule, or the field rows landing
+    // from the plan worker, do not redraw them on the page's thread.
+    let plan_error = props.plan.as_ref().as_ref().err().cloned();
+    let rule_key = rule.and_then(|i| props.project.rules.get(i)).map(|r| {
+        crate::plan_jobs::rule_key(&props.project, r, &ohmstack_core::PlanOptions::preview())
+    });
+    let project = props.project.clone();
+    let plots = use_memo((rule_key, plan_error, rule), move |(_, plan_error, r)| {
+        let p = &project;
+        let i = (*r)?;
+        if let Some(e) = plan_error {
+            return Some((Err(e.clone()), Err(e.clone()), Err(e.clone())));
+        }
+        Some((
+            bridge::loss_plot_svg(p, i),
+            bridge::z_width_plot_svg(p, i),
+            bridge::spread_view(p, i),
+        ))
+    });
 
     let on_select = {
         let selected = selected.clone();

@@ -1,6 +1,7 @@
 //! The impedance rules: one card per controlled net class, its inputs on top and its computed figures below.
 
 use crate::bridge;
+use crate::plan_jobs::RowState;
 use crate::state::{Action, Draft, Field, RuleField};
 use crate::widgets::{Select, TextField};
 use ohmstack_core::base::units::format_sig;
@@ -17,6 +18,9 @@ pub struct RulesProps {
     pub plan: Option<Rc<Plan>>,
     /// True when the figures are from the last good entry, not the current text.
     pub stale: bool,
+    /// Per rule: where its figures stand (closed-form preview, field figures without the spread yet, or final).
+    #[prop_or_default]
+    pub rows: Rc<Vec<RowState>>,
     pub dispatch: Callback<Action>,
     /// Receives the potential map of each finished field check.
     #[prop_or_default]
@@ -51,10 +55,10 @@ fn figure(i: usize, key: &str, label: &str, text: String, value: Option<f64>) ->
     }
 }
 
-fn results(i: usize, r: &RuleResult, project: &Project) -> Html {
+fn results(i: usize, r: &RuleResult, project: &Project, state: RowState) -> Html {
     let unit = project.units;
     let pair = bridge::z_common(r).is_some();
-    let solved = |what: &str| r.solved == Some(what);
+    let solved = |what: &str| r.solved.as_deref() == Some(what);
     let mark = |what: &str| if solved(what) { " (solved)" } else { "" };
     let delay_ps_per_mm = r.delay_s_per_m * 1e9;
     let delay_ps_per_in = r.delay_s_per_m * 0.0254 * 1e12;
@@ -74,7 +78,15 @@ fn results(i: usize, r: &RuleResult, project: &Project) -> Html {
         }
     };
     html! {
-        <div class="rule-results">
+        <div class={classes!("rule-results", (state == RowState::Preview).then_some("pending"))} aria-busy={(state != RowState::Final).to_string()}>
+            if state == RowState::Preview {
+                <p class="pending-tag" role="status" data-testid={format!("rule-{i}-pending")}
+                    title="closed-form preview; the 2D field engine's figures replace it when they land">{ "field engine…" }</p>
+            }
+            if state == RowState::Nominal {
+                <p class="pending-tag" role="status" data-testid={format!("rule-{i}-spread-pending")}
+                    title="the field engine's figures are in; the tolerance spread follows">{ "tolerance spread…" }</p>
+            }
             <div class="figures">
                 { figure(i, "width", &format!("Width{}", mark("width")), bridge::length_label(r.width_m, unit), Some(r.width_m)) }
                 if let (Some(s), true) = (r.spacing_m, pair) {
@@ -86,7 +98,7 @@ fn results(i: usize, r: &RuleResult, project: &Project) -> Html {
                 <div class="figure main">
                     <span class="fig-label">{ z_label }</span>
                     <span class="fig-value" data-testid={format!("rule-{i}-impedance")} data-value={r.impedance_ohm.to_string()}>{ format!("{:.2}", r.impedance_ohm) }</span>
-                    <span class="fig-engine muted" data-testid={format!("rule-{i}-method")}>{ r.method }</span>
+                    <span class="fig-engine muted" data-testid={format!("rule-{i}-method")}>{ r.method.to_string() }</span>
                     // The closed form's measured band, when wide, sits next to the number it qualifies.
                     if let Some(b) = r.model_band_pct {
                         <span class="badge bad" data-testid={format!("rule-{i}-model-band")} title="measured against the 2D field solver (docs/accuracy.md); use the field solver for this rule">{ format!("closed form ±{}% vs field solver", format_sig(b, 3)) }</span>
@@ -229,8 +241,9 @@ pub fn Rules(props: &RulesProps) -> Html {
         let width_label = if rule.solve == Solve::Width { "Start width" } else { "Width" };
         let spacing_label = if rule.solve == Solve::Spacing { "Start spacing" } else { "Spacing" };
         let outcome = props.plan.as_ref().and_then(|p| p.rules.get(i));
+        let row = props.rows.get(i).copied().unwrap_or(RowState::Final);
         let body = match outcome {
-            Some(RuleOutcome::Ok(r)) => results(i, r, project),
+            Some(RuleOutcome::Ok(r)) => results(i, r, project, row),
             Some(RuleOutcome::Error { message, .. }) => html! {
                 <p class="error rule-error" data-testid={format!("rule-{i}-error")}>{ message.clone() }</p>
             },
@@ -254,7 +267,8 @@ pub fn Rules(props: &RulesProps) -> Html {
             html! {}
         };
         html! {
-            <li class={classes!("rule-card", props.stale.then_some("stale"))} data-testid={format!("rule-card-{i}")} aria-label={title.clone()}>
+            <li class={classes!("rule-card", props.stale.then_some("stale"))} data-testid={format!("rule-card-{i}")} aria-label={title.clone()}
+                data-field={match row { RowState::Preview => "pending", RowState::Nominal => "nominal", RowState::Final => "landed" }}>
                 <div class="rule-inputs">
                     <TextField field={Field::Rule(i, RuleField::Name)} label="Net class" size="wide" value={rule.name.clone()}
                         draft={draft(Field::Rule(i, RuleField::Name))} dispatch={d.clone()} />

@@ -52,7 +52,7 @@ pub fn summarize(plan: &Plan, unit: LengthUnit) -> Summary {
         .map(|outcome| match outcome {
             RuleOutcome::Ok(r) => {
                 let (z, deviation, within, engine) =
-                    match (&r.field_check, is_field_method(r.method)) {
+                    match (&r.field_check, is_field_method(&r.method)) {
                         (_, true) => (
                             r.impedance_ohm,
                             r.deviation_pct,

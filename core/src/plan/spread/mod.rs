@@ -498,7 +498,7 @@ impl Setup {
             params.push(Parameter {
                 name: "etched trace width".into(),
                 varies: Varied::EtchWidth,
-                unit: "m",
+                unit: "m".into(),
                 nominal: dims.w,
                 limit: etch,
                 distribution: process.etch_width.distribution,
@@ -512,7 +512,7 @@ impl Setup {
                 params.push(Parameter {
                     name: "etch factor".into(),
                     varies: Varied::EtchFactor,
-                    unit: "",
+                    unit: "".into(),
                     nominal: ef,
                     limit,
                     distribution: process.etch_factor.distribution,
@@ -536,7 +536,7 @@ impl Setup {
                     params.push(Parameter {
                         name: what,
                         varies: Varied::Thickness(idx),
-                        unit: "m",
+                        unit: "m".into(),
                         nominal,
                         limit,
                         distribution: tol.distribution,
@@ -555,7 +555,7 @@ impl Setup {
                         params.push(Parameter {
                             name: what,
                             varies: Varied::Dk(idx),
-                            unit: "",
+                            unit: "".into(),
                             nominal: d.dk,
                             limit,
                             distribution: tol.distribution,
@@ -766,7 +766,7 @@ pub fn sensitivities(
         let dz = (zp - zm) / (2.0 * h);
         out.push(Sensitivity {
             parameter: p.name.clone(),
-            unit: p.unit,
+            unit: p.unit.clone(),
             dz_dp: dz,
             d2z_dp2: (zp - 2.0 * z0 + zm) / (h * h),
             impact_ohm: dz * p.limit,
@@ -820,7 +820,7 @@ pub fn corners(
         (lo, hi) = (f64::NAN, f64::NAN);
     }
     Corners {
-        method,
+        method: method.into(),
         evaluated,
         failed,
         min_ohm: lo,
@@ -1134,7 +1134,7 @@ pub fn result_correction(
     rule: &ImpedanceRule,
     result: &RuleResult,
 ) -> Result<Option<FieldCorrection>> {
-    let Some(engine) = Engine::that_made(result.method, project) else {
+    let Some(engine) = Engine::that_made(&result.method, project) else {
         return Ok(None);
     };
     let dims = Dims {
@@ -1340,7 +1340,7 @@ fn centre(
 ) -> Result<Centred> {
     let x0 = setup.free_value();
     let keep = || Centred {
-        dimension: setup.free.name(),
+        dimension: setup.free.name().into(),
         nominal_m: x0,
         centred_m: x0,
         nominal_yield_pct: mc.yield_pct,
@@ -1398,7 +1398,7 @@ fn centre(
         return Ok(keep());
     }
     Ok(Centred {
-        dimension: setup.free.name(),
+        dimension: setup.free.name().into(),
         nominal_m: x0,
         centred_m: x,
         nominal_yield_pct: mc.yield_pct,

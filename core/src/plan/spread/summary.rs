@@ -3,7 +3,8 @@
 
 use crate::base::validity::Warning;
 use crate::design::process::Distribution;
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
+use std::borrow::Cow;
 
 /// Monte Carlo samples when none are asked for.
 pub const DEFAULT_SAMPLES: usize = 10_000;
@@ -22,7 +23,7 @@ pub const MAX_FULL_CORNERS: usize = 8;
 pub const MAX_CROSS_PARAMS: usize = 24;
 
 /// What a parameter varies.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
 #[serde(tag = "kind", content = "layer_index", rename_all = "snake_case")]
 pub enum Varied {
     /// The etched trace width (both edges); pair spacing and coplanar gap shrink by the same amount.
@@ -36,13 +37,13 @@ pub enum Varied {
 }
 
 /// One varied process parameter of a rule.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct Parameter {
     /// Plain name, e.g. "thickness of PP1 (prepreg)".
     pub name: String,
     pub varies: Varied,
     /// "m" for lengths, "" for Dk and etch factor.
-    pub unit: &'static str,
+    pub unit: Cow<'static, str>,
     pub nominal: f64,
     /// The ± limit, in `unit`.
     pub limit: f64,
@@ -60,10 +61,10 @@ impl Parameter {
 }
 
 /// ∂Z/∂p of one parameter at the nominal design.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct Sensitivity {
     pub parameter: String,
-    pub unit: &'static str,
+    pub unit: Cow<'static, str>,
     /// ∂Z/∂p, Ω per `unit` (Ω/m for lengths).
     pub dz_dp: f64,
     /// ∂²Z/∂p², Ω per `unit`².
@@ -73,10 +74,10 @@ pub struct Sensitivity {
 }
 
 /// The extremes over the corners of the tolerance box.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct Corners {
     /// Which corners: "all 2^n combinations" or "two corners from the sensitivity signs".
-    pub method: &'static str,
+    pub method: Cow<'static, str>,
     pub evaluated: usize,
     pub failed: usize,
     pub min_ohm: f64,
@@ -86,7 +87,7 @@ pub struct Corners {
 }
 
 /// Percentiles of the sampled impedance, Ω.
-#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
 pub struct Percentiles {
     pub p1: f64,
     pub p5: f64,
@@ -96,7 +97,7 @@ pub struct Percentiles {
 }
 
 /// Equal-width bins from `lo_ohm` to `hi_ohm`.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct Histogram {
     pub lo_ohm: f64,
     pub hi_ohm: f64,
@@ -104,7 +105,7 @@ pub struct Histogram {
 }
 
 /// Monte Carlo statistics of the controlled impedance.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct MonteCarlo {
     pub samples: usize,
     /// Samples the model refused (e.g. a dimension driven below zero); counted as outside the window.
@@ -122,10 +123,10 @@ pub struct MonteCarlo {
 }
 
 /// The tolerance-centred free dimension and what it gains.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct Centred {
     /// "width" or "spacing".
-    pub dimension: &'static str,
+    pub dimension: Cow<'static, str>,
     pub nominal_m: f64,
     pub centred_m: f64,
     pub nominal_yield_pct: f64,
@@ -136,7 +137,7 @@ pub struct Centred {
 }
 
 /// Everything the spread computes for one rule.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct SpreadSummary {
     pub seed: u64,
     /// What the corners and samples called.
@@ -161,7 +162,7 @@ pub struct SpreadSummary {
 }
 
 /// What the corners and the Monte Carlo samples call.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Default)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize, Default)]
 #[serde(rename_all = "snake_case")]
 pub enum SampleModel {
     /// The impedance model itself on every sample (the reference; about 1.5 µs per closed-form call natively).

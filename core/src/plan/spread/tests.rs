@@ -141,7 +141,7 @@ fn toy(distribution: Distribution, limit: f64) -> Vec<Parameter> {
     vec![Parameter {
         name: "toy".into(),
         varies: Varied::EtchWidth,
-        unit: "",
+        unit: "".into(),
         nominal: 0.0,
         limit,
         distribution,
@@ -811,7 +811,7 @@ fn the_surface_hands_the_tails_and_non_physical_values_to_the_true_model() {
     let param = Parameter {
         name: "toy".into(),
         varies: Varied::EtchFactor,
-        unit: "",
+        unit: "".into(),
         nominal: 0.0,
         limit: 1.0,
         distribution: Distribution::Normal,

@@ -1,0 +1,706 @@
+//! The field plan rule by rule, off the page's thread: the messages between the page and its plan worker, and the
+//! worker's scheduler with its per-rule cache. Plain Rust (no browser types), so the protocol is tested natively;
+//! `worker.rs` and `plan_client.rs` only move these messages across.
+
+use crate::bridge::plan_one_rule;
+use ohmstack_core::design::project::{ImpedanceRule, Project};
+use ohmstack_core::{PlanOptions, RuleOutcome};
+use serde::{Deserialize, Serialize};
+
+/// What the page asks of the worker: plan this project; a higher generation replaces every older request.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct Request {
+    pub generation: u64,
+    /// The project as JSON (plain serde: the page's project is already valid and migrated).
+    pub project: String,
+}
+
+/// What the worker reports, each for the generation it was asked under.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(tag = "kind", rename_all = "snake_case")]
+pub enum Update {
+    /// One rule's outcome on the field engine: first its nominal figures (with the field check), then the same
+    /// with the tolerance spread, which takes far longer (`complete`).
+    Rule {
+        generation: u64,
+        index: usize,
+        outcome: Box<RuleOutcome>,
+        /// True when the outcome carries everything the options ask (the spread too).
+        complete: bool,
+        /// False when the outcome came from the cache (nothing the rule depends on changed).
+        computed: bool,
+        /// Rules computed in full (not taken from the cache) since the worker started.
+        computations: u64,
+    },
+    /// Every rule of the generation has been reported.
+    Done { generation: u64, computations: u64 },
+    /// The request could not be planned at all (unreadable project or invalid stack).
+    Failed { generation: u64, message: String },
+}
+
+impl Update {
+    pub fn generation(&self) -> u64 {
+        match self {
+            Update::Rule { generation, .. }
+            | Update::Done { generation, .. }
+            | Update::Failed { generation, .. } => *generation,
+        }
+    }
+}
+
+/// The options of the field plan (see [`crate::bridge::field_options`]).
+pub fn options() -> PlanOptions {
+    crate::bridge::field_options()
+}
+
+/// Everything one rule's outcome depends on: the project without its title, revision and other rules (the rule's
+/// name is kept: the spread's random stream mixes it in), and the options. Over-inclusive by design: a field added
+/// to the project later is part of the key until someone shows the rules do not read it.
+pub fn rule_key(project: &Project, rule: &ImpedanceRule, options: &PlanOptions) -> String {
+    let slice = Project {
+        title: String::new(),
+        revision: String::new(),
+        rules: vec![rule.clone()],
+        ..project.clone()
+    };
+    let options = (
+        options.spread_samples,
+        options.seed,
+        format!("{:?}", options.spread_model),
+        options.field_check,
+        options.closed_form_only,
+    );
+    // Serialising plain data cannot fail; an empty key would only cost a recomputation.
+    serde_json::to_string(&(slice, options)).unwrap_or_default()
+}
+
+/// Outcomes kept: a 16-rule board with a few variants of each rule edited back and forth.
+const CACHE_ENTRIES: usize = 256;
+
+/// Rule outcomes by [`rule_key`], least recently used dropped first.
+#[derive(Debug, Default)]
+struct RuleCache {
+    entries: Vec<(String, RuleOutcome)>,
+}
+
+impl RuleCache {
+    fn get(&mut self, key: &str) -> Option<RuleOutcome> {
+        let at = self.entries.iter().position(|(k, _)| k == key)?;
+        let entry = self.entries.remove(at);
+        let outcome = entry.1.clone();
+        self.entries.push(entry);
+        Some(outcome)
+    }
+
+    fn put(&mut self, key: String, outcome: RuleOutcome) {
+        if self.entries.len() >= CACHE_ENTRIES {
+            self.entries.remove(0);
+        }
+        self.entries.push((key, outcome));
+    }
+}
+
+/// The request being worked on.
+#[derive(Debug)]
+struct Job {
+    generation: u64,
+    project: Project,
+    next: usize,
+    /// Rule `next` has posted its nominal figures; its spread is due.
+    spread_due: bool,
+}
+
+/// The worker's state: the newest request, how far it got, and the cache. Each [`Planner::step`] does one rule, so
+/// the caller can yield between steps and let a newer request replace the job (stale work is dropped, not
+/// finished).
+#[derive(Debug)]
+pub struct Planner {
+    options: PlanOptions,
+    cache: RuleCache,
+    job: Option<Job>,
+    /// The newest generation seen; older requests arriving late are ignored.
+    latest: u64,
+    computations: u64,
+    /// A request that failed before any rule, reported by the next step.
+    failure: Option<(u64, String)>,
+}
+
+impl Default for Planner {
+    fn default() -> Self {
+        Planner::new(options())
+    }
+}
+
+impl Planner {
+    pub fn new(options: PlanOptions) -> Self {
+        Planner {
+            options,
+            cache: RuleCache::default(),
+            job: None,
+            latest: 0,
+            computations: 0,
+            failure: None,
+        }
+    }
+
+    /// Takes a request: it replaces the current job when newer; an older or repeated generation is ignored
+    /// (the page counts generations from 1).
+    pub fn request(&mut self, request: &Request) {
+        if request.generation <= self.latest {
+            return;
+        }
+        self.latest = request.generation;
+        self.job = None;
+        self.failure = None;
+        let project = serde_json::from_str::<Project>(&request.project)
+            .map_err(|e| format!("the project could not be read: {e}"))
+            .and_then(|p| p.stackup.validate().map(|_| p).map_err(|e| e.to_string()));
+        match project {
+            Ok(project) => {
+                self.job = Some(Job {
+                    generation: request.generation,
+                    project,
+                    next: 0,
+                    spread_due: false,
+                })
+            }
+            Err(message) => self.failure = Some((request.generation, message)),
+        }
+    }
+
+    /// True while a step has something to report.
+    pub fn busy(&self) -> bool {
+        self.job.is_some() || self.failure.is_some()
+    }
+
+    /// Rules computed (not taken from the cache) so far.
+    #[cfg(test)]
+    pub fn computations(&self) -> u64 {
+        self.computations
+    }
+
+    /// Steps until something has been computed (or the job ends, or there is nothing to do): rules taken from the
+    /// cache cost next to nothing, so they travel with the next computed row as one message and one render.
+    pub fn run_batch(&mut self) -> Vec<Update> {
+        let mut batch = Vec::new();
+        while let Some(update) = self.step() {
+            let end = !matches!(
+                update,
+                Update::Rule {
+                    computed: false,
+                    ..
+                }
+            );
+            batch.push(update);
+            if end {
+                break;
+            }
+        }
+        batch
+    }
+
+    /// The next piece of the current job: a rule from the cache; or a rule's nominal figures on its engine with
+    /// the field check (milliseconds), then in the next step its tolerance spread (the slow part); or the job's
+    /// end. `None` when idle.
+    pub fn step(&mut self) -> Option<Update> {
+        if let Some((generation, message)) = self.failure.take() {
+            return Some(Update::Failed {
+                generation,
+                message,
+            });
+        }
+        let job = self.job.as_mut()?;
+        let Some(rule) = job.project.rules.get(job.next) else {
+            let generation = job.generation;
+            self.job = None;
+            return Some(Update::Done {
+                generation,
+                computations: self.computations,
+            });
+        };
+        let index = job.next;
+        let key = rule_key(&job.project, rule, &self.options);
+        let nominal = PlanOptions {
+            spread_samples: 0,
+            ..self.options
+        };
+        let (outcome, complete, computed) = if job.spread_due {
+            (plan_one_rule(&job.project, rule, &self.options), true, true)
+        } else if let Some(hit) = self.cache.get(&key) {
+            (hit, true, false)
+        } else if nominal == self.options {
+            (plan_one_rule(&job.project, rule, &self.options), true, true)
+        } else {
+            let outcome = plan_one_rule(&job.project, rule, &nominal);
+            // A rule that cannot be computed has no spread to follow.
+            let complete = matches!(outcome, RuleOutcome::Error { .. });
+            (outcome, complete, true)
+        };
+        if complete {
+            job.next += 1;
+            job.spread_due = false;
+            if computed {
+                self.computations += 1;
+                self.cache.put(key, outcome.clone());
+            }
+        } else {
+            job.spread_due = true;
+        }
+        Some(Update::Rule {
+            generation: job.generation,
+            index,
+            outcome: Box::new(outcome),
+            complete,
+            computed,
+            computations: self.computations,
+        })
+    }
+}
+
+/// The closed-form preview with its rows cached by [`rule_key`]: a keystroke in one rule recomputes that rule's
+/// preview only (a closed form of a broadside or coupled stripline takes milliseconds, sixteen of them a frame).
+#[derive(Debug, Default)]
+pub struct Previewer {
+    cache: RuleCache,
+}
+
+impl Previewer {
+    /// The same plan as `plan_with(project, &PlanOptions::preview())`.
+    pub fn plan(&mut self, project: &Project) -> Result<ohmstack_core::Plan, String> {
+        let options = PlanOptions::preview();
+        // The plan's own rows (stack table, thickness, symmetry) without any rule: cheap, and the stack's check.
+        let mut plan = crate::bridge::plan_without_rules(project)?;
+        plan.rules = project
+            .rules
+            .iter()
+            .map(|rule| {
+                let key = rule_key(project, rule, &options);
+                self.cache.get(&key).unwrap_or_else(|| {
+                    let outcome = plan_one_rule(project, rule, &options);
+                    self.cache.put(key, outcome.clone());
+                    outcome
+                })
+            })
+            .collect();
+        Ok(plan)
+    }
+}
+
+/// Where a rule's row on screen stands.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum RowState {
+    /// The closed-form preview; the field engine's figures are being computed.
+    Preview,
+    /// The field engine's nominal figures; the tolerance spread is being computed.
+    Nominal,
+    /// Everything in.
+    Final,
+}
+
+/// The page's view of the field plan: the generation it asked for last, the project of that generation, and the
+/// rules landed so far (with whether each is complete). Updates of any other generation are dropped.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct FieldPlan {
+    pub generation: u64,
+    pub project: Option<Project>,
+    pub rules: Vec<Option<(RuleOutcome, bool)>>,
+    /// Every rule of the generation has landed (or the request failed).
+    pub done: bool,
+    /// Rules the worker computed since it started (cache hits not counted).
+    pub computations: u64,
+    /// Why the generation could not be planned, when it could not.
+    pub failure: Option<String>,
+}
+
+impl FieldPlan {
+    /// A new generation was sent for `project`: nothing of it has landed yet.
+    pub fn submitted(&mut self, generation: u64, project: Project) {
+        self.generation = generation;
+        self.rules = vec![None; project.rules.len()];
+        self.project = Some(project);
+        self.done = false;
+        self.failure = None;
+    }
+
+    /// Takes a worker update; returns false (and changes nothing) when it is for another generation.
+    pub fn apply(&mut self, update: Update) -> bool {
+        // Generation 0 is the worker speaking outside any request (a message it could not read).
+        if update.generation() != self.generation && update.generation() != 0 {
+            return false;
+        }
+        match update {
+            Update::Rule {
+                index,
+                outcome,
+                complete,
+                computations,
+                ..
+            } => {
+                self.computations = self.computations.max(computations);
+                match self.rules.get_mut(index) {
+                    Some(slot) => *slot = Some((*outcome, complete)),
+                    None => return false,
+                }
+            }
+            Update::Done { computations, .. } => {
+                self.computations = self.computations.max(computations);
+                self.done = true;
+            }
+            Update::Failed { message, .. } => {
+                self.failure = Some(message);
+                self.done = true;
+            }
+        }
+        true
+    }
+
+    /// The plan to show for `project`: `preview` (the closed form, computed on the page) with every rule whose
+    /// field outcome has landed replaced by it, and where each row stands. When the field plan is for another
+    /// project, every row is the preview's; after a failed request the preview is final (nothing is coming).
+    pub fn merge(
+        &self,
+        project: &Project,
+        preview: &ohmstack_core::Plan,
+    ) -> (ohmstack_core::Plan, Vec<RowState>) {
+        let mut plan = preview.clone();
+        let current = self.project.as_ref() == Some(project);
+        let states = plan
+            .rules
+            .iter_mut()
+            .enumerate()
+            .map(
+                |(i, row)| match self.rules.get(i).and_then(|r| r.as_ref()) {
+                    Some((field, complete)) if current => {
+                        *row = field.clone();
+                        if *complete || self.done {
+                            RowState::Final
+                        } else {
+                            RowState::Nominal
+                        }
+                    }
+                    _ if current && self.done => RowState::Final,
+                    _ => RowState::Preview,
+                },
+            )
+            .collect();
+        (plan, states)
+    }
+
+    /// Every rule of `project` has its field figures (or nothing more is coming for it).
+    pub fn settled_for(&self, project: &Project) -> bool {
+        self.done && self.project.as_ref() == Some(project)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use ohmstack_core::design::demo;
+
+    fn request(generation: u64, project: &Project) -> Request {
+        Request {
+            generation,
+            project: serde_json::to_string(project).unwrap(),
+        }
+    }
+
+    /// Cheap options for the tests: nominal figures only (the cache and scheduling do not depend on the options).
+    fn planner() -> Planner {
+        Planner::new(ohmstack_core::PlanOptions::default())
+    }
+
+    fn run(planner: &mut Planner) -> Vec<Update> {
+        std::iter::from_fn(|| planner.step()).collect()
+    }
+
+    #[test]
+    fn every_rule_lands_nominal_then_complete_and_equals_the_whole_plan() {
+        let mut p = demo::project();
+        // An unreachable target: an error row, final at once (no spread follows).
+        p.rules[1].target_ohm = 400.0;
+        let mut planner = Planner::default();
+        planner.request(&request(1, &p));
+        let updates = run(&mut planner);
+        let whole = ohmstack_core::plan_with(&p, &options()).unwrap();
+        let mut seen = Vec::new();
+        for u in &updates[..updates.len() - 1] {
+            match u {
+                Update::Rule {
+                    generation: 1,
+                    index,
+                    outcome,
+                    complete,
+                    computed: true,
+                    ..
+                } => {
+                    seen.push((*index, *complete));
+                    if *complete {
+                        assert_eq!(**outcome, whole.rules[*index]);
+                    } else {
+                        // The nominal figures: everything but the spread, already on the field engine's word.
+                        let mut expected = whole.rules[*index].clone();
+                        if let RuleOutcome::Ok(r) = &mut expected {
+                            r.spread = None;
+                            r.warnings
+                                .retain(|w| !w.message.starts_with("tolerance spread"));
+                        }
+                        assert_eq!(**outcome, expected);
+                    }
+                }
+                other => panic!("expected a computed rule, got {other:?}"),
+            }
+        }
+        let mut expected = Vec::new();
+        for i in 0..p.rules.len() {
+            if i != 1 {
+                expected.push((i, false));
+            }
+            expected.push((i, true));
+        }
+        assert_eq!(seen, expected);
+        assert!(
+            matches!(updates.last(), Some(Update::Done { generation: 1, computations }) if *computations == p.rules.len() as u64)
+        );
+        assert!(!planner.busy() && planner.step().is_none());
+        // Asked again, every complete row comes from the cache in one batch with the end.
+        planner.request(&request(2, &p));
+        let batch = planner.run_batch();
+        assert_eq!(batch.len(), p.rules.len() + 1);
+        assert!(batch[..p.rules.len()].iter().all(|u| matches!(
+            u,
+            Update::Rule {
+                complete: true,
+                computed: false,
+                ..
+            }
+        )));
+    }
+
+    #[test]
+    fn a_newer_request_between_the_nominal_figures_and_the_spread_drops_the_spread() {
+        let p = demo::project();
+        let mut q = p.clone();
+        q.rules[0].target_ohm += 1.0;
+        let mut planner = Planner::default();
+        planner.request(&request(1, &p));
+        assert!(matches!(
+            planner.step(),
+            Some(Update::Rule {
+                index: 0,
+                complete: false,
+                ..
+            })
+        ));
+        planner.request(&request(2, &q));
+        assert!(matches!(
+            planner.step(),
+            Some(Update::Rule {
+                generation: 2,
+                index: 0,
+                complete: false,
+                ..
+            })
+        ));
+    }
+
+    #[test]
+    fn an_edit_recomputes_only_the_rule_it_touched() {
+        let mut p = demo::project();
+        let mut planner = planner();
+        planner.request(&request(1, &p));
+        run(&mut planner);
+        let before = planner.computations();
+        p.rules[1].target_ohm += 1.0;
+        p.title = "renamed".into();
+        planner.request(&request(2, &p));
+        let computed: Vec<usize> = run(&mut planner)
+            .iter()
+            .filter_map(|u| match u {
+                Update::Rule {
+                    index,
+                    computed: true,
+                    ..
+                } => Some(*index),
+                _ => None,
+            })
+            .collect();
+        assert_eq!(computed, vec![1]);
+        assert_eq!(planner.computations(), before + 1);
+        // A change every rule depends on (the analysis frequency) recomputes all of them.
+        p.analysis_freq_hz *= 2.0;
+        planner.request(&request(3, &p));
+        run(&mut planner);
+        assert_eq!(planner.computations(), before + 1 + p.rules.len() as u64);
+    }
+
+    #[test]
+    fn a_newer_request_drops_the_stale_work_and_an_older_one_is_ignored() {
+        let p = demo::project();
+        let mut q = p.clone();
+        q.rules[0].target_ohm += 2.0;
+        let mut planner = planner();
+        planner.request(&request(5, &p));
+        assert!(matches!(
+            planner.step(),
+            Some(Update::Rule {
+                generation: 5,
+                index: 0,
+                ..
+            })
+        ));
+        // The page sends a newer edit between two rules: the rest of generation 5 is never computed.
+        planner.request(&request(6, &q));
+        planner.request(&request(4, &p));
+        let updates = run(&mut planner);
+        assert!(updates.iter().all(|u| u.generation() == 6), "{updates:?}");
+        assert_eq!(updates.len(), q.rules.len() + 1);
+        assert_eq!(planner.computations(), 1 + q.rules.len() as u64);
+    }
+
+    #[test]
+    fn an_unplannable_request_is_reported_as_failed() {
+        let mut p = demo::project();
+        p.stackup.layers.clear();
+        let mut planner = planner();
+        planner.request(&request(1, &p));
+        match planner.step() {
+            Some(Update::Failed {
+                generation: 1,
+                message,
+            }) => assert!(!message.is_empty()),
+            other => panic!("expected a failure, got {other:?}"),
+        }
+        planner.request(&Request {
+            generation: 2,
+            project: "{".into(),
+        });
+        assert!(
+            matches!(planner.step(), Some(Update::Failed { generation: 2, message }) if message.contains("could not be read"))
+        );
+        assert!(planner.step().is_none());
+    }
+
+    #[test]
+    fn the_page_keeps_only_its_latest_generation_and_merges_it_over_the_preview() {
+        let p = demo::project();
+        let preview = ohmstack_core::plan_with(&p, &ohmstack_core::PlanOptions::preview()).unwrap();
+        let mut planner = Planner::default();
+        planner.request(&request(2, &p));
+        let updates = run(&mut planner);
+        let mut field = FieldPlan::default();
+        field.submitted(2, p.clone());
+        let (shown, states) = field.merge(&p, &preview);
+        assert_eq!(shown, preview);
+        assert!(states.iter().all(|&s| s == RowState::Preview));
+        // A late update of an older generation changes nothing.
+        let mut old = updates[0].clone();
+        if let Update::Rule { generation, .. } = &mut old {
+            *generation = 1;
+        }
+        assert!(!field.apply(old));
+        // Rule 0's nominal field figures, then its spread.
+        assert!(field.apply(updates[0].clone()));
+        let (shown, states) = field.merge(&p, &preview);
+        assert_eq!(states[0], RowState::Nominal);
+        assert!(states[1..].iter().all(|&s| s == RowState::Preview));
+        // The demo's rules are on the field engine: the landed row is the engine's, the others the preview's.
+        let field_made =
+            |r: &RuleOutcome| ohmstack_core::engine::is_field_method(&r.ok().unwrap().method);
+        assert!(field_made(&shown.rules[0]) && !field_made(&shown.rules[1]));
+        assert!(shown.rules[0].ok().unwrap().spread.is_none());
+        assert!(field.apply(updates[1].clone()));
+        let (shown, states) = field.merge(&p, &preview);
+        assert_eq!(states[0], RowState::Final);
+        assert!(shown.rules[0].ok().unwrap().spread.is_some());
+        assert!(shown.rules[1].ok().unwrap().spread.is_none());
+        for u in updates[2..].iter().cloned() {
+            assert!(!field.settled_for(&p));
+            assert!(field.apply(u));
+        }
+        assert!(field.settled_for(&p));
+        let (shown, states) = field.merge(&p, &preview);
+        assert!(states.iter().all(|&s| s == RowState::Final));
+        assert_eq!(shown, ohmstack_core::plan_with(&p, &options()).unwrap());
+        // Another project on screen: the figures are not merged over it.
+        let mut q = p.clone();
+        q.rules[0].target_ohm += 1.0;
+        assert!(!field.settled_for(&q));
+        assert!(field
+            .merge(&q, &preview)
+            .1
+            .iter()
+            .all(|&s| s == RowState::Preview));
+    }
+
+    #[test]
+    fn cache_hits_travel_with_the_next_computed_rule() {
+        let mut p = demo::project();
+        let mut planner = planner();
+        planner.request(&request(1, &p));
+        // Nothing cached: one rule a batch, then the end.
+        let mut sizes = Vec::new();
+        while planner.busy() {
+            sizes.push(planner.run_batch().len());
+        }
+        assert_eq!(sizes, [vec![1; p.rules.len()], vec![1]].concat());
+        // Only the last rule changed: every row before it comes in the batch that carries it, then the end.
+        let last = p.rules.len() - 1;
+        p.rules[last].target_ohm += 1.0;
+        planner.request(&request(2, &p));
+        let batch = planner.run_batch();
+        assert_eq!(batch.len(), p.rules.len());
+        assert!(
+            matches!(batch.last(), Some(Update::Rule { computed: true, index, .. }) if *index == last)
+        );
+        assert!(matches!(
+            planner.run_batch()[..],
+            [Update::Done { generation: 2, .. }]
+        ));
+        assert!(planner.run_batch().is_empty());
+    }
+
+    #[test]
+    fn the_cached_preview_is_the_preview_plan() {
+        let mut p = demo::project();
+        let mut previewer = Previewer::default();
+        let options = ohmstack_core::PlanOptions::preview();
+        for step in 0..3 {
+            let i = step % p.rules.len();
+            p.rules[i].target_ohm += 0.5;
+            p.title = format!("step {step}");
+            let whole = ohmstack_core::plan_with(&p, &options).unwrap();
+            assert_eq!(previewer.plan(&p).unwrap(), whole);
+        }
+        p.stackup.layers.clear();
+        assert!(previewer.plan(&p).is_err());
+    }
+
+    #[test]
+    fn the_key_follows_what_a_rule_depends_on() {
+        let p = demo::project();
+        let o = options();
+        let key = |p: &Project| rule_key(p, &p.rules[0], &o);
+        let k = key(&p);
+        let mut q = p.clone();
+        q.title = "other".into();
+        q.rules[1].width_m *= 2.0;
+        assert_eq!(key(&q), k, "title and other rules are not part of it");
+        for change in [
+            |q: &mut Project| q.rules[0].tolerance_pct += 1.0,
+            |q: &mut Project| q.rules[0].name.push('x'),
+            |q: &mut Project| q.analysis_freq_hz += 1.0,
+            |q: &mut Project| q.fab = Default::default(),
+            |q: &mut Project| q.process = Some(Default::default()),
+        ] {
+            let mut q = p.clone();
+            change(&mut q);
+            if q != p {
+                assert_ne!(key(&q), k, "{q:?}");
+            }
+        }
+        assert_ne!(
+            rule_key(&p, &p.rules[0], &ohmstack_core::PlanOptions::default()),
+            k
+        );
+    }
+}
