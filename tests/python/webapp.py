@@ -97,9 +97,9 @@ def assert_same_numbers(driver, project: dict):
     assert len(shown) == len(core) > 0
     for s, c in zip(shown, core):
         # Same core compiled to WASM. The field engine's synthesis stops within 1e-4 of target, and WASM's libm
-        # differs from the native one in the last bits, so the root finder's iterates differ: measured 1.7e-7
-        # relative. A wrong project or a closed-form figure differs by far more.
-        assert abs(s / c - 1) < 1e-6, (s, c)
+        # differs from the native one in the last bits, so the root finder's iterates differ (measured 1.7e-7 and
+        # 5.5e-6 relative): both sit inside the synthesis tolerance, which is the bound that holds.
+        assert abs(s / c - 1) < 1e-4, (s, c)
 
 
 def no_alert(driver) -> bool:
