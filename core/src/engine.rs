@@ -15,6 +15,7 @@ use crate::design::project::{ImpedanceRule, Project, RuleModel, Structure};
 use crate::field::boundary::{self, BemOptions};
 use crate::field::{self, FieldOptions, FieldResult};
 use crate::section::{Analysis, CrossSection, Dims};
+use serde::{Deserialize, Serialize};
 
 /// Method name of the reference field solver's figures (shown in the results and fab notes).
 pub const FIELD_METHOD: &str = "2D field solver (finite volumes, extrapolated)";
@@ -173,6 +174,118 @@ impl Engine {
                 self.analyze(cs, structure, dims).map(|a| a.controlled())
             }
         }
+    }
+}
+
+/// One mode of a field solve with what the loss model needs beyond Z and εeff.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+pub struct ModeFill {
+    pub z0: f64,
+    pub eps_eff: f64,
+    /// Share of the mode's electric energy stored in the dielectrics (the rest is in air): d ln C / d ln λ with
+    /// every Dk scaled by λ. 1 for a line wholly in dielectric; it weights the loss tangent (dielectric loss) and
+    /// carries Z and εeff to another Dk (C ∝ λ^share for small changes).
+    pub dielectric_share: f64,
+}
+
+/// Relative step of the Dk scaling that gives each mode's dielectric share (forward difference on one mesh: its
+/// truncation error is about this times the share's slope, its rounding 1e-12 / this).
+const SHARE_STEP: f64 = 1e-5;
+
+fn mode_list(a: &Analysis) -> Vec<(f64, f64)> {
+    match a {
+        Analysis::Single(s) => vec![(s.z0, s.eps_eff)],
+        Analysis::Pair(p) => vec![(p.z_odd, p.eps_eff_odd), (p.z_even, p.eps_eff_even)],
+    }
+}
+
+impl Engine {
+    /// The boundary-element solve behind the loss probes of a field engine. The reference uses the fast engine's
+    /// default mesh here too: its grid follows the geometry in steps, so derivatives along receding walls would be
+    /// noise, while a boundary mesh moves smoothly with the walls.
+    fn probe(&self) -> Option<(BemOptions, Option<f64>)> {
+        match *self {
+            Engine::ClosedForm => None,
+            Engine::Field {
+                options,
+                etch_factor,
+            } => Some((options, etch_factor)),
+            Engine::Reference { etch_factor, .. } => Some((BemOptions::default(), etch_factor)),
+        }
+    }
+
+    /// Each mode's impedance with every dielectric replaced by air (odd then even for a pair), and the number of
+    /// boundary panels that made it (`None` for the closed forms): a caller differentiating it along receding walls
+    /// compares the counts, since a derivative across a change of mesh layout would be meaningless.
+    pub fn air_impedances(
+        &self,
+        cs: &CrossSection,
+        structure: Structure,
+        dims: &Dims,
+    ) -> Result<(Vec<f64>, Option<usize>)> {
+        match self.probe() {
+            None => {
+                let e = closed_form::evaluate(cs, structure, dims)?;
+                Ok((mode_list(&e.analysis).iter().map(|m| m.0).collect(), None))
+            }
+            Some((options, etch_factor)) => {
+                let g = field::build(cs, structure, dims, etch_factor)?;
+                let level = boundary::vacuum_capacitances(&g, options.fine)?;
+                let a = field::extract::analysis(&level.c0, &level.c0).ok_or_else(|| {
+                    crate::base::error::Error::Invalid {
+                        field: "geometry".into(),
+                        reason: "the air-filled line has no positive capacitance".into(),
+                    }
+                })?;
+                let z = mode_list(&a).iter().map(|m| m.0).collect();
+                Ok((z, Some(level.panels)))
+            }
+        }
+    }
+
+    /// Field engines: each mode's Z and εeff on the result's mesh and the share of its energy in the dielectrics
+    /// (two solves on one mesh). `None` for the closed forms, whose loss uses the filling factor of their εeff.
+    pub fn mode_fills(
+        &self,
+        cs: &CrossSection,
+        structure: Structure,
+        dims: &Dims,
+    ) -> Result<Option<Vec<ModeFill>>> {
+        let Some((options, etch_factor)) = self.probe() else {
+            return Ok(None);
+        };
+        let g = field::build(cs, structure, dims, etch_factor)?;
+        let bad = || crate::base::error::Error::Invalid {
+            field: "geometry".into(),
+            reason: "the field solve gave a non-positive capacitance".into(),
+        };
+        let nominal = boundary::capacitances(&g, options.fine)?;
+        let scaled =
+            boundary::capacitances(&g.with_dielectrics_scaled(1.0 + SHARE_STEP), options.fine)?;
+        let a = field::extract::analysis(&nominal.c, &nominal.c0).ok_or_else(bad)?;
+        let b = field::extract::analysis(&scaled.c, &scaled.c0).ok_or_else(bad)?;
+        let fills = mode_list(&a)
+            .into_iter()
+            .zip(mode_list(&b))
+            .map(|((z0, eps_eff), (_, eps_scaled))| ModeFill {
+                z0,
+                eps_eff,
+                // Same mesh (the Dk does not move a panel): C0 is unchanged, so C moves as εeff does.
+                dielectric_share: if nominal.panels == scaled.panels {
+                    ((eps_scaled / eps_eff).ln() / (1.0 + SHARE_STEP).ln()).clamp(0.0, 1.0)
+                } else {
+                    f64::NAN
+                },
+            })
+            .collect::<Vec<_>>();
+        if fills.iter().any(|m| !m.dielectric_share.is_finite()) {
+            return Err(crate::base::error::Error::Invalid {
+                field: "geometry".into(),
+                reason: "the dielectric share could not be found (the mesh changed with the Dk)"
+                    .into(),
+            });
+        }
+        Ok(Some(fills))
     }
 }
 

@@ -1,8 +1,11 @@
 //! Loss and frequency behaviour of any structure the models know: R, L, G, C per length, complex Z0, γ = α + jβ,
 //! conductor and dielectric loss, phase and group delay, at one frequency or over a log-spaced sweep.
 //!
-//! The module is structure-independent: it only asks [`closed_form::evaluate`] for impedances of modified
-//! cross-sections, so every structure family that lands in `evaluate` gets loss for free.
+//! The module is structure- and engine-independent: it asks the rule's [`Engine`] for impedances of modified
+//! cross-sections (walls receded, every Dk scaled), so every structure an engine answers gets loss for free. On a
+//! field engine the slopes are central differences of its air solves on one mesh layout (the step shrinks until
+//! both sides share it), and each mode's share of electric energy in the dielectrics comes from the field
+//! ([`Engine::mode_fills`]); on the closed forms both come from the formulas.
 //!
 //! **Conductor loss** — H. A. Wheeler, "Formulas for the skin effect", Proc. IRE 30(9), 1942, pp. 412–424,
 //! the incremental-inductance rule: the skin-effect resistance per length equals the increase of the external
@@ -31,10 +34,13 @@
 //! internal reactance ωL_int. Against the exact symmetric slab, the common √(R_dc² + R_ac²) blend is up to 31 %
 //! high near t ≈ 2–3δ, which is why we do not use it.
 //!
-//! **Dielectric loss** — for a quasi-TEM line partly filled with dielectric, with filling factor
-//! q = (εeff − 1)/(εr − 1): α_d = (π f/c)·εr·(εeff − 1)/(√εeff·(εr − 1))·tanδ; homogeneous lines (q = 1) reduce to
+//! **Dielectric loss** — G = ωC·tanδ_eff with tanδ_eff = p·tanδ, p the share of the mode's electric energy stored
+//! in the dielectric. On the closed forms p comes from the filling factor q = (εeff − 1)/(εr − 1) as p = q·εr/εeff,
+//! giving α_d = (π f/c)·εr·(εeff − 1)/(√εeff·(εr − 1))·tanδ; homogeneous lines (q = 1) reduce to
 //! α_d = π f √εr tanδ/c. (Pozar, "Microwave Engineering", 4th ed., §3.8, microstrip attenuation, from memory; the
-//! same expression as scikit-rf's `MLine`.) Equivalently G = ωC·tanδ_eff with tanδ_eff = q·εr·tanδ/εeff.
+//! same expression as scikit-rf's `MLine`.) On a field engine p = d ln C/d ln λ with every Dk scaled by λ (two
+//! solves on one mesh), which needs no assumption that εeff is linear in εr and sees each layer and the mask as they
+//! are; Z and εeff at Dk(f) = λ·Dk then follow C ∝ λ^p (exact for a line wholly in dielectric or in air).
 //! Dk(f) and Df(f) come from [`crate::design::dielectric`] (Djordjevic–Sarkar, or constant); the structure is re-evaluated
 //! at each frequency with εr = Dk(f), so εeff and Z0 follow the material.
 //!
@@ -49,8 +55,9 @@
 //! Pairs give two modes, odd and even, each as one line (per-line R, L, G, C of that mode); the differential
 //! signal travels in the odd mode.
 //!
-//! Claimed accuracy: Wheeler's rule is exact as δ → 0; its error here is that of the Z0_air formula's derivative
-//! (≈1 % for Hammerstad–Jensen microstrip, measured against a field solve).
+//! Claimed accuracy: Wheeler's rule is exact as δ → 0; its error here is that of the Z0_air derivative: ≈1 % for
+//! Hammerstad–Jensen microstrip (measured against a field solve), and on the field engine within 0.2 % of the
+//! exact derivative of Cohn's 1954 stripline (planes receding) and of scikit-fem's (`tests/python/test_loss.py`).
 //!
 //! Checked against: skin depth of copper (2.09 µm at 1 GHz); R_dc = ρ·len/area exactly; the parallel-plate limit
 //! R → 2Rs/w of a very wide microstrip and the exact one-sided slab from DC to skin effect (unit tests);
@@ -67,6 +74,7 @@ use crate::closed_form::microstrip;
 use crate::design::dielectric::Dispersive;
 pub use crate::design::loss_options::{LossOptions, COPPER_CONDUCTIVITY};
 use crate::design::project::{ImpedanceRule, Project, Structure};
+use crate::engine::{Engine, ModeFill};
 pub use crate::section::Surfaces;
 
 use crate::line::dispersion;
@@ -272,6 +280,10 @@ pub struct LineModel {
     pub inputs: LossInputs,
     slopes: Vec<Slopes>,
     r_dc: f64,
+    /// Field engines: each mode's Z, εeff and dielectric share at the stack's Dk (the sweep carries them to Dk(f)).
+    field: Option<Vec<ModeFill>>,
+    /// The engine that made the wall slopes and the modes ([`Engine::name`]).
+    pub engine: &'static str,
 }
 
 fn medium_er(m: &Medium) -> f64 {
@@ -335,6 +347,8 @@ fn with_er(cs: &CrossSection, er: f64) -> CrossSection {
 /// and the lower plane (the one plane of a microstrip) by `rb`. Negative values advance the walls.
 fn receded(cs: &CrossSection, dims: &Dims, rt: f64, ra: f64, rb: f64) -> (CrossSection, Dims) {
     let mut out = with_er(cs, 1.0);
+    // In air the layers' heights and Dk no longer matter; the field engines would otherwise read them.
+    out.layering = None;
     let air = |c: Cover| match c {
         Cover::Air => Cover::Air,
         Cover::Mask { thickness_m, .. } => Cover::Mask {
@@ -409,10 +423,25 @@ fn no_loss_model(reason: String) -> Error {
     }
 }
 
+/// Tries of the wall step on a field engine: a step whose two sides fall on different mesh layouts is shrunk.
+const STEP_TRIES: usize = 4;
+
 impl LineModel {
-    /// Prepares the loss model of `structure` on `cs` with `dims`. Fails with an error (never a panic) when the
-    /// structure cannot be evaluated with receded walls.
+    /// Prepares the loss model of `structure` on `cs` with `dims` on the closed forms.
     pub fn new(
+        cs: &CrossSection,
+        structure: Structure,
+        dims: &Dims,
+        inputs: LossInputs,
+    ) -> Result<LineModel> {
+        LineModel::on(&Engine::ClosedForm, cs, structure, dims, inputs)
+    }
+
+    /// Prepares the loss model on `engine`: Wheeler's rule on its air impedances, and on a field engine each
+    /// mode's dielectric share from the field. Fails with an error (never a panic) when the structure cannot be
+    /// evaluated with receded walls.
+    pub fn on(
+        engine: &Engine,
         cs: &CrossSection,
         structure: Structure,
         dims: &Dims,
@@ -439,45 +468,62 @@ impl LineModel {
         s.trace.validate("roughness")?;
         s.plane_above.validate("roughness")?;
         s.plane_below.validate("roughness")?;
-        // Check the structure evaluates as given (also validates the geometry).
-        let base = closed_form::evaluate(cs, structure, dims)?;
-        let n_modes = mode_impedances(&base.analysis).len();
+        // Check the structure evaluates as given (also validates the geometry); a field engine's modes and
+        // dielectric shares come from the same check.
+        let field = engine.mode_fills(cs, structure, dims)?;
+        let n_modes = match &field {
+            Some(f) => f.len(),
+            None => mode_impedances(&closed_form::evaluate(cs, structure, dims)?.analysis).len(),
+        };
         let mut smallest = dims.w.min(cs.t).min(cs.scale_height());
         for v in [dims.s, dims.gap].into_iter().flatten() {
             smallest = smallest.min(v);
         }
-        let step = 1e-4 * smallest;
-        let z_air = |rt: f64, ra: f64, rb: f64| -> Result<Vec<f64>> {
+        let z_air = |rt: f64, ra: f64, rb: f64| -> Result<(Vec<f64>, Option<usize>)> {
             let (c, d) = receded(cs, dims, rt, ra, rb);
-            let e = closed_form::evaluate(&c, structure, &d).map_err(|e| {
+            let (z, mesh) = engine.air_impedances(&c, structure, &d).map_err(|e| {
                 no_loss_model(format!(
                     "the air-filled structure with receded walls cannot be evaluated ({e})"
                 ))
             })?;
-            let z = mode_impedances(&e.analysis);
             if z.len() != n_modes || z.iter().any(|v| !v.is_finite()) {
                 return Err(no_loss_model(
                     "the air-filled structure gave no finite impedance".into(),
                 ));
             }
-            Ok(z)
+            Ok((z, mesh))
         };
-        let diff = |plus: Vec<f64>, minus: Vec<f64>| -> Vec<f64> {
-            plus.iter()
-                .zip(&minus)
-                .map(|(p, m)| (p - m) / (2.0 * step))
-                .collect()
+        // Central difference of Z0_air as the walls `(trace, above, below)` recede; on a field engine both sides
+        // must share one mesh layout (a panel count that jumps between them would swamp the derivative), so the
+        // step shrinks until they do.
+        let slope = |walls: (f64, f64, f64)| -> Result<Vec<f64>> {
+            let mut step = 1e-4 * smallest;
+            for _ in 0..STEP_TRIES {
+                let (plus, mesh_plus) = z_air(walls.0 * step, walls.1 * step, walls.2 * step)?;
+                let (minus, mesh_minus) = z_air(-walls.0 * step, -walls.1 * step, -walls.2 * step)?;
+                if mesh_plus == mesh_minus {
+                    return Ok(plus
+                        .iter()
+                        .zip(&minus)
+                        .map(|(p, m)| (p - m) / (2.0 * step))
+                        .collect());
+                }
+                step *= 0.37;
+            }
+            Err(no_loss_model(
+                "the field mesh changed with every step of the receding walls".into(),
+            ))
         };
-        let trace = diff(z_air(step, 0.0, 0.0)?, z_air(-step, 0.0, 0.0)?);
+        let trace = slope((1.0, 0.0, 0.0))?;
         let (has_above, has_below) = plane_sides(&cs.medium);
         let zeros = vec![0.0; n_modes];
         let above = if has_above {
-            diff(z_air(0.0, step, 0.0)?, z_air(0.0, -step, 0.0)?)
+            slope((0.0, 1.0, 0.0))?
         } else {
             zeros.clone()
         };
         let below = if has_below {
-            diff(z_air(0.0, 0.0, step)?, z_air(0.0, 0.0, -step)?)
+            slope((0.0, 0.0, 1.0))?
         } else {
             zeros
         };
@@ -504,7 +550,43 @@ impl LineModel {
             inputs,
             slopes,
             r_dc,
+            field,
+            engine: engine.name(),
         })
+    }
+
+    /// Each mode's (Z0, εeff, share of the energy in the dielectrics) at the dielectric's Dk `dk`.
+    fn static_modes(&self, dk: f64) -> Result<Vec<(f64, f64, f64)>> {
+        if let Some(fills) = &self.field {
+            // The field solved the stack at its own Dk; C ∝ λ^share carries it to Dk(f) = λ·Dk (exact for a line
+            // wholly in dielectric or wholly in air, first order between).
+            let ratio = dk / medium_er(&self.cross_section.medium);
+            return Ok(fills
+                .iter()
+                .map(|m| {
+                    let p = m.dielectric_share;
+                    (m.z0 * ratio.powf(-0.5 * p), m.eps_eff * ratio.powf(p), p)
+                })
+                .collect());
+        }
+        let cs_f = with_er(&self.cross_section, dk.max(1.0));
+        let evaluated = closed_form::evaluate(&cs_f, self.structure, &self.dims)?;
+        let modes: Vec<(f64, f64)> = match &evaluated.analysis {
+            Analysis::Single(s) => vec![(s.z0, s.eps_eff)],
+            Analysis::Pair(p) => vec![(p.z_odd, p.eps_eff_odd), (p.z_even, p.eps_eff_even)],
+        };
+        // The filling factor of a closed form's εeff: q = (εeff − 1)/(εr − 1), energy share q·εr/εeff.
+        Ok(modes
+            .into_iter()
+            .map(|(z, ee)| {
+                let q = if dk > 1.0 + 1e-9 {
+                    ((ee - 1.0) / (dk - 1.0)).clamp(0.0, 1.0)
+                } else {
+                    0.0
+                };
+                (z, ee, q * dk / ee)
+            })
+            .collect())
     }
 
     /// DC resistance per length of one trace, Ω/m: ρ/(w·t).
@@ -517,23 +599,21 @@ impl LineModel {
         let mut warnings = Vec::new();
         let sigma = self.inputs.conductivity_s_per_m;
         let (dk, df) = self.inputs.dielectric.dk_df(f_hz);
-        let cs_f = with_er(&self.cross_section, dk.max(1.0));
-        let evaluated = closed_form::evaluate(&cs_f, self.structure, &self.dims)?;
-        let mut modes: Vec<(f64, f64)> = match &evaluated.analysis {
-            Analysis::Single(s) => vec![(s.z0, s.eps_eff)],
-            Analysis::Pair(p) => vec![(p.z_odd, p.eps_eff_odd), (p.z_even, p.eps_eff_even)],
-        };
+        let dk = dk.max(1.0);
+        let mut modes = self.static_modes(dk)?;
         if self.inputs.dispersion && self.structure == Structure::Single {
             if let Medium::Microstrip {
                 h,
-                er,
                 cover: Cover::Air,
-            } = cs_f.medium
+                ..
+            } = self.cross_section.medium
             {
+                // Kirschning–Jansen takes the static εeff and Z0 as inputs, so it applies to a field's too.
                 let u = self.dims.w / h;
-                let (_, dur) = microstrip::thickness_increments(u, self.cross_section.t / h, er);
-                let (z, ee) = modes[0];
-                modes[0] = dispersion::microstrip(u + dur, h, er, z, ee, f_hz, &mut warnings);
+                let (_, dur) = microstrip::thickness_increments(u, self.cross_section.t / h, dk);
+                let (z, ee, share) = modes[0];
+                let (zf, eef) = dispersion::microstrip(u + dur, h, dk, z, ee, f_hz, &mut warnings);
+                modes[0] = (zf, eef, share);
             }
         }
         let delta = skin_depth(f_hz, sigma);
@@ -553,7 +633,7 @@ impl LineModel {
         );
         let omega = 2.0 * PI * f_hz;
         let mut out = Vec::with_capacity(modes.len());
-        for (i, &(z0, ee)) in modes.iter().enumerate() {
+        for (i, &(z0, ee, share)) in modes.iter().enumerate() {
             let sl = self.slopes[i];
             let smooth = sl.trace + sl.above + sl.below;
             let rough = kt * sl.trace + ka * sl.above + kb * sl.below;
@@ -569,12 +649,8 @@ impl LineModel {
             let (r, x_int) = (z_int.re, z_int.im.max(0.0));
             let l = z0 * ee.sqrt() / C0 + x_int / omega;
             let c = ee.sqrt() / (z0 * C0);
-            let q = if dk > 1.0 + 1e-9 {
-                ((ee - 1.0) / (dk - 1.0)).clamp(0.0, 1.0)
-            } else {
-                0.0
-            };
-            let g = omega * c * q * dk * df / ee;
+            // G = ωC·tanδ_eff, tanδ_eff = (energy share in the dielectric)·tanδ.
+            let g = omega * c * share * df;
             out.push([r, l, g, c, r_skin, rough / smooth, ee, z0]);
         }
         Ok(Rlgc {
@@ -743,7 +819,13 @@ pub fn for_rule(
     dims: &Dims,
 ) -> Result<LineModel> {
     let inputs = inputs_for_section(&project.loss, cs)?;
-    LineModel::new(cs, rule.structure, dims, inputs)
+    LineModel::on(
+        &Engine::for_rule(project, rule),
+        cs,
+        rule.structure,
+        dims,
+        inputs,
+    )
 }
 
 #[cfg(test)]
@@ -1086,5 +1168,193 @@ mod tests {
         let ext = l.eps_eff.sqrt() / C0;
         assert!(l.group_delay_s_per_m < l.phase_delay_s_per_m);
         assert!(l.group_delay_s_per_m > ext && l.phase_delay_s_per_m < 1.01 * ext);
+    }
+
+    fn field_engine() -> Engine {
+        Engine::Field {
+            options: crate::field::boundary::BemOptions::default(),
+            etch_factor: None,
+        }
+    }
+
+    fn centred_stripline(b: f64, t: f64, er: f64) -> CrossSection {
+        CrossSection {
+            loss: Default::default(),
+            layering: None,
+            medium: Medium::Stripline {
+                h_below: 0.5 * (b - t),
+                h_above: 0.5 * (b - t),
+                er,
+                dual: false,
+            },
+            t,
+            references: vec![],
+            warnings: vec![],
+        }
+    }
+
+    fn inputs(er: f64, df: f64) -> LossInputs {
+        LossInputs {
+            conductivity_s_per_m: COPPER_CONDUCTIVITY,
+            surfaces: Surfaces::default(),
+            dielectric: Dispersive::fit(DielectricModel::Constant, er, df, 1e9).unwrap(),
+            dispersion: false,
+        }
+    }
+
+    /// Cohn 1954, exact for a zero-thickness strip centred between planes b apart: Z = η0/4·K(k′)/K(k),
+    /// k = sech(πw/2b), in air.
+    fn cohn_1954_air(w: f64, b: f64) -> f64 {
+        let x = PI * w / (2.0 * b);
+        ETA0 / 4.0 * crate::base::elliptic::ratio(1.0 / x.cosh(), x.tanh())
+    }
+
+    #[test]
+    fn field_plane_slopes_match_the_exact_stripline_derivative() {
+        // Wheeler's plane share needs ∂Z0_air/∂n as both planes recede (b → b + 2n). For a zero-thickness strip
+        // Cohn's 1954 result is exact, so its derivative is too; the field engine's slope on receding planes (a
+        // central difference on one mesh layout) must match it as closely as the engine matches Z itself.
+        let (b, w) = (300e-6, 150e-6);
+        let cs = centred_stripline(b, 0.0, 1.0);
+        let d = Dims {
+            w,
+            s: None,
+            gap: None,
+        };
+        let n = 1e-4 * w;
+        let engine = field_engine();
+        let z = |ra: f64, rb: f64| {
+            let (c, dd) = receded(&cs, &d, 0.0, ra, rb);
+            engine.air_impedances(&c, Structure::Single, &dd).unwrap()
+        };
+        let (plus, m_plus) = z(n, n);
+        let (minus, m_minus) = z(-n, -n);
+        assert_eq!(m_plus, m_minus, "both sides on one mesh layout");
+        let got = (plus[0] - minus[0]) / (2.0 * n);
+        let db = 1e-6 * b;
+        // Each plane recedes by n, so b grows by 2n: ∂Z/∂n = 2·∂Z/∂b.
+        let exact = 2.0 * (cohn_1954_air(w, b + db) - cohn_1954_air(w, b - db)) / (2.0 * db);
+        let err = (got / exact - 1.0).abs();
+        assert!(
+            err < 2e-3,
+            "slope {got} vs exact {exact}: {:.3} %",
+            err * 100.0
+        );
+    }
+
+    #[test]
+    fn field_dielectric_loss_of_a_filled_line_is_exact() {
+        // A line wholly in one dielectric stores all its electric energy there: α_d = π f √εr tanδ / c exactly,
+        // whatever the geometry (any EM text; e.g. Pozar, "Microwave Engineering", 4th ed., §2.7, from memory).
+        let (er, df, f) = (4.1, 0.012, 5e9);
+        let cs = centred_stripline(400e-6, 35e-6, er);
+        let d = Dims {
+            w: 150e-6,
+            s: None,
+            gap: None,
+        };
+        let m = LineModel::on(&field_engine(), &cs, Structure::Single, &d, inputs(er, df)).unwrap();
+        assert_eq!(m.engine, "field engine");
+        let l = m.at(f).unwrap().line.unwrap();
+        let exact = PI * f * er.sqrt() * df / C0 * DB_PER_NEPER;
+        assert!(
+            (l.dielectric.db_per_m / exact - 1.0).abs() < 1e-4,
+            "{} vs {exact}",
+            l.dielectric.db_per_m
+        );
+        assert!((l.eps_eff / er - 1.0).abs() < 1e-3, "{}", l.eps_eff);
+    }
+
+    #[test]
+    fn field_loss_of_a_microstrip_follows_the_closed_form_within_its_band() {
+        // Hammerstad–Jensen's Z0_air is within about 1 % of a field solve here, so Wheeler's rule on it is within a
+        // few per cent of the rule on the field (the scikit-fem check in tests/python/test_loss.py holds the field
+        // slope to the independent solve). The dielectric share of the field equals the closed form's filling
+        // factor q·εr/εeff within a few per cent (the formula takes εeff linear in εr; the field does not).
+        for w in [100e-6, 300e-6, 800e-6] {
+            let closed = microstrip_model(w, 170e-6, 35e-6, 4.2, 0.02, Roughness::Smooth);
+            let field = LineModel::on(
+                &field_engine(),
+                &closed.cross_section,
+                Structure::Single,
+                &closed.dims,
+                closed.inputs,
+            )
+            .unwrap();
+            let (a, b) = (
+                closed.at(5e9).unwrap().line.unwrap(),
+                field.at(5e9).unwrap().line.unwrap(),
+            );
+            let r = b.r_skin_ohm_per_m / a.r_skin_ohm_per_m - 1.0;
+            let d = b.dielectric.db_per_m / a.dielectric.db_per_m - 1.0;
+            assert!(
+                r.abs() < 0.04,
+                "w {w}: skin R differs by {:.2} %",
+                r * 100.0
+            );
+            assert!(
+                d.abs() < 0.03,
+                "w {w}: dielectric loss differs by {:.2} %",
+                d * 100.0
+            );
+            // Both models give a physical line: 1 < εeff < εr, every loss positive.
+            assert!(b.eps_eff > 1.0 && b.eps_eff < 4.2);
+            assert!(b.conductor.db_per_m > 0.0 && b.dielectric.db_per_m > 0.0);
+        }
+    }
+
+    #[test]
+    fn field_loss_of_a_pair_gives_both_modes() {
+        // An edge-coupled microstrip pair under mask: the odd mode, with its lower impedance and its currents crowded
+        // onto the facing edges, attenuates more; both modes lose less to the dielectric than a filled line would.
+        let cs = CrossSection {
+            loss: Default::default(),
+            layering: None,
+            medium: Medium::Microstrip {
+                h: 100e-6,
+                er: 4.0,
+                cover: Cover::Mask {
+                    thickness_m: 20e-6,
+                    er: 3.5,
+                },
+            },
+            t: 35e-6,
+            references: vec![],
+            warnings: vec![],
+        };
+        let d = Dims {
+            w: 120e-6,
+            s: Some(100e-6),
+            gap: None,
+        };
+        let m = LineModel::on(
+            &field_engine(),
+            &cs,
+            Structure::EdgePair,
+            &d,
+            inputs(4.0, 0.02),
+        )
+        .unwrap();
+        let at = m.at(10e9).unwrap();
+        let (odd, even) = (at.odd.unwrap(), at.even.unwrap());
+        assert!(odd.conductor.db_per_m > even.conductor.db_per_m);
+        // Kirschning–Jansen's pair with the mask correction is within a few per cent of the field here, so Wheeler's
+        // rule on it (the closed-form loss) is close too.
+        let cf = LineModel::new(&cs, Structure::EdgePair, &d, inputs(4.0, 0.02))
+            .unwrap()
+            .at(10e9)
+            .unwrap();
+        for (f, c) in [(odd, cf.odd.unwrap()), (even, cf.even.unwrap())] {
+            let r = f.r_skin_ohm_per_m / c.r_skin_ohm_per_m - 1.0;
+            assert!(
+                r.abs() < 0.05,
+                "skin R differs from the closed form by {:.2} %",
+                r * 100.0
+            );
+        }
+        let filled = PI * 10e9 * 4f64.sqrt() * 0.02 / C0 * DB_PER_NEPER;
+        for mode in [odd, even] {
+            assert!(mode.dielectric.db_per_m > 0.0 && mode.dielectric.db_per_m < filled);
+        }
     }
 }

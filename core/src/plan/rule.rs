@@ -306,7 +306,7 @@ fn compute(project: &Project, rule: &ImpedanceRule, engine: &Engine) -> Result<R
     let error_estimate_pct = answer.error_estimate_pct;
     if let Some(err) = error_estimate_pct {
         notes.push(Warning::new(format!(
-            "figures from the {} (estimated error {} %); loss from the closed-form models at these dimensions",
+            "figures from the {} (estimated error {} %), loss too (Wheeler's rule on its air solves)",
             answer.method,
             format_sig(err, 2)
         )));

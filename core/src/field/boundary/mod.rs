@@ -351,6 +351,16 @@ fn half_capacitance(
 
 /// Whole-structure C and C0 of `g` on one mesh.
 pub fn capacitances(g: &Geometry, params: MeshParams) -> Result<BemLevel> {
+    level(g, params, true)
+}
+
+/// C0 alone (every dielectric replaced by vacuum) on one mesh; `c` repeats it. Wheeler's rule differentiates the
+/// inductance of the air-filled line, which needs nothing else, at half the factorisations.
+pub fn vacuum_capacitances(g: &Geometry, params: MeshParams) -> Result<BemLevel> {
+    level(g, params, false)
+}
+
+fn level(g: &Geometry, params: MeshParams, with_dielectrics: bool) -> Result<BemLevel> {
     let mesh = mesh::build(g, params);
     for k in 0..g.n_signals {
         let found = mesh
@@ -382,11 +392,16 @@ pub fn capacitances(g: &Geometry, params: MeshParams) -> Result<BemLevel> {
             let (s, m) = (0.5 * (odd + even), 0.5 * (even - odd));
             vec![vec![s, m], vec![m, s]]
         };
-        let co = half_capacitance(&mesh, &ints, 1, -1.0, false)?[0][0];
-        let ce = half_capacitance(&mesh, &ints, 1, 1.0, false)?[0][0];
         let vo = half_capacitance(&mesh, &ints, 1, -1.0, true)?[0][0];
         let ve = half_capacitance(&mesh, &ints, 1, 1.0, true)?[0][0];
-        (maxwell(co, ce), maxwell(vo, ve))
+        let c0 = maxwell(vo, ve);
+        if !with_dielectrics {
+            (c0.clone(), c0)
+        } else {
+            let co = half_capacitance(&mesh, &ints, 1, -1.0, false)?[0][0];
+            let ce = half_capacitance(&mesh, &ints, 1, 1.0, false)?[0][0];
+            (maxwell(co, ce), c0)
+        }
     } else {
         let double = |m: Vec<Vec<f64>>| -> Vec<Vec<f64>> {
             sym(m)
@@ -394,10 +409,12 @@ pub fn capacitances(g: &Geometry, params: MeshParams) -> Result<BemLevel> {
                 .map(|r| r.into_iter().map(|v| 2.0 * v).collect())
                 .collect()
         };
-        (
-            double(half_capacitance(&mesh, &ints, ns, 1.0, false)?),
-            double(half_capacitance(&mesh, &ints, ns, 1.0, true)?),
-        )
+        let c0 = double(half_capacitance(&mesh, &ints, ns, 1.0, true)?);
+        if !with_dielectrics {
+            (c0.clone(), c0)
+        } else {
+            (double(half_capacitance(&mesh, &ints, ns, 1.0, false)?), c0)
+        }
     };
     Ok(BemLevel {
         panels: mesh.panels.len(),
