@@ -410,4 +410,67 @@ mod tests {
         };
         assert!((3.2..=4.6).contains(&eps), "{eps}");
     }
+
+    /// A broadside pair sees each layer too: the dielectric between its traces and the two outside them. With a 3.0
+    /// prepreg between two 4.6 cores the merged Dk moves Zdiff by over a per cent; the two independent field engines
+    /// agree on the layered section within their estimates.
+    #[test]
+    fn field_engines_model_each_layer_of_a_broadside_pair() {
+        let mut p = Project::from_json(include_str!(
+            "../../tests/fixtures/twelve_layer_sixteen_rules.json"
+        ))
+        .unwrap();
+        for l in &mut p.stackup.layers {
+            let dk = match l.name() {
+                "Core 2-3" | "Core 4-5" => 4.6,
+                "PP 3-4" => 3.0,
+                _ => continue,
+            };
+            match l {
+                crate::design::stackup::Layer::Core(d)
+                | crate::design::stackup::Layer::Prepreg(d) => d.dk = dk,
+                _ => unreachable!("cores and prepregs are dielectrics"),
+            }
+        }
+        let rule = p
+            .rules
+            .iter()
+            .find(|r| r.structure == Structure::BroadsidePair)
+            .unwrap();
+        let layered = section::resolve(&p.stackup, rule).unwrap();
+        let l = layered.layering.as_ref().unwrap();
+        assert!(l.is_mixed() && !l.between.is_empty());
+        assert!(layered.merged_dielectric_note().is_some());
+        let merged = CrossSection {
+            layering: None,
+            ..layered.clone()
+        };
+        let dims = Dims {
+            w: rule.width_m,
+            s: None,
+            gap: None,
+        };
+        let field = Engine::field(&p);
+        let a = field.analyze(&layered, rule.structure, &dims).unwrap();
+        let b = field.analyze(&merged, rule.structure, &dims).unwrap();
+        let r = Engine::reference(&p)
+            .analyze(&layered, rule.structure, &dims)
+            .unwrap();
+        let merged_error = (b.controlled() / a.controlled() - 1.0).abs() * 100.0;
+        let between = (a.controlled() / r.controlled() - 1.0).abs() * 100.0;
+        let allowed = a.error_estimate_pct.unwrap() + r.error_estimate_pct.unwrap();
+        eprintln!("broadside: merged Dk moves Zdiff by {merged_error:.2} %; field vs reference {between:.3} % (allowed {allowed:.2} %)");
+        assert!(
+            merged_error > 1.0,
+            "merged Dk moves Zdiff by {merged_error} %"
+        );
+        assert!(between <= allowed, "{between} % vs {allowed} %");
+        // Each mode's εeff lies between the layers' Dk.
+        let Analysis::Pair(pair) = &a.analysis else {
+            panic!("a broadside pair has two modes")
+        };
+        for e in [pair.eps_eff_odd, pair.eps_eff_even] {
+            assert!((3.0..=4.6).contains(&e), "{e}");
+        }
+    }
 }

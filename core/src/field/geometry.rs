@@ -207,26 +207,78 @@ fn len(field: &str, v: f64) -> Result<f64> {
     error::length(field, v)
 }
 
+/// `(height, Dk)` layers as slabs, neighbours of equal Dk merged (no interface to mesh) and empty ones dropped.
+fn slabs(side: &[(f64, f64)], name: &str) -> Result<Vec<Slab>> {
+    let mut out: Vec<Slab> = Vec::with_capacity(side.len());
+    for &(h, er) in side {
+        let er = error::permittivity(name, er)?;
+        let h = error::length_or_zero(name, h)?;
+        match out.last_mut() {
+            Some(last) if last.er == er => last.h += h,
+            _ if h > 0.0 => out.push(Slab { h, er }),
+            _ => {}
+        }
+    }
+    Ok(out)
+}
+
+/// The dielectric regions of a broadside pair, bottom plane (y = 0) up, each layer as it is: the lower trace's
+/// level is filled by the dielectric above it and the upper trace's by the one below it (each trace is pressed into
+/// the dielectric between them). `None` when the layering's heights do not add up to the medium's.
+fn broadside_regions(
+    layering: &crate::section::Layering,
+    x_max: f64,
+    heights: [f64; 3],
+    t: f64,
+) -> Result<Option<Vec<Region>>> {
+    let mut below = slabs(&layering.below, "dk")?;
+    below.reverse();
+    let between = slabs(&layering.between, "dk")?;
+    let above = slabs(&layering.above, "dk")?;
+    let sum = |v: &[Slab]| v.iter().map(|s| s.h).sum::<f64>();
+    let [h_below, separation, h_above] = heights;
+    let close = |a: f64, b: f64| (a - b).abs() <= 1e-9 * b.max(a);
+    if below.is_empty() || between.is_empty() || above.is_empty() {
+        return Ok(None);
+    }
+    if !(close(sum(&below), h_below)
+        && close(sum(&between), separation)
+        && close(sum(&above), h_above))
+    {
+        return Ok(None);
+    }
+    let mut regions = Vec::new();
+    let mut y = 0.0;
+    let mut paint = |h: f64, er: f64, y: &mut f64| {
+        if h <= 0.0 {
+            return;
+        }
+        regions.push(Region {
+            shape: Trapezoid::rect(-x_max, 2.0 * x_max, *y, *y + h),
+            er,
+        });
+        *y += h;
+    };
+    for s in &below {
+        paint(s.h, s.er, &mut y);
+    }
+    paint(t, between[0].er, &mut y);
+    for s in &between {
+        paint(s.h, s.er, &mut y);
+    }
+    paint(t, between[between.len() - 1].er, &mut y);
+    for s in &above {
+        paint(s.h, s.er, &mut y);
+    }
+    Ok(Some(regions))
+}
+
 impl LayerStack {
     /// The layer stack a resolved cross-section stands for: each dielectric layer as it is in the stack when the
     /// section carries its layering, else one Dk per side.
     pub fn from_cross_section(cs: &CrossSection) -> Result<LayerStack> {
         let mut stack = LayerStack::merged(cs)?;
         if let Some(layering) = &cs.layering {
-            let slabs = |side: &[(f64, f64)], name: &str| -> Result<Vec<Slab>> {
-                let mut out: Vec<Slab> = Vec::with_capacity(side.len());
-                for &(h, er) in side {
-                    let er = error::permittivity(name, er)?;
-                    let h = error::length_or_zero(name, h)?;
-                    // Neighbours of equal Dk are one slab: no interface to mesh.
-                    match out.last_mut() {
-                        Some(last) if last.er == er => last.h += h,
-                        _ if h > 0.0 => out.push(Slab { h, er }),
-                        _ => {}
-                    }
-                }
-                Ok(out)
-            };
             match cs.medium {
                 Medium::Microstrip { .. } | Medium::Stripline { .. } => {
                     let mut below = slabs(&layering.below, "dk")?;
@@ -636,6 +688,13 @@ pub fn build(
             if t > 0.0 {
                 features.push(("thickness".into(), t));
             }
+            if let Some(l) = &cs.layering {
+                for (i, &(h, _)) in l.layers().enumerate() {
+                    if h > 0.0 {
+                        features.push((format!("layers[{i}].height"), h));
+                    }
+                }
+            }
             let fine = check_aspect(&features)?;
             let u = undercut(t, tl.w, etch_factor)?;
             let top = h_below + 2.0 * t + separation + h_above;
@@ -643,6 +702,16 @@ pub fn build(
             // The upper trace is etched from its own copper foil, which faces the other way: its wide face is up.
             let lower = trace(tl.signal_left, tl.w, h_below, t, u);
             let y_up = h_below + t + separation;
+            let layered = match &cs.layering {
+                Some(l) => broadside_regions(l, x_max, [h_below, separation, h_above], t)?,
+                None => None,
+            };
+            let regions = layered.unwrap_or_else(|| {
+                vec![Region {
+                    shape: Trapezoid::rect(-x_max, 2.0 * x_max, 0.0, top),
+                    er,
+                }]
+            });
             let upper = Trapezoid {
                 y0: y_up,
                 y1: y_up + t,
@@ -655,10 +724,7 @@ pub fn build(
                 x_max,
                 y_min: 0.0,
                 y_max: top,
-                regions: vec![Region {
-                    shape: Trapezoid::rect(-x_max, 2.0 * x_max, 0.0, top),
-                    er,
-                }],
+                regions,
                 conductors: vec![
                     Conductor {
                         shape: lower,

@@ -92,12 +92,16 @@ pub struct CrossSection {
 
 /// The dielectric layers on each side of a trace, each `(pressed height m, Dk)`, listed from the trace outward.
 /// For a microstrip `below` is the side of its plane (whichever way up) and `above` is unused (the cover is in
-/// [`Medium`]); for a stripline `below` leads to the plane later in the stack, `above` to the earlier one. Their
-/// heights add up to the heights in [`Medium`]. A copper layer in between counts as the dielectric next to it.
+/// [`Medium`]); for a stripline `below` leads to the plane later in the stack, `above` to the earlier one. For a
+/// broadside pair `below` runs from the lower trace (later in the stack) to its plane, `above` from the upper trace
+/// to its plane, and `between` from the lower trace up to the upper one. Their heights add up to the heights in
+/// [`Medium`]. A copper layer in between counts as the dielectric next to it.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct Layering {
     pub below: Vec<(f64, f64)>,
     pub above: Vec<(f64, f64)>,
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub between: Vec<(f64, f64)>,
 }
 
 impl CrossSection {
@@ -109,7 +113,7 @@ impl CrossSection {
         }
         let (side, er) = match self.medium {
             Medium::Microstrip { er, .. } => ("under", er),
-            Medium::Stripline { er, .. } => ("around", er),
+            Medium::Stripline { er, .. } | Medium::Broadside { er, .. } => ("around", er),
             _ => return None,
         };
         Some(Warning::new(format!(
@@ -120,9 +124,22 @@ impl CrossSection {
 }
 
 impl Layering {
+    /// Every layer, `below` then `above` then `between` (a fixed order, for code that treats them alike).
+    pub fn layers(&self) -> impl Iterator<Item = &(f64, f64)> {
+        self.below.iter().chain(&self.above).chain(&self.between)
+    }
+
+    /// [`Layering::layers`], mutably.
+    pub fn layers_mut(&mut self) -> impl Iterator<Item = &mut (f64, f64)> {
+        self.below
+            .iter_mut()
+            .chain(self.above.iter_mut())
+            .chain(self.between.iter_mut())
+    }
+
     /// Whether the layers differ in Dk (otherwise the merged medium is already exact).
     pub fn is_mixed(&self) -> bool {
-        let mut dks = self.below.iter().chain(&self.above).map(|&(_, dk)| dk);
+        let mut dks = self.layers().map(|&(_, dk)| dk);
         let Some(first) = dks.next() else {
             return false;
         };
@@ -403,24 +420,23 @@ pub fn resolve(stackup: &Stackup, rule: &ImpedanceRule) -> Result<CrossSection> 
     for j in [above, below].into_iter().flatten() {
         references.push(stackup.layers[j].name().to_string());
     }
-    let mixed_note = |side: &str, er: f64, warnings: &mut Vec<Warning>| {
-        warnings.push(Warning::new(format!(
-            "dielectrics of different Dk {side} the trace: combined as series capacitance into Dk {er:.3}"
-        )));
-    };
     let t = trace.thickness_m;
     let mut layering = None;
     let medium = match (above, below, partner) {
         (Some(a), Some(b), Some(_)) => {
-            let (h_above, er_a, m_a) = region(stackup, a, top_trace);
-            let (separation, er_s, m_s) = region(stackup, top_trace, bottom_trace);
-            let (h_below, er_b, m_b) = region(stackup, bottom_trace, b);
+            let (h_above, er_a, _) = region(stackup, a, top_trace);
+            let (separation, er_s, _) = region(stackup, top_trace, bottom_trace);
+            let (h_below, er_b, _) = region(stackup, bottom_trace, b);
             let hs = [h_above, separation, h_below];
             let ers = [er_a, er_s, er_b];
             let er = hs.iter().sum::<f64>() / hs.iter().zip(ers).map(|(h, e)| h / e).sum::<f64>();
-            if m_a || m_s || m_b || ers.iter().any(|&e| (e - er).abs() > 0.01 * er) {
-                mixed_note("around", er, &mut warnings);
-            }
+            // The closed form's note on the merged Dk comes with its results (merged_dielectric_note); the field
+            // engines paint each layer.
+            layering = Some(Layering {
+                below: layers_between(stackup, bottom_trace, b),
+                above: layers_between(stackup, top_trace, a),
+                between: layers_between(stackup, bottom_trace, top_trace),
+            });
             Medium::Broadside {
                 h_above,
                 separation,
@@ -443,6 +459,7 @@ pub fn resolve(stackup: &Stackup, rule: &ImpedanceRule) -> Result<CrossSection> 
             layering = Some(Layering {
                 below: layers_between(stackup, idx, b),
                 above: layers_between(stackup, idx, a),
+                between: Vec::new(),
             });
             let dual = (a + 1..b).any(|j| j != idx && stackup.layers[j].copper().is_some());
             Medium::Stripline {
@@ -457,6 +474,7 @@ pub fn resolve(stackup: &Stackup, rule: &ImpedanceRule) -> Result<CrossSection> 
             layering = Some(Layering {
                 below: layers_between(stackup, idx, plane),
                 above: Vec::new(),
+                between: Vec::new(),
             });
             // Walk outward, away from the plane, to find what covers the trace.
             let outward: Vec<usize> = if plane > idx {

@@ -311,7 +311,7 @@ fn slots_of(cs: &CrossSection, dims: &Dims) -> Vec<f64> {
     medium_slots(&cs.medium, &mut v);
     // The layers as the field engines see them: heights and Dk, linear in each layer's own values.
     if let Some(l) = &cs.layering {
-        for &(h, er) in l.below.iter().chain(&l.above) {
+        for &(h, er) in l.layers() {
             v.extend([h, er]);
         }
     }
@@ -323,9 +323,9 @@ fn slots_of(cs: &CrossSection, dims: &Dims) -> Vec<f64> {
 fn set_section_slots(cs: &mut CrossSection, v: &[f64]) {
     set_medium_slots(&mut cs.medium, v);
     if let Some(l) = &mut cs.layering {
-        let n = l.below.len() + l.above.len();
+        let n = l.layers().count();
         let start = v.len() - 4 - 2 * n;
-        for (k, layer) in l.below.iter_mut().chain(l.above.iter_mut()).enumerate() {
+        for (k, layer) in l.layers_mut().enumerate() {
             *layer = (v[start + 2 * k], v[start + 2 * k + 1]);
         }
     }
