@@ -188,9 +188,9 @@ pub struct ModeFill {
     pub dielectric_share: f64,
 }
 
-/// Relative step of the Dk scaling that gives each mode's dielectric share (forward difference on one mesh: its
-/// truncation error is about this times the share's slope, its rounding 1e-12 / this).
-const SHARE_STEP: f64 = 1e-5;
+/// Relative step of the Dk scaling that gives each mode's dielectric share (central difference on one mesh: its
+/// truncation error is about the square of this, its rounding 1e-13 / this).
+const SHARE_STEP: f64 = 1e-4;
 
 fn mode_list(a: &Analysis) -> Vec<(f64, f64)> {
     match a {
@@ -243,47 +243,63 @@ impl Engine {
         }
     }
 
-    /// Field engines: each mode's Z and εeff on the result's mesh and the share of its energy in the dielectrics
-    /// (two solves on one mesh). `None` for the closed forms, whose loss uses the filling factor of their εeff.
+    /// Field engines: each mode's Z, εeff and the share of its energy in the dielectrics, `None` for the closed
+    /// forms (whose loss uses the filling factor of their εeff). The share is a central difference of ln εeff over
+    /// ln λ, every Dk scaled by 1 ± [`SHARE_STEP`] on one mesh (two solves); Z and εeff are `nominal`'s, the
+    /// engine's own answer at these dimensions when the caller has it, else the geometric mean of the two solves
+    /// (exact to second order in the step).
     pub fn mode_fills(
         &self,
         cs: &CrossSection,
         structure: Structure,
         dims: &Dims,
+        nominal: Option<&Analysis>,
     ) -> Result<Option<Vec<ModeFill>>> {
         let Some((options, etch_factor)) = self.probe() else {
             return Ok(None);
         };
         let g = field::build(cs, structure, dims, etch_factor)?;
-        let bad = || crate::base::error::Error::Invalid {
+        let bad = |reason: &str| crate::base::error::Error::Invalid {
             field: "geometry".into(),
-            reason: "the field solve gave a non-positive capacitance".into(),
+            reason: reason.into(),
         };
-        let nominal = boundary::capacitances(&g, options.fine)?;
-        let scaled =
-            boundary::capacitances(&g.with_dielectrics_scaled(1.0 + SHARE_STEP), options.fine)?;
-        let a = field::extract::analysis(&nominal.c, &nominal.c0).ok_or_else(bad)?;
-        let b = field::extract::analysis(&scaled.c, &scaled.c0).ok_or_else(bad)?;
-        let fills = mode_list(&a)
-            .into_iter()
-            .zip(mode_list(&b))
-            .map(|((z0, eps_eff), (_, eps_scaled))| ModeFill {
-                z0,
-                eps_eff,
-                // Same mesh (the Dk does not move a panel): C0 is unchanged, so C moves as εeff does.
-                dielectric_share: if nominal.panels == scaled.panels {
-                    ((eps_scaled / eps_eff).ln() / (1.0 + SHARE_STEP).ln()).clamp(0.0, 1.0)
-                } else {
-                    f64::NAN
-                },
+        let solve = |factor: f64| -> Result<(Vec<(f64, f64)>, usize)> {
+            let level = boundary::capacitances(&g.with_dielectrics_scaled(factor), options.fine)?;
+            let a = field::extract::analysis(&level.c, &level.c0)
+                .ok_or_else(|| bad("the field solve gave a non-positive capacitance"))?;
+            Ok((mode_list(&a), level.panels))
+        };
+        let (up, up_panels) = solve(1.0 + SHARE_STEP)?;
+        let (down, down_panels) = solve(1.0 - SHARE_STEP)?;
+        if up_panels != down_panels {
+            return Err(bad(
+                "the dielectric share could not be found (the mesh changed with the Dk)",
+            ));
+        }
+        let given = nominal.map(mode_list);
+        let span = ((1.0 + SHARE_STEP) / (1.0 - SHARE_STEP)).ln();
+        let fills = up
+            .iter()
+            .zip(&down)
+            .enumerate()
+            .map(|(i, (&(z_up, e_up), &(z_down, e_down)))| {
+                let (z0, eps_eff) = given
+                    .as_ref()
+                    .and_then(|g| g.get(i).copied())
+                    .unwrap_or(((z_up * z_down).sqrt(), (e_up * e_down).sqrt()));
+                ModeFill {
+                    z0,
+                    eps_eff,
+                    // C0 does not depend on the Dk, so C moves as εeff does.
+                    dielectric_share: ((e_up / e_down).ln() / span).clamp(0.0, 1.0),
+                }
             })
             .collect::<Vec<_>>();
-        if fills.iter().any(|m| !m.dielectric_share.is_finite()) {
-            return Err(crate::base::error::Error::Invalid {
-                field: "geometry".into(),
-                reason: "the dielectric share could not be found (the mesh changed with the Dk)"
-                    .into(),
-            });
+        if fills
+            .iter()
+            .any(|m| !(m.dielectric_share.is_finite() && m.z0 > 0.0 && m.eps_eff >= 1.0 - 1e-9))
+        {
+            return Err(bad("the field solve gave no finite line figures"));
         }
         Ok(Some(fills))
     }

@@ -17,7 +17,7 @@
 //! all walls (trace narrower and thinner by 2n, dielectric heights to the planes larger by n on each facing side,
 //! gaps and spacings wider by 2n). The low-loss attenuation is then α_c = R/(2Z0) = Rs/(2 Z0 η0)·∂Z0_air/∂n — the
 //! form printed in D. M. Pozar, "Microwave Engineering" (4th ed., §2.7 "The Wheeler incremental inductance rule",
-//! from memory: α_c = Rs/(2Z0η)·dZ0/dl). We take ∂/∂n by a central difference with a step of 10⁻⁴ of the
+//! from memory: α_c = Rs/(2Z0η)·dZ0/dl). We take ∂/∂n by a forward difference with a step of 10⁻⁵ of the
 //! smallest dimension; the derivative is split into the trace's own walls and each plane's walls, so that every
 //! copper layer's roughness factor multiplies its own share. The rule assumes δ small against the conductor
 //! thickness and radius of curvature (we warn for 0.5δ < t < 3δ, where the slab transition below carries it); a zero-thickness strip has unbounded loss under it,
@@ -425,6 +425,8 @@ fn no_loss_model(reason: String) -> Error {
 
 /// Tries of the wall step on a field engine: a step whose two sides fall on different mesh layouts is shrunk.
 const STEP_TRIES: usize = 4;
+/// The walls' recession for Wheeler's derivative, relative to the smallest dimension.
+const WALL_STEP: f64 = 1e-5;
 
 impl LineModel {
     /// Prepares the loss model of `structure` on `cs` with `dims` on the closed forms.
@@ -446,6 +448,18 @@ impl LineModel {
         structure: Structure,
         dims: &Dims,
         inputs: LossInputs,
+    ) -> Result<LineModel> {
+        LineModel::on_with(engine, cs, structure, dims, inputs, None)
+    }
+
+    /// [`LineModel::on`] with the engine's own answer at these dimensions, when the caller has it (saves a solve).
+    pub fn on_with(
+        engine: &Engine,
+        cs: &CrossSection,
+        structure: Structure,
+        dims: &Dims,
+        inputs: LossInputs,
+        nominal: Option<&Analysis>,
     ) -> Result<LineModel> {
         error::in_range(
             "conductivity",
@@ -470,7 +484,7 @@ impl LineModel {
         s.plane_below.validate("roughness")?;
         // Check the structure evaluates as given (also validates the geometry); a field engine's modes and
         // dielectric shares come from the same check.
-        let field = engine.mode_fills(cs, structure, dims)?;
+        let field = engine.mode_fills(cs, structure, dims, nominal)?;
         let n_modes = match &field {
             Some(f) => f.len(),
             None => mode_impedances(&closed_form::evaluate(cs, structure, dims)?.analysis).len(),
@@ -493,19 +507,21 @@ impl LineModel {
             }
             Ok((z, mesh))
         };
-        // Central difference of Z0_air as the walls `(trace, above, below)` recede; on a field engine both sides
+        // Forward difference of Z0_air as the walls `(trace, above, below)` recede, from the air line as it is: one
+        // solve per wall group. The step is small enough that the difference's truncation (step × Z''/Z', ~1e-5
+        // relative) is far below the engines' accuracy and large against rounding. On a field engine both solves
         // must share one mesh layout (a panel count that jumps between them would swamp the derivative), so the
         // step shrinks until they do.
+        let (z_nominal, mesh_nominal) = z_air(0.0, 0.0, 0.0)?;
         let slope = |walls: (f64, f64, f64)| -> Result<Vec<f64>> {
-            let mut step = 1e-4 * smallest;
+            let mut step = WALL_STEP * smallest;
             for _ in 0..STEP_TRIES {
-                let (plus, mesh_plus) = z_air(walls.0 * step, walls.1 * step, walls.2 * step)?;
-                let (minus, mesh_minus) = z_air(-walls.0 * step, -walls.1 * step, -walls.2 * step)?;
-                if mesh_plus == mesh_minus {
-                    return Ok(plus
+                let (moved, mesh) = z_air(walls.0 * step, walls.1 * step, walls.2 * step)?;
+                if mesh == mesh_nominal {
+                    return Ok(moved
                         .iter()
-                        .zip(&minus)
-                        .map(|(p, m)| (p - m) / (2.0 * step))
+                        .zip(&z_nominal)
+                        .map(|(p, m)| (p - m) / step)
                         .collect());
                 }
                 step *= 0.37;
@@ -811,20 +827,32 @@ pub fn inputs_for_section(options: &LossOptions, cs: &CrossSection) -> Result<Lo
     })
 }
 
-/// The loss model of a rule whose dimensions are known (after synthesis).
+/// The loss model of a rule whose dimensions are known (after synthesis), on the rule's engine.
 pub fn for_rule(
     project: &Project,
     rule: &ImpedanceRule,
     cs: &CrossSection,
     dims: &Dims,
 ) -> Result<LineModel> {
+    for_rule_with(project, rule, cs, dims, None)
+}
+
+/// [`for_rule`] with the rule engine's own answer at these dimensions, when the caller has it.
+pub fn for_rule_with(
+    project: &Project,
+    rule: &ImpedanceRule,
+    cs: &CrossSection,
+    dims: &Dims,
+    nominal: Option<&Analysis>,
+) -> Result<LineModel> {
     let inputs = inputs_for_section(&project.loss, cs)?;
-    LineModel::on(
+    LineModel::on_with(
         &Engine::for_rule(project, rule),
         cs,
         rule.structure,
         dims,
         inputs,
+        nominal,
     )
 }
 

@@ -365,7 +365,10 @@ pub fn rule_figures(
         warnings.extend(cs.merged_dielectric_note());
     }
     warnings.extend(analysis.warnings().iter().cloned());
-    let loss = match crate::line::loss::for_rule(project, rule, &cs, &dims)
+    // The rule's engine made `analysis` when `method` names it; the loss model then reuses it.
+    let own = (method == crate::engine::Engine::for_rule(project, rule).method_name())
+        .then_some(&analysis);
+    let loss = match crate::line::loss::for_rule_with(project, rule, &cs, &dims, own)
         .and_then(|m| m.at(project.analysis_freq_hz))
     {
         Ok(at) => {
