@@ -197,35 +197,26 @@ def fem_z_air(w, h, t, er=1.0):
     return 1 / (C0 * c)
 
 
+# Allowed deviation of the rule's R from the reference, per engine. The closed form differentiates Hammerstad–Jensen's
+# Z0_air (~0.2 % on Z0, so its derivative is a few tenths of a percent to ~1 % off; measured −1.2 … +1.0 %): 2 %.
+# The field engine differentiates its own air solves (boundary elements, walls receded on one mesh layout);
+# measured 2026-12-02 within 0.015 % on all four: 0.1 %.
+WHEELER_ALLOWED = {"closed-form": 0.02, "field": 0.001}
+
+
+@pytest.mark.parametrize("engine", sorted(WHEELER_ALLOWED))
 @pytest.mark.parametrize("u,t", [(0.3, 35e-6), (1.0, 35e-6), (1.0, 5e-6), (5.0, 35e-6)])
-def test_wheeler_rule_against_field_solved_air_impedance(u, t):
+def test_wheeler_rule_against_field_solved_air_impedance(u, t, engine):
     # Wheeler 1942: R = (Rs/η0)·dZ0_air/dn. Reference: the same rule with Z0_air from an independent 2-D Laplace
     # solve (scikit-fem), walls receded by ±n (trace w − 2n, t − 2n, height + 2n), central difference.
-    # Ours uses the Hammerstad–Jensen closed form for Z0_air; HJ claims ~0.2 % on Z0, so its derivative is a
-    # few tenths of a percent to ~1 % off; allow 2 %.
     w = u * H
     n = 0.25e-6
     dz = (fem_z_air(w - 2 * n, H + 2 * n, t - 2 * n) - fem_z_air(w + 2 * n, H - 2 * n, t + 2 * n)) / (2 * n)
     f = 10e9
     rs = math.sqrt(math.pi * f * MU0 / SIGMA)
     r_ref = rs / ETA0 * dz
-    got = loss_json(project(w, H, t, 4.3, 0.0), "--freq", str(f))["points"][0]["line"]
-    assert abs(got["r_skin_ohm_per_m"] / r_ref - 1) < 0.02, (got["r_skin_ohm_per_m"], r_ref)
-
-
-@pytest.mark.parametrize("u,t", [(0.3, 35e-6), (1.0, 35e-6), (1.0, 5e-6), (5.0, 35e-6)])
-def test_wheeler_rule_on_the_field_engine_against_scikit_fem(u, t):
-    # The same rule and reference as above, but on the field engine: its own air solves (boundary elements, the
-    # walls receded on one mesh layout) against the independent scikit-fem solve. Measured 2026-12-02: within
-    # 0.015 % on all four (the closed form: −1.2 … +1.0 %); allow 0.1 %, twenty times tighter than the closed form.
-    w = u * H
-    n = 0.25e-6
-    dz = (fem_z_air(w - 2 * n, H + 2 * n, t - 2 * n) - fem_z_air(w + 2 * n, H - 2 * n, t + 2 * n)) / (2 * n)
-    f = 10e9
-    rs = math.sqrt(math.pi * f * MU0 / SIGMA)
-    r_ref = rs / ETA0 * dz
-    got = loss_json(project(w, H, t, 4.3, 0.0), "--freq", str(f), "--engine", "field")["points"][0]["line"]
-    assert abs(got["r_skin_ohm_per_m"] / r_ref - 1) < 0.001, (got["r_skin_ohm_per_m"], r_ref)
+    got = loss_json(project(w, H, t, 4.3, 0.0), "--freq", str(f), "--engine", engine)["points"][0]["line"]
+    assert abs(got["r_skin_ohm_per_m"] / r_ref - 1) < WHEELER_ALLOWED[engine], (got["r_skin_ohm_per_m"], r_ref)
 
 
 def test_field_dielectric_share_against_scikit_fem():
