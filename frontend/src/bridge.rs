@@ -430,8 +430,6 @@ use ohmstack_core::line::loss;
 use ohmstack_core::output::plot::{self, LinePlot, Series};
 use ohmstack_core::output::report::{self, FabNotes};
 use ohmstack_core::output::{draw, touchstone};
-use ohmstack_core::plan::spread::{self, SampleModel, SpreadOptions};
-use ohmstack_core::section::Dims;
 
 /// The share-link fragment (`v1.…`, no `#`) of `project`.
 pub fn encode_link(project: &Project) -> String {
@@ -516,29 +514,22 @@ pub fn cross_section_svg(project: &Project, rule_idx: Option<usize>) -> Result<S
     draw::cross_section_svg(project, rule_idx).map_err(|e| e.to_string())
 }
 
-/// The rule at `idx`, solved, with its loss model.
-fn solved_rule(
-    project: &Project,
+/// The loss model of rule `idx` from its planned result: rebuilt from what the plan's engine found (no solve on
+/// the page's thread).
+fn loss_model_of<'a>(
+    project: &'a Project,
     idx: usize,
-) -> Result<(&ImpedanceRule, RuleResult, loss::LineModel), String> {
-    let rule = project
-        .rules
-        .get(idx)
-        .ok_or_else(|| format!("rule {idx} does not exist"))?;
-    let r = ohmstack_core::plan::evaluate_rule(project, rule).map_err(|e| e.to_string())?;
-    let dims = Dims {
-        w: r.width_m,
-        s: r.spacing_m,
-        gap: r.gap_m,
-    };
+    result: &RuleResult,
+) -> Result<(&'a ImpedanceRule, loss::LineModel), String> {
+    let rule = rule_at(project, idx)?;
     let model =
-        loss::for_rule(project, rule, &r.cross_section, &dims).map_err(|e| e.to_string())?;
-    Ok((rule, r, model))
+        ohmstack_core::plan::rule::loss_model(project, rule, result).map_err(|e| e.to_string())?;
+    Ok((rule, model))
 }
 
 /// Loss (dB/in) of the signal mode against frequency over the default sweep: total, conductor, dielectric.
-pub fn loss_plot_svg(project: &Project, idx: usize) -> Result<String, String> {
-    let (rule, _, model) = solved_rule(project, idx)?;
+pub fn loss_plot_svg(project: &Project, idx: usize, result: &RuleResult) -> Result<String, String> {
+    let (rule, model) = loss_model_of(project, idx, result)?;
     let points = model
         .sweep(&loss::Sweep::default())
         .map_err(|e| e.to_string())?;
@@ -576,10 +567,10 @@ pub fn loss_plot_svg(project: &Project, idx: usize) -> Result<String, String> {
 }
 
 /// Impedance against trace width (±30 % around the solution) with the target, its tolerance band and the
-/// solved width marked.
-pub fn z_width_plot_svg(project: &Project, idx: usize) -> Result<String, String> {
-    let (rule, r, _) = solved_rule(project, idx)?;
-    let pts = plot::z_vs_width(project, idx, 61).map_err(|e| e.to_string())?;
+/// solved width marked, from the rule's planned result.
+pub fn z_width_plot_svg(project: &Project, idx: usize, r: &RuleResult) -> Result<String, String> {
+    let rule = rule_at(project, idx)?;
+    let pts = plot::z_vs_width_of(rule, r, 61);
     let unit = project.units;
     let x = |w: f64| unit.from_m(w);
     let (w0, w1) = (x(r.width_m * 0.7), x(r.width_m * 1.3));
@@ -635,27 +626,28 @@ pub struct SpreadView {
     pub upper_ohm: f64,
 }
 
-/// Runs the tolerance spread of rule `idx` (quadratic response surface, default samples and seed, the same
-/// figures as `ohmstack spread --model quadratic`) and draws its histogram.
-pub fn spread_view(project: &Project, idx: usize) -> Result<SpreadView, String> {
-    let (rule, r, _) = solved_rule(project, idx)?;
-    let opts = SpreadOptions {
-        samples: spread::DEFAULT_SAMPLES,
-        seed: spread::DEFAULT_SEED,
-        centre: false,
-        model: SampleModel::Quadratic,
-    };
-    let summary = spread::run_for_result(project, rule, &r, &opts).map_err(|e| e.to_string())?;
-    // The summary keeps 32 bin counts only; the plot bins the raw samples, drawn again exactly as the summary's.
-    let samples = spread::result_samples(project, rule, &r, &opts).map_err(|e| e.to_string())?;
+/// The tolerance spread the plan computed for a rule (the plan worker's second step: the default samples and seed,
+/// the same figures as `ohmstack spread`), drawn from its binned samples: nothing is sampled on the page's thread.
+/// An error while the spread is still being computed, or when the plan could not compute one.
+pub fn spread_view(result: &RuleResult) -> Result<SpreadView, String> {
+    let summary = result
+        .spread
+        .as_ref()
+        .ok_or_else(|| "the tolerance spread of this rule is still being computed".to_string())?;
     let mc = &summary.monte_carlo;
-    let svg = plot::histogram(&plot::Histogram {
-        title: format!("Tolerance spread of {} ({} samples)", rule.name, mc.samples),
-        x_label: "impedance (Ω)".into(),
-        samples,
-        bins: 40,
-        window: Some((summary.lower_ohm, summary.upper_ohm)),
-    });
+    let counts: Vec<usize> = mc.histogram.counts.iter().map(|&c| c as usize).collect();
+    let svg = plot::histogram_of_bins(
+        &format!(
+            "Tolerance spread of {} ({} samples)",
+            result.name, mc.samples
+        ),
+        "impedance (Ω)",
+        mc.histogram.lo_ohm,
+        mc.histogram.hi_ohm,
+        &counts,
+        Some((summary.lower_ohm, summary.upper_ohm)),
+        Some((mc.yield_pct, mc.samples)),
+    );
     Ok(SpreadView {
         svg,
         samples: mc.samples,
@@ -673,10 +665,11 @@ pub fn spread_view(project: &Project, idx: usize) -> Result<SpreadView, String> 
 pub fn touchstone_file(
     project: &Project,
     idx: usize,
+    result: &RuleResult,
     length: &str,
 ) -> Result<(String, String), String> {
     let length_m = units::parse_length("length", length.trim()).map_err(|e| e.to_string())?;
-    let (rule, _, model) = solved_rule(project, idx)?;
+    let (rule, model) = loss_model_of(project, idx, result)?;
     let freqs = loss::Sweep::default()
         .frequencies()
         .map_err(|e| e.to_string())?;

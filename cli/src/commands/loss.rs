@@ -6,7 +6,6 @@ use ohmstack_core::base::units::{format_sig, INCH};
 use ohmstack_core::design::roughness::Roughness;
 use ohmstack_core::line::loss::{self, LineModel, ModeLoss};
 use ohmstack_core::plan::evaluate_rule;
-use ohmstack_core::section::Dims;
 use ohmstack_core::{Layer, Project};
 
 use crate::args::{FoilArgs, FoilModel, Frequency, Surface, SweepArgs};
@@ -143,12 +142,8 @@ pub fn rule_model(
         );
     };
     let result = evaluate_rule(&project, rule)?;
-    let dims = Dims {
-        w: result.width_m,
-        s: result.spacing_m,
-        gap: result.gap_m,
-    };
-    let model = loss::for_rule(&project, rule, &result.cross_section, &dims)?;
+    // The model the plan made for this result (the app's plots and downloads rebuild the same one).
+    let model = ohmstack_core::plan::rule::loss_model(&project, rule, &result)?;
     Ok((project, name.to_string(), model))
 }
 

@@ -255,6 +255,19 @@ impl Sweep {
     }
 }
 
+/// What a loss model took from its engine (the frequency-independent part): each mode's Wheeler slopes and, on a
+/// field engine, its Z, εeff and dielectric share. A result carries it so the loss can be swept again (plots,
+/// Touchstone) without solving again; with the section, dimensions and loss inputs it rebuilds the model.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct LossProbe {
+    /// Per mode: ∂Z0_air/∂n of the trace's walls, the upper plane's and the lower plane's, Ω/m.
+    pub slopes: Vec<[f64; 3]>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub fills: Option<Vec<ModeFill>>,
+    /// The engine that made it ([`Engine::name`]).
+    pub engine: std::borrow::Cow<'static, str>,
+}
+
 /// ∂Z0_air/∂n of one mode, split by which walls recede, Ω/m.
 #[derive(Debug, Clone, Copy, PartialEq)]
 struct Slopes {
@@ -603,6 +616,62 @@ impl LineModel {
                 (z, ee, q * dk / ee)
             })
             .collect())
+    }
+
+    /// What this model took from its engine, to rebuild it later with [`LineModel::from_probe`].
+    pub fn probe(&self) -> LossProbe {
+        LossProbe {
+            slopes: self
+                .slopes
+                .iter()
+                .map(|s| [s.trace, s.above, s.below])
+                .collect(),
+            fills: self.field.clone(),
+            engine: self.engine.into(),
+        }
+    }
+
+    /// The model [`LineModel::on`] made, from its [`LossProbe`]: no engine call. Errors (never a panic) when the
+    /// probe does not fit the structure.
+    pub fn from_probe(
+        cs: &CrossSection,
+        structure: Structure,
+        dims: &Dims,
+        inputs: LossInputs,
+        probe: &LossProbe,
+    ) -> Result<LineModel> {
+        let modes = if structure.is_pair() { 2 } else { 1 };
+        let fills_fit = probe.fills.as_ref().is_none_or(|f| f.len() == modes);
+        if probe.slopes.len() != modes || !fills_fit {
+            return Err(no_loss_model(
+                "the saved loss figures do not fit the structure".into(),
+            ));
+        }
+        error::length("width", dims.w)?;
+        error::length("thickness", cs.t)?;
+        let engine = match probe.engine.as_ref() {
+            "field engine" => "field engine",
+            "reference field solver" => "reference field solver",
+            _ => "closed form",
+        };
+        Ok(LineModel {
+            cross_section: cs.clone(),
+            structure,
+            dims: *dims,
+            inputs,
+            slopes: probe
+                .slopes
+                .iter()
+                .map(|&[trace, above, below]| Slopes {
+                    trace,
+                    above,
+                    below,
+                })
+                .collect(),
+            r_dc: 1.0 / (inputs.conductivity_s_per_m * dims.w * cs.t),
+            field: probe.fills.clone(),
+            engine,
+        })
     }
 
     /// DC resistance per length of one trace, Ω/m: ρ/(w·t).

@@ -400,6 +400,47 @@ pub fn histogram(h: &Histogram) -> String {
         let k = (((v - lo) / width) as usize).min(bins - 1);
         counts[k] += 1;
     }
+    let inside = window.map(|(a, b)| {
+        let n = samples.iter().filter(|&&v| v >= a && v <= b).count();
+        (100.0 * n as f64 / samples.len() as f64, samples.len())
+    });
+    bars(&mut s, &h.x_label, lo, hi, &counts, window, inside);
+    s
+}
+
+/// A histogram already binned: `counts` over equal bins from `lo` to `hi` (a spread summary's), with the
+/// tolerance window shaded and labelled with `inside` (% of all samples in the window, the number of samples).
+pub fn histogram_of_bins(
+    title: &str,
+    x_label: &str,
+    lo: f64,
+    hi: f64,
+    counts: &[usize],
+    window: Option<(f64, f64)>,
+    inside: Option<(f64, usize)>,
+) -> String {
+    let mut s = String::new();
+    open_svg(&mut s, "histogram", title);
+    let window = window.filter(|(a, b)| a.is_finite() && b.is_finite() && b > a);
+    if counts.is_empty() || counts.iter().all(|&c| c == 0) || !(lo.is_finite() && hi > lo) {
+        no_data(&mut s);
+        return s;
+    }
+    bars(&mut s, x_label, lo, hi, counts, window, inside);
+    s
+}
+
+/// Draws the bars of `counts` (equal bins on [lo, hi]), the window with its label and the axes, and closes the SVG.
+fn bars(
+    s: &mut String,
+    x_label: &str,
+    lo: f64,
+    hi: f64,
+    counts: &[usize],
+    window: Option<(f64, f64)>,
+    inside: Option<(f64, usize)>,
+) {
+    let width = (hi - lo) / counts.len() as f64;
     let top = *counts.iter().max().unwrap_or(&1) as f64;
     let f = Frame {
         x0: lo,
@@ -418,7 +459,7 @@ pub fn histogram(h: &Histogram) -> String {
             num(H - MT - MB)
         );
     }
-    axes(&mut s, &f, &h.x_label, "count");
+    axes(s, &f, x_label, "count");
     for (k, &c) in counts.iter().enumerate() {
         if c == 0 {
             continue;
@@ -434,21 +475,19 @@ pub fn histogram(h: &Histogram) -> String {
             num(f.py(0.0) - f.py(c as f64))
         );
     }
-    if let Some((a, b)) = window {
-        let inside = samples.iter().filter(|&&v| v >= a && v <= b).count();
+    if let (Some((a, b)), Some((pct, n))) = (window, inside) {
         let _ = write!(
             s,
             r##"<text class="window-label" x="{}" y="{}" fill="#222222">{} % of {} inside {} to {}</text>"##,
             num(ML + 8.0),
             num(MT + 16.0),
-            format_sig(100.0 * inside as f64 / samples.len() as f64, 4),
-            samples.len(),
+            format_sig(pct, 4),
+            n,
             xml_escape(&format_sig(a, 4)),
             xml_escape(&format_sig(b, 4))
         );
     }
     s.push_str("</svg>\n");
-    s
 }
 
 /// Five stops of a perceptually ordered dark-blue → green → yellow ramp (viridis, stops from memory).
@@ -822,6 +861,15 @@ pub fn z_vs_width(project: &Project, rule_idx: usize, points: usize) -> Result<V
         ),
     })?;
     let res = evaluate_rule(project, rule)?;
+    Ok(z_vs_width_of(rule, &res, points))
+}
+
+/// [`z_vs_width`] from a rule's planned result (no solve: the closed form's curve, scaled to a field figure).
+pub fn z_vs_width_of(
+    rule: &crate::design::project::ImpedanceRule,
+    res: &crate::plan::RuleResult,
+    points: usize,
+) -> Vec<(f64, f64)> {
     let n = points.clamp(2, 1000);
     let base = Dims {
         w: res.width_m,
@@ -833,20 +881,21 @@ pub fn z_vs_width(project: &Project, rule_idx: usize, points: usize) -> Result<V
             .ok()
             .map(|e| e.analysis.controlled())
     };
-    // A field-solver rule: the closed form's curve scaled to the field solver's value at the solution.
-    let factor = match rule.model {
-        crate::design::project::RuleModel::FieldSolver => closed(res.width_m)
+    // A field figure: the closed form's curve scaled to it at the solution.
+    let factor = if crate::engine::is_field_method(&res.method) {
+        closed(res.width_m)
             .map(|z| res.impedance_ohm / z)
-            .unwrap_or(1.0),
-        crate::design::project::RuleModel::ClosedForm => 1.0,
+            .unwrap_or(1.0)
+    } else {
+        1.0
     };
-    Ok((0..n)
+    (0..n)
         .filter_map(|k| {
             let w = res.width_m * (0.7 + 0.6 * k as f64 / (n - 1) as f64);
             let z = factor * closed(w)?;
             z.is_finite().then_some((w, z))
         })
-        .collect())
+        .collect()
 }
 
 #[cfg(test)]
@@ -1050,6 +1099,21 @@ pub(crate) mod tests {
         assert!(svg.contains("50 % of 100 inside"), "{svg}");
         assert!(svg.contains("class=\"window\""));
         assert!(!svg.contains("NaN"));
+        // The same bins handed over already counted (a spread summary's) draw the same bars and label.
+        let binned = histogram_of_bins(
+            "Z spread",
+            "Z (Ω)",
+            0.0,
+            99.0,
+            &[10; 10],
+            Some((25.0, 74.0)),
+            Some((50.0, 100)),
+        );
+        assert_well_formed(&binned);
+        assert_eq!(binned.matches("class=\"bar\"").count(), 10);
+        assert!(binned.contains("50 % of 100 inside"), "{binned}");
+        // Nothing counted: a "no data" picture, never a panic.
+        assert_well_formed(&histogram_of_bins("x", "Z", 0.0, 1.0, &[], None, None));
     }
 
     #[test]

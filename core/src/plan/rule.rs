@@ -73,6 +73,10 @@ pub struct RuleResult {
     /// cross-check shown beside the field figure, with its difference.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub closed_form_check: Option<ClosedFormCheck>,
+    /// What the loss model took from the engine, so plots and Touchstone files sweep it without solving again
+    /// ([`loss_model`]).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub loss_probe: Option<crate::line::loss::LossProbe>,
     /// Tolerance spread and yield, when asked for with [`PlanOptions::spread_samples`].
     #[serde(skip_serializing_if = "Option::is_none")]
     pub spread: Option<SpreadSummary>,
@@ -368,9 +372,9 @@ pub fn rule_figures(
     // The rule's engine made `analysis` when `method` names it; the loss model then reuses it.
     let own = (method == crate::engine::Engine::for_rule(project, rule).method_name())
         .then_some(&analysis);
-    let loss = match crate::line::loss::for_rule_with(project, rule, &cs, &dims, own)
-        .and_then(|m| m.at(project.analysis_freq_hz))
-    {
+    let model = crate::line::loss::for_rule_with(project, rule, &cs, &dims, own);
+    let loss_probe = model.as_ref().ok().map(|m| m.probe());
+    let loss = match model.and_then(|m| m.at(project.analysis_freq_hz)) {
         Ok(at) => {
             warnings.extend(at.warnings.iter().cloned());
             Some(at)
@@ -396,6 +400,7 @@ pub fn rule_figures(
         model_band_pct,
         field_check: None,
         closed_form_check: None,
+        loss_probe,
         name: rule.name.clone(),
         layer: rule.layer.clone(),
         family: cs.family_for(rule.structure).into(),
@@ -428,6 +433,34 @@ pub fn rule_figures(
     }
 }
 
+/// The loss model of a planned rule: rebuilt from the probe its result carries (no engine call), else made anew on
+/// the rule's engine.
+pub fn loss_model(
+    project: &Project,
+    rule: &ImpedanceRule,
+    result: &RuleResult,
+) -> Result<crate::line::loss::LineModel> {
+    use crate::line::loss;
+    let dims = Dims {
+        w: result.width_m,
+        s: result.spacing_m,
+        gap: result.gap_m,
+    };
+    // The section's loss data (Df, copper surfaces) is not part of a serialised result: take it from the stack.
+    let mut cs = result.cross_section.clone();
+    cs.loss = section::resolve(&project.stackup, rule)?.loss;
+    match &result.loss_probe {
+        Some(probe) => loss::LineModel::from_probe(
+            &cs,
+            rule.structure,
+            &dims,
+            loss::inputs_for_section(&project.loss, &cs)?,
+            probe,
+        ),
+        None => loss::for_rule_with(project, rule, &cs, &dims, Some(&result.analysis)),
+    }
+}
+
 impl RuleOutcome {
     pub fn ok(&self) -> Option<&RuleResult> {
         match self {
@@ -440,6 +473,35 @@ impl RuleOutcome {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn a_result_rebuilds_its_loss_model_without_solving() {
+        // Every demo rule on the field engine: the loss model rebuilt from the result's probe (what the app's plots
+        // and Touchstone export use) sweeps exactly as the one the plan made, through JSON (the worker's message).
+        let p = crate::design::demo::project();
+        for rule in &p.rules {
+            let r = evaluate_rule(&p, rule).unwrap();
+            let text = serde_json::to_string(&r).unwrap();
+            let back: RuleResult = serde_json::from_str(&text).unwrap();
+            assert!(back.loss_probe.is_some(), "{}", rule.name);
+            let rebuilt = loss_model(&p, rule, &back).unwrap();
+            assert_eq!(rebuilt.engine, "field engine");
+            let dims = Dims {
+                w: r.width_m,
+                s: r.spacing_m,
+                gap: r.gap_m,
+            };
+            let made = crate::line::loss::for_rule(&p, rule, &r.cross_section, &dims).unwrap();
+            for f in [1e8, 1e9, 2.5e10] {
+                let (a, b) = (rebuilt.at(f).unwrap(), made.at(f).unwrap());
+                let (a, b) = (a.signal().unwrap(), b.signal().unwrap());
+                // The plan's model takes Z from the rule's answer, the standalone one the geometric mean of its two
+                // share solves: they differ in the ninth digit.
+                let rel = (a.total.db_per_m / b.total.db_per_m - 1.0).abs();
+                assert!(rel < 1e-7, "{} at {f} Hz: {rel}", rule.name);
+            }
+        }
+    }
 
     #[test]
     fn the_field_engine_checks_every_closed_form_rule_and_can_overrule_its_verdict() {

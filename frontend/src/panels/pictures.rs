@@ -5,7 +5,7 @@
 
 use crate::bridge;
 use crate::link;
-use ohmstack_core::{Plan, Project};
+use ohmstack_core::{Plan, Project, RuleOutcome, RuleResult};
 use std::rc::Rc;
 use web_sys::{HtmlInputElement, HtmlSelectElement};
 use yew::prelude::*;
@@ -93,22 +93,28 @@ pub fn PicturesPanel(props: &PicturesProps) -> Html {
     // The plots are computed from the project; of the plan only its error matters. Keyed on what the chosen rule
     // depends on (crate::plan_jobs::rule_key) and that error: an edit of another rule, or the field rows landing
     // from the plan worker, do not redraw them on the page's thread.
-    let plan_error = props.plan.as_ref().as_ref().err().cloned();
-    let rule_key = rule.and_then(|i| props.project.rules.get(i)).map(|r| {
-        crate::plan_jobs::rule_key(&props.project, r, &ohmstack_core::PlanOptions::preview())
+    // The plots are drawn from the chosen rule's planned result (the preview's, then the plan worker's as it
+    // lands): nothing is solved on the page's thread. Keyed on that row, so other rules' rows landing or an edit of
+    // another rule do not redraw them.
+    let row: Option<Result<RuleResult, String>> = rule.map(|i| match props.plan.as_ref() {
+        Err(e) => Err(e.clone()),
+        Ok(plan) => match plan.rules.get(i) {
+            Some(RuleOutcome::Ok(r)) => Ok((**r).clone()),
+            Some(RuleOutcome::Error { message, .. }) => Err(message.clone()),
+            None => Err("the plan has no row for this rule yet".to_string()),
+        },
     });
     let project = props.project.clone();
-    let plots = use_memo((rule_key, plan_error, rule), move |(_, plan_error, r)| {
-        let p = &project;
-        let i = (*r)?;
-        if let Some(e) = plan_error {
-            return Some((Err(e.clone()), Err(e.clone()), Err(e.clone())));
-        }
-        Some((
-            bridge::loss_plot_svg(p, i),
-            bridge::z_width_plot_svg(p, i),
-            bridge::spread_view(p, i),
-        ))
+    let plots = use_memo((row.clone(), rule), move |(row, r)| {
+        let (p, i) = (&project, (*r)?);
+        Some(match row.as_ref()? {
+            Err(e) => (Err(e.clone()), Err(e.clone()), Err(e.clone())),
+            Ok(result) => (
+                bridge::loss_plot_svg(p, i, result),
+                bridge::z_width_plot_svg(p, i, result),
+                bridge::spread_view(result),
+            ),
+        })
     });
 
     let on_select = {
@@ -131,9 +137,13 @@ pub fn PicturesPanel(props: &PicturesProps) -> Html {
     };
     let on_touchstone = {
         let (project, length, message) = (props.project.clone(), length.clone(), message.clone());
+        let row = row.clone();
         Callback::from(move |_: MouseEvent| {
             let Some(i) = rule else { return };
-            let result = bridge::touchstone_file(&project, i, &length)
+            let result = row
+                .clone()
+                .unwrap_or_else(|| Err("no rule is chosen".to_string()))
+                .and_then(|r| bridge::touchstone_file(&project, i, &r, &length))
                 .and_then(|(name, text)| link::download(&name, "text/plain", &text).map(|()| name));
             message.set(Some(result.map(|name| format!("Downloaded {name}."))));
         })
@@ -164,6 +174,13 @@ pub fn PicturesPanel(props: &PicturesProps) -> Html {
                         if s.failed > 0 { { format!(" ({} samples failed)", s.failed) } }
                     </p>
                     </div>
+                },
+                Err(e) if row.as_ref().is_some_and(|r| r.is_ok()) => html! {
+                    // The rule's figures are in; its spread is still being computed (or could not be).
+                    <figure class="picture" data-testid="plot-spread">
+                        <div class="svg-box empty"><p class="muted" data-testid="spread-pending">{ e.clone() }</p></div>
+                        <figcaption>{ "Monte Carlo spread of the impedance." }</figcaption>
+                    </figure>
                 },
                 Err(e) => figure("plot-spread", "Monte Carlo spread", &Err(e.clone())),
             };
