@@ -14,6 +14,24 @@ pub const FIELD_TOLERANCE: f64 = 1e-4;
 /// Half-width (a factor) of the first bracket a field engine searches around the closed form's answer.
 const NEAR_FACTOR: f64 = 1.25;
 
+/// `engine` for solves whose error estimate nobody reads (a synthesis's iterates, the spread's fit): the fast
+/// field engine on its fine mesh alone, which gives the same impedance as the full solve. Other engines unchanged.
+pub fn without_estimate(engine: &Engine) -> Engine {
+    match *engine {
+        Engine::Field {
+            options,
+            etch_factor,
+        } => Engine::Field {
+            options: crate::field::boundary::BemOptions {
+                estimate: false,
+                ..options
+            },
+            etch_factor,
+        },
+        other => other,
+    }
+}
+
 /// Solves the rule's free dimension on `engine` by bracketed root finding between the fabricator's minimum and
 /// a hundred dielectric heights, writing the solution into `dims`; `None` when the rule solves nothing.
 pub fn solve_bracketed(
@@ -107,6 +125,8 @@ fn solve_in(
         hi_reason: &hi_reason,
     };
     let base = *dims;
+    // The iterates need the impedance only; the rule's analysis at the answer carries the error estimate.
+    let engine = &without_estimate(engine);
     let x = roots::solve_to(name, rule.target_ohm, &bracket, rel_tol, |x| {
         let d = match rule.solve {
             Solve::Spacing => Dims { s: Some(x), ..base },
