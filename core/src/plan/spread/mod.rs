@@ -32,8 +32,8 @@
 //!   (common random numbers) are run again for the centred yield; unless it gains more than three standard errors
 //!   of the estimated yield (at least 0.1 percentage point), the nominal is kept.
 //! - Every rule draws the same standard deviates ([`rule_seed`]), so identical rules give identical figures; the
-//!   quadratic surface is sampled only inside the limits it was fitted over, the true model in the tails
-//!   ([`Quadratic::sample`]).
+//!   quadratic surface is sampled inside the limits it was fitted over, with an axis table of the model out to 1.5 ×
+//!   each limit in the tails and the true model beyond ([`Quadratic::sample`]).
 //!
 //! The impedance model is a hook ([`ImpedanceModel`]): [`Engine::ClosedForm`] calls the closed forms, so every
 //! structure the models know is covered; a field solver can implement the same trait and be fitted by
