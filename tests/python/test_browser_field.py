@@ -181,8 +181,9 @@ def test_every_card_shows_the_field_figure_with_the_closed_form_beside_it(driver
         n = native[rule["name"]]
         assert n["method"] == "2D field solver (boundary elements)", n["method"]
         shown = float(driver.find_element(By.CSS_SELECTOR, f"[data-testid='rule-{i}-impedance']").get_attribute("data-value"))
-        # WASM and native libm differ in the last bits; the synthesis stops within 1e-4 of target on both.
-        assert abs(shown / n["impedance_ohm"] - 1) < 1e-4, (rule["name"], shown, n["impedance_ohm"])
+        # WASM and native libm differ in the last bits; the synthesis stops within 1e-6 of target on both
+        # (plan::synthesis::FIELD_TOLERANCE), so the two figures agree to 1e-6 (each within 1e-6 of the target).
+        assert abs(shown / n["impedance_ohm"] - 1) < 1e-6, (rule["name"], shown, n["impedance_ohm"])
         closed = float(driver.find_element(By.CSS_SELECTOR, f"[data-testid='rule-{i}-closed-form-check']").get_attribute("data-value"))
         assert abs(closed / n["closed_form_check"]["impedance_ohm"] - 1) < 1e-3, (rule["name"], closed)
     feed = next(i for i, r in enumerate(rules) if r["name"] == "Radio feed 50 Ω")

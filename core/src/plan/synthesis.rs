@@ -9,10 +9,31 @@ use crate::design::project::{ImpedanceRule, Project, Solve};
 use crate::engine::Engine;
 use crate::section::{self, CrossSection, Dims};
 
-/// Relative distance from the target at which a field engine's synthesis stops: a tenth of the engine's 0.1 %.
-pub const FIELD_TOLERANCE: f64 = 1e-4;
+/// Relative distance from the target at which a field engine's synthesis stops. Far below the engine's 0.1 %, so
+/// that the app (WASM) and the CLI (native), whose libm differ in the last bits, give the same widths to ~1e-6.
+pub const FIELD_TOLERANCE: f64 = 1e-6;
+/// Most field solves of the secant start of [`solve_near`] before it falls back to the bracket.
+const SECANT_STEPS: usize = 8;
 /// Half-width (a factor) of the first bracket a field engine searches around the closed form's answer.
 const NEAR_FACTOR: f64 = 1.25;
+
+/// `engine` for solves whose error estimate nobody reads (a synthesis's iterates, the spread's fit): the fast
+/// field engine on its fine mesh alone, which gives the same impedance as the full solve. Other engines unchanged.
+pub fn without_estimate(engine: &Engine) -> Engine {
+    match *engine {
+        Engine::Field {
+            options,
+            etch_factor,
+        } => Engine::Field {
+            options: crate::field::boundary::BemOptions {
+                estimate: false,
+                ..options
+            },
+            etch_factor,
+        },
+        other => other,
+    }
+}
 
 /// Solves the rule's free dimension on `engine` by bracketed root finding between the fabricator's minimum and
 /// a hundred dielectric heights, writing the solution into `dims`; `None` when the rule solves nothing.
@@ -26,10 +47,11 @@ pub fn solve_bracketed(
     solve_in(project, rule, cs, engine, dims, None, roots::REL_TOL)
 }
 
-/// Solves the free dimension on a field engine, starting from the closed form's answer in `dims`: first inside a
-/// bracket a factor [`NEAR_FACTOR`] either side of it (the closed forms miss by a few per cent, so a few solves
-/// suffice), then over the whole search range when the target lies outside that bracket. Stops at
-/// [`FIELD_TOLERANCE`].
+/// Solves the free dimension on a field engine, starting from the closed form's answer in `dims`: secant steps in
+/// log–log from there, the first along the closed form's own slope (Z is close to a power of the dimension, so
+/// three or four solves reach [`FIELD_TOLERANCE`]); if they leave the bracket a factor [`NEAR_FACTOR`] either side
+/// of the start or do not converge, bracketed root finding inside that bracket, then over the whole search range
+/// when the target lies outside it.
 pub fn solve_near(
     project: &Project,
     rule: &ImpedanceRule,
@@ -42,6 +64,25 @@ pub fn solve_near(
         Solve::Width => dims.w,
         Solve::Spacing => dims.s.unwrap_or(dims.w),
     };
+    let lower = match rule.solve {
+        Solve::Spacing => project.fab.min_space_m,
+        _ => project.fab.min_trace_m,
+    };
+    let upper = (100.0 * cs.scale_height()).min(MAX_LENGTH_M);
+    let range = (
+        (start / NEAR_FACTOR).max(lower),
+        (start * NEAR_FACTOR).min(upper),
+    );
+    if let Some(x) = secant_near(rule, cs, engine, dims, start, range) {
+        match rule.solve {
+            Solve::Spacing => dims.s = Some(x),
+            _ => dims.w = x,
+        }
+        return Ok(Some(match rule.solve {
+            Solve::Spacing => "spacing",
+            _ => "width",
+        }));
+    }
     let mut near = *dims;
     match solve_in(
         project,
@@ -58,6 +99,56 @@ pub fn solve_near(
         }
         Err(_) => solve_in(project, rule, cs, engine, dims, None, FIELD_TOLERANCE),
     }
+}
+
+/// Secant iteration in (ln x, ln Z) from `start` on `engine`, the first slope the closed form's; `None` when a
+/// solve fails, a step leaves the [`NEAR_FACTOR`] bracket or the fabricator's limits, or it has not converged
+/// after [`SECANT_STEPS`] solves (the caller then brackets).
+fn secant_near(
+    rule: &ImpedanceRule,
+    cs: &CrossSection,
+    engine: &Engine,
+    dims: &Dims,
+    start: f64,
+    (lo, hi): (f64, f64),
+) -> Option<f64> {
+    let engine = without_estimate(engine);
+    let at = |engine: &Engine, x: f64| -> Option<f64> {
+        let d = match rule.solve {
+            Solve::Spacing => Dims {
+                s: Some(x),
+                ..*dims
+            },
+            _ => Dims { w: x, ..*dims },
+        };
+        engine
+            .impedance(cs, rule.structure, &d)
+            .ok()
+            .filter(|z| z.is_finite() && *z > 0.0)
+    };
+    let target = rule.target_ohm;
+    // d ln Z / d ln x of the closed form at the start (a central difference of ±1 %).
+    let step = 1.01f64;
+    let mut slope = (at(&Engine::ClosedForm, start * step)?.ln()
+        - at(&Engine::ClosedForm, start / step)?.ln())
+        / (2.0 * step.ln());
+    let (mut x, mut z) = (start, at(&engine, start)?);
+    for _ in 0..SECANT_STEPS {
+        if (z - target).abs() <= FIELD_TOLERANCE * target {
+            return Some(x);
+        }
+        if !(slope.is_finite() && slope.abs() > 1e-6) {
+            return None;
+        }
+        let next = x * ((target.ln() - z.ln()) / slope).exp();
+        if !(next >= lo && next <= hi) {
+            return None;
+        }
+        let zn = at(&engine, next)?;
+        slope = (zn.ln() - z.ln()) / (next.ln() - x.ln());
+        (x, z) = (next, zn);
+    }
+    ((z - target).abs() <= FIELD_TOLERANCE * target).then_some(x)
 }
 
 /// Bracketed root finding of the free dimension; `near` narrows the bracket to [`NEAR_FACTOR`] around a start.
@@ -107,6 +198,8 @@ fn solve_in(
         hi_reason: &hi_reason,
     };
     let base = *dims;
+    // The iterates need the impedance only; the rule's analysis at the answer carries the error estimate.
+    let engine = &without_estimate(engine);
     let x = roots::solve_to(name, rule.target_ohm, &bracket, rel_tol, |x| {
         let d = match rule.solve {
             Solve::Spacing => Dims { s: Some(x), ..base },

@@ -476,3 +476,27 @@ fn estimate_covers_the_error_against_a_finer_mesh() {
         }
     }
 }
+
+#[test]
+fn a_solve_without_the_estimate_gives_the_same_figures() {
+    // The fine mesh alone (what synthesis iterates and the spread's fit ask for) must give the very figures of the
+    // full solve, bit for bit: the coarse mesh only feeds the estimate. Reference: the full solve itself.
+    for (name, g) in cases() {
+        let full = solve(&g, &BemOptions::default()).unwrap();
+        let quick = solve(
+            &g,
+            &BemOptions {
+                estimate: false,
+                ..BemOptions::default()
+            },
+        )
+        .unwrap();
+        assert_eq!(quick.controlled_ohm, full.controlled_ohm, "{name}");
+        assert_eq!(quick.c_matrix, full.c_matrix, "{name}");
+        assert_eq!(quick.levels.len(), 1, "{name}");
+        assert!(
+            quick.error_estimate_pct.is_nan() && quick.converged,
+            "{name}"
+        );
+    }
+}
