@@ -2,7 +2,8 @@
 //! Plain Rust (no DOM), so every edit rule is unit-tested natively.
 //!
 //! Invariant: `project.stackup` always validates. An edit that would break it is not applied; the typed text stays
-//! in its field with the core's message, and the last good project (and so the last good plan) is kept.
+//! in its field with the core's message, and the project goes back to what it was when that edit began (issue 17:
+//! a typo "12o" shows the figures of the value held before the edit, never those of the valid prefix "12").
 
 use crate::bridge;
 use ohmstack_core::base::error;
@@ -156,8 +157,18 @@ pub struct State {
     pub redo: Vec<Project>,
     pub drafts: BTreeMap<Field, Draft>,
     pub notice: Option<Notice>,
-    /// The field the last edit went to: further typing in it extends the same undo step.
-    last_field: Option<Field>,
+    /// The edit in progress: further typing in its field extends the same undo step and is applied to the project
+    /// as it was when the edit began.
+    editing: Option<EditStart>,
+}
+
+/// The project as it was when typing into one field began.
+#[derive(Debug, Clone, PartialEq)]
+struct EditStart {
+    field: Field,
+    project: Project,
+    /// Whether that project has been pushed onto the undo history by this edit.
+    pushed: bool,
 }
 
 impl Default for State {
@@ -264,7 +275,7 @@ impl State {
             redo: Vec::new(),
             drafts: BTreeMap::new(),
             notice: None,
-            last_field: None,
+            editing: None,
         }
     }
 
@@ -288,54 +299,76 @@ impl State {
         self.drafts.values().any(|d| d.error.is_some())
     }
 
-    /// Stores `project` as the new current design, remembering the old one for undo.
-    fn commit(&mut self, project: Project, field: Option<Field>) {
+    /// Stores `project` as the new current design, remembering the old one for undo; ends any edit in progress.
+    fn commit(&mut self, project: Project) {
+        self.editing = None;
         if project == self.project {
             return;
         }
-        let coalesce = field.is_some() && field == self.last_field;
-        if !coalesce {
-            let old = std::mem::replace(&mut self.project, project);
-            self.undo.push(old);
-            if self.undo.len() > HISTORY_LIMIT {
-                let excess = self.undo.len() - HISTORY_LIMIT;
-                self.undo.drain(..excess);
-            }
-        } else {
-            self.project = project;
+        let old = std::mem::replace(&mut self.project, project);
+        self.push_undo(old);
+    }
+
+    fn push_undo(&mut self, old: Project) {
+        self.undo.push(old);
+        if self.undo.len() > HISTORY_LIMIT {
+            let excess = self.undo.len() - HISTORY_LIMIT;
+            self.undo.drain(..excess);
         }
         self.redo.clear();
-        self.last_field = field;
     }
 
     /// A structural change: drafts refer to positions that may have moved, so they go.
     fn structural(&mut self, project: Project) {
         self.drafts.clear();
-        self.commit(project, None);
+        self.commit(project);
     }
 
+    /// True while text is being typed into a field (until it loses focus or Enter is pressed): the figures follow
+    /// each keystroke, the tolerance spread waits for a pause (app.rs).
+    pub fn typing(&self) -> bool {
+        self.editing.is_some()
+    }
+
+    /// Ends the edit in progress: the next keystroke anywhere starts a new undo step from the project as it is.
+    fn end_edit(&mut self) {
+        self.editing = None;
+    }
+
+    /// Typing into `field`: the text is applied to the project as it was when this edit began, so an invalid text
+    /// leaves exactly that project (not the last valid prefix) and every keystroke of one field is one undo step.
     fn edit(&mut self, field: Field, text: String) {
-        match self.apply_text(field, &text) {
-            Ok(project) => {
-                self.drafts.insert(field, Draft { text, error: None });
-                self.commit(project, Some(field));
-            }
-            Err(message) => {
-                self.drafts.insert(
-                    field,
-                    Draft {
-                        text,
-                        error: Some(message),
-                    },
-                );
-            }
+        let mut start = match self.editing.take() {
+            Some(e) if e.field == field => e,
+            _ => EditStart {
+                field,
+                project: self.project.clone(),
+                pushed: false,
+            },
+        };
+        let base = start.project.clone();
+        let (project, error) = match Self::apply_text_to(&base, field, &text) {
+            Ok(project) => (project, None),
+            Err(message) => (base.clone(), Some(message)),
+        };
+        self.drafts.insert(field, Draft { text, error });
+        let changed = project != base;
+        if changed && !start.pushed {
+            self.push_undo(base);
+            start.pushed = true;
+        } else if !changed && start.pushed {
+            // Back to where the edit began: the step it opened holds nothing.
+            self.undo.pop();
+            start.pushed = false;
         }
+        self.project = project;
+        self.editing = Some(start);
     }
 
     /// The project with `text` applied to `field`, or the core's message why it cannot be.
-    fn apply_text(&self, field: Field, text: &str) -> Result<Project, String> {
-        let unit = self.project.units;
-        let mut p = self.project.clone();
+    fn apply_text_to(base: &Project, field: Field, text: &str) -> Result<Project, String> {
+        let unit = base.units;
+        let mut p = base.clone();
         let e = |r: ohmstack_core::Result<f64>| r.map_err(|e| e.to_string());
         match field {
             Field::Title => {
@@ -691,7 +724,7 @@ impl State {
         let current = std::mem::replace(&mut self.project, project);
         to.push(current);
         self.drafts.clear();
-        self.last_field = None;
+        self.editing = None;
     }
 }
 
@@ -710,12 +743,13 @@ impl Reducible for State {
                 if s.drafts.get(&field).is_some_and(|d| d.error.is_none()) {
                     s.drafts.remove(&field);
                 }
-                s.last_field = None;
+                s.end_edit();
             }
             Action::SetUnit(unit) => {
                 // Only the display changes; valid drafts are re-shown in the new unit, stored metres stay as they are.
                 s.project.units = unit;
                 s.drafts.retain(|_, d| d.error.is_some());
+                s.end_edit();
             }
             a @ (Action::SetLayerKind(..)
             | Action::SetCopperRole(..)
@@ -829,6 +863,64 @@ mod tests {
     }
 
     #[test]
+    fn a_typo_shows_the_value_held_before_the_edit_not_the_last_valid_prefix() {
+        // Issue 17: "12o" on the way from PP1's 120 µm to 130 µm. The prefix "12" is valid (12 µm) but is not
+        // what the user means; while the text is invalid, the project is the one from before the edit began.
+        let field = Field::Layer(2, LayerField::Thickness);
+        let s0 = State::default();
+        let mut s = s0.clone();
+        for text in ["1", "12"] {
+            s = reduce(s, Action::Edit(field, text.into()));
+            assert!(s.typing());
+        }
+        assert!((thickness_of(&s, 2) - 12e-6).abs() < 1e-15);
+        assert_eq!(s.undo, vec![s0.project.clone()]);
+        s = reduce(s, Action::Edit(field, "12o".into()));
+        assert_eq!(s.project, s0.project, "the pre-edit project, not 12 µm");
+        assert!(
+            s.undo.is_empty(),
+            "an edit that changed nothing leaves no undo step"
+        );
+        assert_eq!(s.drafts[&field].text, "12o");
+        assert!(s.drafts[&field]
+            .error
+            .as_deref()
+            .unwrap()
+            .contains("thickness"));
+        // The correction applies to the pre-edit project as one undo step.
+        s = reduce(s, Action::Edit(field, "130".into()));
+        assert!((thickness_of(&s, 2) - 130e-6).abs() < 1e-15);
+        assert_eq!(s.undo, vec![s0.project.clone()]);
+        // Leaving the field (or Enter) ends the edit; an invalid text left there keeps the pre-edit project.
+        s = reduce(s, Action::Blur(field));
+        assert!(!s.typing());
+        let edited = s.project.clone();
+        s = reduce(s, Action::Edit(field, "9x".into()));
+        assert_eq!(s.project, edited);
+        s = reduce(s, Action::Blur(field));
+        assert_eq!(s.project, edited);
+        assert_eq!(s.drafts[&field].text, "9x", "nothing typed is lost");
+        s = reduce(s, Action::Undo);
+        assert_eq!(s.project, s0.project);
+    }
+
+    #[test]
+    fn an_edit_in_another_field_starts_from_the_current_project() {
+        let a = Field::Layer(2, LayerField::Thickness);
+        let b = Field::Layer(2, LayerField::Dk);
+        let s = reduce(State::default(), Action::Edit(a, "150".into()));
+        let s = reduce(s, Action::Edit(b, "4.4".into()));
+        assert!((thickness_of(&s, 2) - 150e-6).abs() < 1e-15);
+        assert_eq!(s.project.stackup.layers[2].dielectric().unwrap().dk, 4.4);
+        assert_eq!(s.undo.len(), 2);
+        // A typo in the second field goes back to the project its edit began from: the first edit stays.
+        let s = reduce(s, Action::Edit(b, "4.4q".into()));
+        assert!((thickness_of(&s, 2) - 150e-6).abs() < 1e-15);
+        assert_eq!(s.project.stackup.layers[2].dielectric().unwrap().dk, 4.0);
+        assert_eq!(s.undo.len(), 1);
+    }
+
+    #[test]
     fn partial_text_is_kept_verbatim() {
         let s = reduce(
             State::default(),
@@ -888,6 +980,7 @@ mod tests {
         assert!(s.project.rules.iter().all(|r| r.layer != "L1 Top"));
         assert_eq!(s.project.rules[0].layer, "Top signal");
         // A duplicate name is refused with the core's message and nothing changes.
+        let s = reduce(s, Action::Blur(Field::Layer(1, LayerField::Name)));
         let s2 = reduce(
             s.clone(),
             Action::Edit(Field::Layer(1, LayerField::Name), "L2 GND".into()),
@@ -1051,6 +1144,7 @@ mod tests {
             Action::Edit(Field::Revision, " B2 ".into()),
         );
         assert_eq!(s.project.revision, "B2");
+        let s = reduce(s, Action::Blur(Field::Revision));
         let long = "x".repeat(ohmstack_core::design::project::MAX_REVISION_CHARS + 1);
         let s = reduce(s, Action::Edit(Field::Revision, long));
         assert_eq!(s.project.revision, "B2");

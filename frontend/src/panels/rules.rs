@@ -306,7 +306,7 @@ pub fn Rules(props: &RulesProps) -> Html {
         <section class="panel" aria-labelledby="rules-title">
             <h2 id="rules-title">{ "Impedance rules" }<span class="sub">{ " one per controlled net class" }</span></h2>
             if props.stale {
-                <p class="stale-note" role="status" data-testid="stale-note">{ "Figures below are from the last valid entry; fix the marked field to update them." }</p>
+                <p class="stale-note" role="status" data-testid="stale-note">{ "Figures below are for the values held before the marked field was edited; fix it to update them." }</p>
             }
             <ol class="rules">{ for cards }</ol>
             <p class="no-print"><button type="button" id="add-rule" onclick={add}>{ "Add rule" }</button></p>
