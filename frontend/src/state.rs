@@ -7,9 +7,11 @@
 
 use crate::bridge;
 use ohmstack_core::base::error;
-use ohmstack_core::base::units::{LengthUnit, OZ_COPPER};
+use ohmstack_core::base::units::{format_sig, LengthUnit, OZ_COPPER};
 use ohmstack_core::design::material::{self, PresetUse};
+use ohmstack_core::design::process::{Distribution, LayerProcess, Process, Tolerance};
 use ohmstack_core::design::project::{ImpedanceRule, RuleModel, Solve, Structure};
+use ohmstack_core::design::roughness::Foil;
 use ohmstack_core::design::stackup::{Copper, CopperRole, Dielectric};
 use ohmstack_core::{Layer, Project};
 use std::collections::BTreeMap;
@@ -28,6 +30,167 @@ pub enum LayerField {
     Df,
     SpecFreq,
     Material,
+    /// Copper fill, % (blank: the role's default).
+    Fill,
+    /// An outer copper layer's base foil under the plating.
+    BaseFoil,
+    /// This layer's thickness ± limit (blank: the project's limit for its kind).
+    TolThickness,
+    /// This layer's Dk ± limit (blank: the project's).
+    TolDk,
+}
+
+/// A ± limit of the process that the tolerance spread varies.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash)]
+pub enum TolKind {
+    EtchWidth,
+    EtchFactor,
+    CoreThickness,
+    PrepregThickness,
+    Dk,
+    CopperThickness,
+    MaskThickness,
+}
+
+impl TolKind {
+    pub const ALL: [TolKind; 7] = [
+        TolKind::EtchWidth,
+        TolKind::EtchFactor,
+        TolKind::CoreThickness,
+        TolKind::PrepregThickness,
+        TolKind::Dk,
+        TolKind::CopperThickness,
+        TolKind::MaskThickness,
+    ];
+    pub fn key(self) -> &'static str {
+        match self {
+            TolKind::EtchWidth => "etch-width",
+            TolKind::EtchFactor => "etch-factor",
+            TolKind::CoreThickness => "core-thickness",
+            TolKind::PrepregThickness => "prepreg-thickness",
+            TolKind::Dk => "dk",
+            TolKind::CopperThickness => "copper-thickness",
+            TolKind::MaskThickness => "mask-thickness",
+        }
+    }
+    /// The name in tables and messages.
+    pub fn label(self) -> &'static str {
+        match self {
+            TolKind::EtchWidth => "Etched width",
+            TolKind::EtchFactor => "Etch factor",
+            TolKind::CoreThickness => "Core thickness",
+            TolKind::PrepregThickness => "Prepreg thickness",
+            TolKind::Dk => "Laminate Dk",
+            TolKind::CopperThickness => "Copper thickness",
+            TolKind::MaskThickness => "Solder mask thickness",
+        }
+    }
+    /// What the limit covers, in a few words.
+    pub fn what(self) -> &'static str {
+        match self {
+            TolKind::EtchWidth => "whole trace width, both edges together",
+            TolKind::EtchFactor => "varied only when an etch factor is set below",
+            TolKind::CoreThickness => "every core",
+            TolKind::PrepregThickness => "every prepreg, pressed",
+            TolKind::Dk => "cores and prepregs; mask Dk is held unless a layer says",
+            TolKind::CopperThickness => "every copper layer, finished",
+            TolKind::MaskThickness => "over the trace",
+        }
+    }
+    /// Lengths take a length or a percentage; Dk and etch factor a plain number or a percentage.
+    pub fn is_length(self) -> bool {
+        !matches!(self, TolKind::Dk | TolKind::EtchFactor)
+    }
+    pub fn get(self, p: &Process) -> Tolerance {
+        match self {
+            TolKind::EtchWidth => p.etch_width,
+            TolKind::EtchFactor => p.etch_factor,
+            TolKind::CoreThickness => p.core_thickness,
+            TolKind::PrepregThickness => p.prepreg_thickness,
+            TolKind::Dk => p.dk,
+            TolKind::CopperThickness => p.copper_thickness,
+            TolKind::MaskThickness => p.mask_thickness,
+        }
+    }
+    fn get_mut(self, p: &mut Process) -> &mut Tolerance {
+        match self {
+            TolKind::EtchWidth => &mut p.etch_width,
+            TolKind::EtchFactor => &mut p.etch_factor,
+            TolKind::CoreThickness => &mut p.core_thickness,
+            TolKind::PrepregThickness => &mut p.prepreg_thickness,
+            TolKind::Dk => &mut p.dk,
+            TolKind::CopperThickness => &mut p.copper_thickness,
+            TolKind::MaskThickness => &mut p.mask_thickness,
+        }
+    }
+    /// A limit as editable text: "12.5 µm", "10 %", "0.2".
+    pub fn text(self, t: &Tolerance, unit: LengthUnit) -> String {
+        match (t.abs, t.pct) {
+            (Some(a), _) if self.is_length() => {
+                // Limits are finer than the trade's rounding of lengths (±12.5 µm): three significant digits.
+                format!("{} {}", format_sig(unit.from_m(a), 3), unit.symbol())
+            }
+            (Some(a), _) => format_sig(a, 4),
+            (None, Some(p)) => format!("{} %", format_sig(p, 4)),
+            (None, None) => String::new(),
+        }
+    }
+    /// Reads a limit typed for this quantity (keeping `distribution`); errors name it in the user's words.
+    pub fn parse(
+        self,
+        name: &str,
+        text: &str,
+        unit: LengthUnit,
+        distribution: Distribution,
+    ) -> Result<Tolerance, String> {
+        let t = text
+            .trim()
+            .trim_start_matches('±')
+            .trim_start_matches("+-")
+            .trim();
+        let e = |r: ohmstack_core::Result<f64>| r.map_err(|e| e.to_string());
+        let tol = if let Some(p) = t.strip_suffix('%') {
+            let v = bridge::parse_number(name, p.trim(), &[])?;
+            Tolerance::pct(e(error::in_range(name, v, 0.0, 50.0, "%"))?)
+        } else if self.is_length() {
+            let v = bridge::parse_length(name, t, unit)?;
+            if !(0.0..=1e-3).contains(&v) {
+                return Err(format!(
+                    "{name}: {} is more than 1 mm; give a length such as 10 µm, or a percentage such as 10 %",
+                    bridge::length_label(v, unit)
+                ));
+            }
+            Tolerance::abs(v)
+        } else {
+            let max = if self == TolKind::Dk { 5.0 } else { 50.0 };
+            let v = bridge::parse_number(name, t, &[])?;
+            Tolerance::abs(e(error::in_range(name, v, 0.0, max, ""))?)
+        };
+        Ok(tol.with(distribution))
+    }
+}
+
+/// A project-wide process or fabrication field.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash)]
+pub enum ProcessField {
+    /// `fab.etch_factor` (blank: rectangular traces).
+    EtchFactor,
+    /// `fab.outer_plating_m` (blank: not given).
+    OuterPlating,
+    /// `fab.thickness_tolerance_pct` (blank: the common ±10 %).
+    BoardThicknessTol,
+    Tol(TolKind),
+}
+
+impl ProcessField {
+    pub fn key(self) -> String {
+        match self {
+            ProcessField::EtchFactor => "etch-factor".into(),
+            ProcessField::OuterPlating => "outer-plating".into(),
+            ProcessField::BoardThicknessTol => "board-thickness-tol".into(),
+            ProcessField::Tol(k) => format!("tol-{}", k.key()),
+        }
+    }
 }
 
 /// An editable text field of a rule.
@@ -51,6 +214,7 @@ pub enum Field {
     MinSpace,
     Layer(usize, LayerField),
     Rule(usize, RuleField),
+    Process(ProcessField),
 }
 
 impl Field {
@@ -71,8 +235,16 @@ impl Field {
                     LayerField::Df => "df",
                     LayerField::SpecFreq => "spec-freq",
                     LayerField::Material => "material",
+                    LayerField::Fill => "fill",
+                    LayerField::BaseFoil => "base-foil",
+                    LayerField::TolThickness => "tol-thickness",
+                    LayerField::TolDk => "tol-dk",
                 }
             ),
+            Field::Process(p) => match p {
+                ProcessField::Tol(_) => p.key(),
+                _ => format!("fab-{}", p.key()),
+            },
             Field::Rule(i, f) => format!(
                 "rule-{i}-{}-input",
                 match f {
@@ -206,6 +378,10 @@ pub enum Action {
     SetRuleSolve(usize, Solve),
     SetRuleModel(usize, RuleModel),
     SetRulePartner(usize, String),
+    /// The distribution of one process limit.
+    SetDistribution(TolKind, Distribution),
+    /// A copper layer's surface: a generic foil class, or smooth (`None`).
+    SetFoil(usize, Option<Foil>),
     Undo,
     Redo,
     /// Replace the whole project (new, open, demo); undoable. The message says what was opened; the reducer adds
@@ -365,6 +541,146 @@ impl State {
         self.editing = Some(start);
     }
 
+    /// A project-wide process field typed as `text`.
+    fn process_text(p: &mut Project, f: ProcessField, text: &str) -> Result<(), String> {
+        let unit = p.units;
+        let e = |r: ohmstack_core::Result<f64>| r.map_err(|e| e.to_string());
+        let blank = text.trim().is_empty();
+        match f {
+            ProcessField::EtchFactor => {
+                p.fab.etch_factor = if blank {
+                    None
+                } else {
+                    let v = bridge::parse_number("etch factor", text, &[])?;
+                    Some(e(error::in_range("etch factor", v, 0.5, 100.0, ""))?)
+                };
+            }
+            ProcessField::BoardThicknessTol => {
+                p.fab.thickness_tolerance_pct = if blank {
+                    None
+                } else {
+                    let v = bridge::parse_number("board thickness tolerance", text, &["%"])?;
+                    Some(e(error::in_range(
+                        "board thickness tolerance",
+                        v,
+                        0.0,
+                        50.0,
+                        "%",
+                    ))?)
+                };
+            }
+            ProcessField::OuterPlating => {
+                // The outer layers keep their base foil: the finished thickness is foil plus the new plating.
+                let old = p.fab.outer_plating_m.unwrap_or(0.0);
+                let new = if blank {
+                    None
+                } else {
+                    let v = bridge::parse_length("outer plating", text, unit)?;
+                    if !(0.0..=ohmstack_core::design::project::MAX_OUTER_PLATING_M).contains(&v) {
+                        return Err(format!(
+                            "outer plating: {} is outside 0 to {}",
+                            bridge::length_label(v, unit),
+                            bridge::length_label(
+                                ohmstack_core::design::project::MAX_OUTER_PLATING_M,
+                                unit
+                            )
+                        ));
+                    }
+                    Some(v)
+                };
+                let outer: Vec<String> = p
+                    .stackup
+                    .outer_coppers()
+                    .iter()
+                    .map(|c| c.name.clone())
+                    .collect();
+                for layer in &mut p.stackup.layers {
+                    if let Layer::Copper(c) = layer {
+                        if outer.contains(&c.name) {
+                            c.thickness_m = c.thickness_m - old + new.unwrap_or(0.0);
+                        }
+                    }
+                }
+                p.fab.outer_plating_m = new;
+            }
+            ProcessField::Tol(k) => {
+                let mut process = p.process.clone().unwrap_or_default();
+                let current = k.get(&process);
+                *k.get_mut(&mut process) = if blank {
+                    k.get(&Process::default()).with(current.distribution)
+                } else {
+                    k.parse(
+                        &format!("{} tolerance", k.label().to_lowercase()),
+                        text,
+                        unit,
+                        current.distribution,
+                    )?
+                };
+                p.process = Some(process);
+            }
+        }
+        p.validate().map_err(|e| e.to_string())
+    }
+
+    /// One layer's own thickness or Dk ± limit; blank gives the layer back to the project's limit.
+    fn layer_tolerance(p: &mut Project, i: usize, f: LayerField, text: &str) -> Result<(), String> {
+        let unit = p.units;
+        let Some(layer) = p.stackup.layers.get(i) else {
+            return Err("this layer no longer exists".into());
+        };
+        let name = layer.name().to_string();
+        let (kind, what) = match (f, layer) {
+            (LayerField::TolDk, Layer::Copper(_)) => {
+                return Err(format!("{name}: copper has no Dk"));
+            }
+            (LayerField::TolDk, _) => (TolKind::Dk, format!("{name} Dk tolerance")),
+            (_, Layer::Copper(_)) => (
+                TolKind::CopperThickness,
+                format!("{name} thickness tolerance"),
+            ),
+            (_, Layer::Core(_)) => (
+                TolKind::CoreThickness,
+                format!("{name} thickness tolerance"),
+            ),
+            (_, Layer::Prepreg(_)) => (
+                TolKind::PrepregThickness,
+                format!("{name} thickness tolerance"),
+            ),
+            (_, Layer::SolderMask(_)) => (
+                TolKind::MaskThickness,
+                format!("{name} thickness tolerance"),
+            ),
+        };
+        let mut process = p.process.clone().unwrap_or_default();
+        let at = process.layers.iter().position(|o| o.layer == name);
+        let tol = if text.trim().is_empty() {
+            None
+        } else {
+            Some(kind.parse(&what, text, unit, kind.get(&process).distribution)?)
+        };
+        let entry = match at {
+            Some(k) => &mut process.layers[k],
+            None => {
+                process.layers.push(LayerProcess {
+                    layer: name,
+                    thickness: None,
+                    dk: None,
+                });
+                process.layers.last_mut().expect("just pushed")
+            }
+        };
+        if f == LayerField::TolDk {
+            entry.dk = tol;
+        } else {
+            entry.thickness = tol;
+        }
+        process
+            .layers
+            .retain(|o| o.thickness.is_some() || o.dk.is_some());
+        p.process = Some(process);
+        p.validate().map_err(|e| e.to_string())
+    }
+
     /// The project with `text` applied to `field`, or the core's message why it cannot be.
     fn apply_text_to(base: &Project, field: Field, text: &str) -> Result<Project, String> {
         let unit = base.units;
@@ -393,11 +709,15 @@ impl State {
                 let v = bridge::parse_length("minimum space", text, unit)?;
                 p.fab.min_space_m = e(error::length("minimum space", v))?;
             }
+            Field::Layer(i, f @ (LayerField::TolThickness | LayerField::TolDk)) => {
+                Self::layer_tolerance(&mut p, i, f, text)?
+            }
             Field::Layer(i, f) => {
                 let Some(layer) = p.stackup.layers.get_mut(i) else {
                     return Err("this layer no longer exists".into());
                 };
                 let old_name = layer.name().to_string();
+                let name = old_name.clone();
                 match (f, &mut *layer) {
                     (LayerField::Name, layer) => rename_layer(layer, text.trim().to_string()),
                     (LayerField::Thickness, Layer::Copper(c)) => {
@@ -414,8 +734,23 @@ impl State {
                             d.spec_freq_hz = bridge::parse_frequency_ghz("spec_freq", text)?
                         }
                         LayerField::Material => d.material = text.to_string(),
-                        LayerField::Name | LayerField::Thickness => {}
+                        _ => return Err(format!("{name}: a dielectric has no such field")),
                     },
+                    (LayerField::Fill, Layer::Copper(c)) => {
+                        let what = format!("{name} copper fill");
+                        c.fill_pct = if text.trim().is_empty() {
+                            None
+                        } else {
+                            let v = bridge::parse_number(&what, text, &["%"])?;
+                            Some(e(error::in_range(&what, v, 0.0, 100.0, "%"))?)
+                        };
+                    }
+                    (LayerField::BaseFoil, Layer::Copper(c)) => {
+                        let what = format!("{name} base foil");
+                        let v = bridge::parse_length(&what, text, unit)?;
+                        let foil = e(error::length(&what, v))?;
+                        c.thickness_m = foil + base.fab.outer_plating_m.unwrap_or(0.0);
+                    }
                     (_, Layer::Copper(_)) => return Err("copper has no such field".into()),
                 }
                 p.stackup.validate().map_err(|e| e.to_string())?;
@@ -434,8 +769,15 @@ impl State {
                             }
                         }
                     }
+                    // A layer's own process limits follow its name.
+                    for o in p.process.iter_mut().flat_map(|pr| pr.layers.iter_mut()) {
+                        if o.layer == old_name {
+                            o.layer = new_name.clone();
+                        }
+                    }
                 }
             }
+            Field::Process(f) => Self::process_text(&mut p, f, text)?,
             Field::Rule(i, f) => {
                 let Some(rule) = p.rules.get_mut(i) else {
                     return Err("this rule no longer exists".into());
@@ -598,7 +940,11 @@ impl State {
                     return;
                 }
                 if i < n {
-                    p.stackup.layers.remove(i);
+                    let gone = p.stackup.layers.remove(i);
+                    // Its own process limits go with it.
+                    if let Some(pr) = p.process.as_mut() {
+                        pr.layers.retain(|o| o.layer != gone.name());
+                    }
                 }
             }
             Action::DuplicateLayer(i) => {
@@ -768,6 +1114,20 @@ impl Reducible for State {
             | Action::SetRuleSolve(..)
             | Action::SetRuleModel(..)
             | Action::SetRulePartner(..)) => s.rule_action(a),
+            Action::SetDistribution(k, distribution) => {
+                let mut p = s.project.clone();
+                let mut process = p.process.clone().unwrap_or_default();
+                k.get_mut(&mut process).distribution = distribution;
+                p.process = Some(process);
+                s.commit(p);
+            }
+            Action::SetFoil(i, foil) => {
+                let mut p = s.project.clone();
+                if let Some(Layer::Copper(c)) = p.stackup.layers.get_mut(i) {
+                    c.roughness = foil.map(Foil::hammerstad_groiss);
+                    s.commit(p);
+                }
+            }
             Action::Undo => s.step(true),
             Action::Redo => s.step(false),
             Action::Load(project, message) => {
@@ -918,6 +1278,123 @@ mod tests {
         assert!((thickness_of(&s, 2) - 150e-6).abs() < 1e-15);
         assert_eq!(s.project.stackup.layers[2].dielectric().unwrap().dk, 4.0);
         assert_eq!(s.undo.len(), 1);
+    }
+
+    #[test]
+    fn process_limits_are_edited_with_their_names_and_blank_restores_the_default() {
+        use ohmstack_core::design::process::DEFAULT_ETCH_WIDTH;
+        let etch = Field::Process(ProcessField::Tol(TolKind::EtchWidth));
+        let s = reduce(State::default(), Action::Edit(etch, "20".into()));
+        let p = s.project.process.clone().unwrap();
+        assert!(
+            (p.etch_width.abs.unwrap() - 20e-6).abs() < 1e-15,
+            "a bare number is in µm"
+        );
+        let s = reduce(s, Action::Blur(etch));
+        let s = reduce(s, Action::Edit(etch, "8 %".into()));
+        assert_eq!(
+            s.project.process.as_ref().unwrap().etch_width.pct,
+            Some(8.0)
+        );
+        // Bad limits name the quantity in words, never a path such as process.etch_width.abs.
+        for bad in ["-3", "x", "60 %", "2mm"] {
+            let t = reduce(s.clone(), Action::Edit(etch, bad.into()));
+            let msg = t.drafts[&etch].error.clone().unwrap_or_default();
+            assert!(msg.starts_with("etched width tolerance"), "{bad}: {msg}");
+            assert!(!msg.contains("process."), "{bad}: {msg}");
+        }
+        let s = reduce(s, Action::Edit(etch, "".into()));
+        assert_eq!(
+            s.project.process.as_ref().unwrap().etch_width,
+            DEFAULT_ETCH_WIDTH
+        );
+        let s = reduce(
+            s,
+            Action::SetDistribution(TolKind::Dk, Distribution::Uniform),
+        );
+        assert_eq!(
+            s.project.process.as_ref().unwrap().dk.distribution,
+            Distribution::Uniform
+        );
+    }
+
+    #[test]
+    fn a_layer_gets_its_own_limits_and_they_follow_its_name() {
+        let tol = Field::Layer(2, LayerField::TolThickness);
+        let s = reduce(State::default(), Action::Edit(tol, "5 %".into()));
+        let over = &s.project.process.as_ref().unwrap().layers;
+        assert_eq!(over.len(), 1);
+        assert_eq!(
+            (over[0].layer.as_str(), over[0].thickness.unwrap().pct),
+            ("PP1", Some(5.0))
+        );
+        let s = reduce(s, Action::Blur(tol));
+        let s = reduce(
+            s,
+            Action::Edit(Field::Layer(2, LayerField::Name), "Prepreg top".into()),
+        );
+        assert_eq!(
+            s.project.process.as_ref().unwrap().layers[0].layer,
+            "Prepreg top"
+        );
+        assert!(s.project.validate().is_ok());
+        // Copper has no Dk; the message names the layer.
+        let t = reduce(
+            s.clone(),
+            Action::Edit(Field::Layer(1, LayerField::TolDk), "0.1".into()),
+        );
+        let msg = t.drafts[&Field::Layer(1, LayerField::TolDk)]
+            .error
+            .clone()
+            .unwrap();
+        assert!(msg.contains("L1 Top"), "{msg}");
+        // Removing the layer removes its limits (the project stays valid).
+        let s = reduce(s, Action::RemoveLayer(2));
+        assert!(s.project.process.as_ref().unwrap().layers.is_empty());
+        // Blank gives a layer back to the project's limit.
+        let s = reduce(State::default(), Action::Edit(tol, "5 %".into()));
+        let s = reduce(s, Action::Edit(tol, " ".into()));
+        assert!(s.project.process.as_ref().unwrap().layers.is_empty());
+    }
+
+    #[test]
+    fn plating_keeps_the_outer_base_foil_and_fill_and_foil_apply() {
+        let plating = Field::Process(ProcessField::OuterPlating);
+        let s0 = State::default();
+        let top = thickness_of(&s0, 1);
+        let s = reduce(s0.clone(), Action::Edit(plating, "15".into()));
+        assert!((s.project.fab.outer_plating_m.unwrap() - 15e-6).abs() < 1e-15);
+        // The outer layers are now foil plus plating; inner copper is untouched.
+        assert!((thickness_of(&s, 1) - (top + 15e-6)).abs() < 1e-15);
+        assert_eq!(thickness_of(&s, 5), thickness_of(&s0, 5));
+        let s = reduce(s, Action::Blur(plating));
+        let foil = Field::Layer(1, LayerField::BaseFoil);
+        let s = reduce(s, Action::Edit(foil, "18".into()));
+        assert!((thickness_of(&s, 1) - 33e-6).abs() < 1e-15);
+        assert!(s.project.validate().is_ok());
+        let t = reduce(s.clone(), Action::Edit(plating, "500".into()));
+        let msg = t.drafts[&plating].error.clone().unwrap();
+        assert!(msg.starts_with("outer plating"), "{msg}");
+        let fill = Field::Layer(3, LayerField::Fill);
+        let s = reduce(s, Action::Edit(fill, "75".into()));
+        let c = s.project.stackup.layers[3].copper().unwrap().clone();
+        assert_eq!(c.fill_pct, Some(75.0));
+        let t = reduce(s.clone(), Action::Edit(fill, "120".into()));
+        assert!(t.drafts[&fill]
+            .error
+            .as_deref()
+            .unwrap()
+            .starts_with("L2 GND copper fill"));
+        let s = reduce(s, Action::SetFoil(3, Some(Foil::LowProfile)));
+        assert_eq!(
+            s.project.stackup.layers[3].copper().unwrap().roughness,
+            Some(Foil::LowProfile.hammerstad_groiss())
+        );
+        let etch = Field::Process(ProcessField::EtchFactor);
+        let s = reduce(s, Action::Edit(etch, "3".into()));
+        assert_eq!(s.project.fab.etch_factor, Some(3.0));
+        let s = reduce(s, Action::Edit(etch, "".into()));
+        assert_eq!(s.project.fab.etch_factor, None);
     }
 
     #[test]
