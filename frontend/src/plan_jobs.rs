@@ -447,8 +447,8 @@ mod tests {
     #[test]
     fn every_rule_lands_nominal_then_complete_and_equals_the_whole_plan() {
         let mut p = demo::project();
-        // An unreachable target: an error row, final at once (no spread follows).
-        p.rules[1].target_ohm = 400.0;
+        // A rule on a layer that does not exist: an error row, final at once (no spread follows).
+        p.rules[1].layer = "no such layer".into();
         let mut planner = Planner::default();
         planner.request(&request(1, &p));
         let updates = run(&mut planner);

@@ -378,6 +378,9 @@ pub enum Action {
     SetRuleSolve(usize, Solve),
     SetRuleModel(usize, RuleModel),
     SetRulePartner(usize, String),
+    /// Build a rule as shown: these width and spacing, solving for nothing (the nearest design to a target out of
+    /// reach).
+    UseDimensions(usize, f64, Option<f64>),
     /// The distribution of one process limit.
     SetDistribution(TolKind, Distribution),
     /// A copper layer's surface: a generic foil class, or smooth (`None`).
@@ -525,7 +528,7 @@ impl State {
         let base = start.project.clone();
         let (project, error) = match Self::apply_text_to(&base, field, &text) {
             Ok(project) => (project, None),
-            Err(message) => (base.clone(), Some(message)),
+            Err(message) => (base.clone(), Some(user_words(&message))),
         };
         self.drafts.insert(field, Draft { text, error });
         let changed = project != base;
@@ -1048,6 +1051,14 @@ impl State {
             Action::SetRuleModel(i, model) if i < n => {
                 p.rules[i].model = model;
             }
+            Action::UseDimensions(i, width_m, spacing_m) if i < n => {
+                let r = &mut p.rules[i];
+                r.width_m = width_m;
+                if spacing_m.is_some() {
+                    r.spacing_m = spacing_m;
+                }
+                r.solve = Solve::Nothing;
+            }
             Action::SetRulePartner(i, partner) if i < n => {
                 p.rules[i].partner_layer = Some(partner);
             }
@@ -1113,7 +1124,8 @@ impl Reducible for State {
             | Action::SetRuleStructure(..)
             | Action::SetRuleSolve(..)
             | Action::SetRuleModel(..)
-            | Action::SetRulePartner(..)) => s.rule_action(a),
+            | Action::SetRulePartner(..)
+            | Action::UseDimensions(..)) => s.rule_action(a),
             Action::SetDistribution(k, distribution) => {
                 let mut p = s.project.clone();
                 let mut process = p.process.clone().unwrap_or_default();
@@ -1155,6 +1167,25 @@ impl Reducible for State {
         } else {
             Rc::new(s)
         }
+    }
+}
+
+/// A core message in the user's words: a leading `layers[2] "PP1".thickness` or `rules[5] "USB".width` path
+/// becomes `PP1 thickness` / `USB width` (the name, never the position).
+pub fn user_words(message: &str) -> String {
+    let Some((path, rest)) = message.split_once(": ") else {
+        return message.to_string();
+    };
+    let named = ["layers[", "rules["].iter().find_map(|p| {
+        let after = path.strip_prefix(p)?;
+        let (_, tail) = after.split_once("] \"")?;
+        let (name, field) = tail.split_once('"')?;
+        let field = field.trim_start_matches('.').replace(['.', '_'], " ");
+        Some(format!("{name} {field}").trim_end().to_string())
+    });
+    match named {
+        Some(path) => format!("{path}: {rest}"),
+        None => message.to_string(),
     }
 }
 
@@ -1395,6 +1426,36 @@ mod tests {
         assert_eq!(s.project.fab.etch_factor, Some(3.0));
         let s = reduce(s, Action::Edit(etch, "".into()));
         assert_eq!(s.project.fab.etch_factor, None);
+    }
+
+    #[test]
+    fn the_nearest_design_can_be_kept_as_drawn() {
+        let s = reduce(
+            State::default(),
+            Action::UseDimensions(1, 100e-6, Some(150e-6)),
+        );
+        let r = &s.project.rules[1];
+        assert_eq!(
+            (r.width_m, r.spacing_m, r.solve),
+            (100e-6, Some(150e-6), Solve::Nothing)
+        );
+        assert_eq!(s.undo.len(), 1);
+    }
+
+    #[test]
+    fn messages_name_layers_not_positions() {
+        // 1 m of prepreg passes the length reader but not the stack's check, whose message names the layer by
+        // position and name; the field's message keeps the name only.
+        let f = Field::Layer(2, LayerField::Thickness);
+        let s = reduce(State::default(), Action::Edit(f, "1m".into()));
+        let msg = s.drafts[&f].error.clone().unwrap();
+        assert!(msg.starts_with("PP1 thickness"), "{msg}");
+        assert!(!msg.contains("layers["), "{msg}");
+        assert_eq!(
+            user_words("rules[5] \"USB data 90 Ω\".width: too narrow"),
+            "USB data 90 Ω width: too narrow"
+        );
+        assert_eq!(user_words("width: fine"), "width: fine");
     }
 
     #[test]

@@ -484,11 +484,13 @@ pub(crate) fn prefix(e: Error, context: &str) -> Error {
             target,
             nearest,
             bound,
+            at_m,
         } => Error::Unreachable {
             field: format!("{context}.{field}"),
             target,
             nearest,
             bound,
+            at_m,
         },
         Error::Invalid { field, reason } => Error::Invalid {
             field: format!("{context}.{field}"),

@@ -229,6 +229,7 @@ impl FieldSynthesis {
                         self.dimension_name(),
                         self.lower * 1e6
                     ),
+                    at_m: Some(self.lower),
                 });
             }
             self.current = Some((self.lower, self.new_solve(self.lower)?));

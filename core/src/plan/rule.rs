@@ -76,6 +76,19 @@ pub struct RuleResult {
     /// Tolerance spread and yield, when asked for with [`PlanOptions::spread_samples`].
     #[serde(skip_serializing_if = "Option::is_none")]
     pub spread: Option<SpreadSummary>,
+    /// Set when the target could not be reached: these figures are the nearest reachable design, at the bound
+    /// that stopped the solve ([`crate::plan::plan_rule_or_nearest`]).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub unreached: Option<Unreached>,
+}
+
+/// Why a rule's figures are the nearest reachable design rather than its target's.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct Unreached {
+    /// The dimension that was being solved: "width" or "spacing".
+    pub dimension: String,
+    /// What stopped the solve, in words (the fabricator's minimum, the widest searched).
+    pub bound: String,
 }
 
 /// One rule's outcome: figures, or the reason it could not be computed.
@@ -422,6 +435,7 @@ pub fn rule_figures(
         cross_section: cs,
         warnings,
         spread: None,
+        unreached: None,
     }
 }
 

@@ -55,6 +55,67 @@ fn figure(i: usize, key: &str, label: &str, text: String, value: Option<f64>) ->
     }
 }
 
+/// A target out of reach: what stopped the solve, and the one-click ways on.
+fn unreached(i: usize, r: &RuleResult, project: &Project, d: &Callback<Action>) -> Html {
+    let Some(u) = &r.unreached else {
+        return html! {};
+    };
+    let unit = project.units;
+    let rule = project.rules.get(i);
+    let pair_by_width = rule.is_some_and(|rule| {
+        matches!(
+            rule.structure,
+            Structure::EdgePair | Structure::CoplanarPair
+        ) && rule.solve == Solve::Width
+    });
+    let at = if u.dimension == "spacing" {
+        r.spacing_m.unwrap_or(r.width_m)
+    } else {
+        r.width_m
+    };
+    let keep_label = if u.bound.contains("minimum") {
+        format!(
+            "Build at the fabricator's minimum {} ({})",
+            u.dimension,
+            bridge::length_label(at, unit)
+        )
+    } else {
+        format!(
+            "Build at this {} ({})",
+            u.dimension,
+            bridge::length_label(at, unit)
+        )
+    };
+    let keep = {
+        let (d, w, s) = (d.clone(), r.width_m, r.spacing_m);
+        Callback::from(move |_: MouseEvent| d.emit(Action::UseDimensions(i, w, s)))
+    };
+    let spacing = {
+        let d = d.clone();
+        Callback::from(move |_: MouseEvent| d.emit(Action::SetRuleSolve(i, Solve::Spacing)))
+    };
+    let verdict = if r.within_tolerance {
+        "inside"
+    } else {
+        "outside"
+    };
+    html! {
+        <div class="unreached" role="status" data-testid={format!("rule-{i}-unreached")}>
+            <p>
+                <strong>{ format!("Target {} Ω is out of reach", format_sig(r.target_ohm, 6)) }</strong>
+                { format!(": {} stops the {}. The figures below are the nearest reachable design, {:.2} Ω ({:+.2} %, {verdict} ±{} %).",
+                    u.bound, u.dimension, r.impedance_ohm, r.deviation_pct, format_sig(r.tolerance_pct, 3)) }
+            </p>
+            <p class="no-print alternatives">
+                if pair_by_width {
+                    <button type="button" id={format!("rule-{i}-solve-spacing")} onclick={spacing}>{ "Solve spacing instead" }</button>
+                }
+                <button type="button" id={format!("rule-{i}-keep-nearest")} onclick={keep}>{ keep_label }</button>
+            </p>
+        </div>
+    }
+}
+
 fn results(i: usize, r: &RuleResult, project: &Project, state: RowState) -> Html {
     let unit = project.units;
     let pair = bridge::z_common(r).is_some();
@@ -243,7 +304,7 @@ pub fn Rules(props: &RulesProps) -> Html {
         let outcome = props.plan.as_ref().and_then(|p| p.rules.get(i));
         let row = props.rows.get(i).copied().unwrap_or(RowState::Final);
         let body = match outcome {
-            Some(RuleOutcome::Ok(r)) => results(i, r, project, row),
+            Some(RuleOutcome::Ok(r)) => html! { <>{ unreached(i, r, project, d) }{ results(i, r, project, row) }</> },
             Some(RuleOutcome::Error { message, .. }) => html! {
                 <p class="error rule-error" data-testid={format!("rule-{i}-error")}>{ message.clone() }</p>
             },
