@@ -321,6 +321,70 @@ mod tests {
     }
 
     #[test]
+    fn a_fit_range_is_info_when_a_field_engine_made_the_figure() {
+        // A thick trace over a thin prepreg leaves the closed forms' published t/h range. On the closed form that
+        // is a caution (the figure is an extrapolation); on the field engine, whose figure does not rest on that
+        // fit, it is information. Each note is said once.
+        use crate::base::validity::Level;
+        let mut p = crate::design::demo::project();
+        if let crate::design::stackup::Layer::Prepreg(d) = &mut p.stackup.layers[2] {
+            d.thickness_m = 40e-6;
+        }
+        let mut rule = p.rules[0].clone();
+        rule.solve = crate::design::project::Solve::Nothing;
+        let closed = super::analyze_rule(&p, &rule).unwrap();
+        let fit: Vec<_> = closed
+            .warnings
+            .iter()
+            .filter(|w| w.is_fit_range())
+            .collect();
+        assert!(!fit.is_empty(), "{:?}", closed.warnings);
+        assert!(fit.iter().all(|w| w.level == Level::Caution));
+        // The same section and notes with the figure credited to the field engine.
+        let dims = crate::section::Dims {
+            w: closed.width_m,
+            s: closed.spacing_m,
+            gap: closed.gap_m,
+        };
+        let credited = super::rule_figures(
+            &p,
+            &rule,
+            closed.cross_section.clone(),
+            dims,
+            None,
+            crate::engine::BOUNDARY_METHOD,
+            closed.analysis.clone(),
+        );
+        let fit: Vec<_> = credited
+            .warnings
+            .iter()
+            .filter(|w| w.is_fit_range())
+            .collect();
+        assert!(
+            !fit.is_empty() && fit.iter().all(|w| w.level == Level::Info),
+            "{fit:?}"
+        );
+        let field = super::evaluate_rule(&p, &rule).unwrap();
+        assert!(crate::engine::is_field_method(&field.method));
+        let fit: Vec<_> = field.warnings.iter().filter(|w| w.is_fit_range()).collect();
+        assert!(fit.iter().all(|w| w.level == Level::Info), "{fit:?}");
+        for (k, w) in field.warnings.iter().enumerate() {
+            assert!(
+                !field.warnings[..k].iter().any(|x| x.message == w.message),
+                "{w:?} twice"
+            );
+        }
+        // A caution is written as before (no level key); other levels say theirs.
+        let json = serde_json::to_string(&crate::base::validity::Warning::new("x")).unwrap();
+        assert_eq!(json, r#"{"message":"x"}"#);
+        let back: crate::base::validity::Warning = serde_json::from_str(
+            &serde_json::to_string(&crate::base::validity::Warning::info("y")).unwrap(),
+        )
+        .unwrap();
+        assert_eq!(back.level, Level::Info);
+    }
+
+    #[test]
     fn preview_puts_every_rule_on_the_closed_form() {
         let mut p = crate::design::demo::project();
         for r in &mut p.rules {

@@ -318,7 +318,7 @@ fn compute(project: &Project, rule: &ImpedanceRule, engine: &Engine) -> Result<R
     let mut notes = line.notes;
     let error_estimate_pct = answer.error_estimate_pct;
     if let Some(err) = error_estimate_pct {
-        notes.push(Warning::new(format!(
+        notes.push(Warning::info(format!(
             "figures from the {} (estimated error {} %); loss from the closed-form models at these dimensions",
             answer.method,
             format_sig(err, 2)
@@ -395,6 +395,20 @@ pub fn rule_figures(
     } else {
         crate::closed_form::bands::wide_for(&cs, rule.structure, &dims)
     };
+    if crate::engine::is_field_method(method) {
+        // The field engine made the figure: a closed form's fit range (left by the loss model or a cross-check)
+        // does not bear on it.
+        for w in warnings.iter_mut().filter(|w| w.is_fit_range()) {
+            w.level = crate::base::validity::Level::Info;
+        }
+    }
+    // Each note once per rule.
+    let mut seen = Vec::new();
+    warnings.retain(|w| {
+        let fresh = !seen.contains(&w.message);
+        seen.push(w.message.clone());
+        fresh
+    });
     if let Some(band) = model_band_pct {
         warnings.push(Warning::new(format!(
             "this closed form differs from the 2D field solver by up to ±{band} % on this structure (measured, \
