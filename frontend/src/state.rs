@@ -127,8 +127,13 @@ impl TolKind {
     pub fn text(self, t: &Tolerance, unit: LengthUnit) -> String {
         match (t.abs, t.pct) {
             (Some(a), _) if self.is_length() => {
-                // Limits are finer than the trade's rounding of lengths (±12.5 µm): three significant digits.
-                format!("{} {}", format_sig(unit.from_m(a), 3), unit.symbol())
+                // A limit such as ±12.5 µm is finer than the trade's whole µm: three significant digits there; the
+                // other units are already fine enough at the trade's rounding (0.01 mil, 1 µm in mm).
+                let number = match unit {
+                    LengthUnit::Um => format_sig(unit.from_m(a), 3),
+                    _ => bridge::length_text(a, unit),
+                };
+                format!("{number} {}", unit.symbol())
             }
             (Some(a), _) => format_sig(a, 4),
             (None, Some(p)) => format!("{} %", format_sig(p, 4)),
