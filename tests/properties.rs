@@ -262,6 +262,7 @@ fn project() -> impl Strategy<Value = Project> {
                         min_space_m: ms,
                         etch_factor: etch,
                         thickness_tolerance_pct: thick,
+                        outer_plating_m: None,
                     },
                     loss,
                     process: custom_loss.then(Process::default),

@@ -32,8 +32,8 @@ impl Reducible for FieldState {
             fallback: self.fallback.clone(),
         };
         match event {
-            plan_client::Event::Submitted(generation, project) => {
-                next.plan.submitted(generation, *project)
+            plan_client::Event::Submitted(generation, project, spread) => {
+                next.plan.submitted(generation, *project, spread)
             }
             plan_client::Event::Updates(updates) => {
                 // Results for an older generation are dropped without a render.
@@ -89,6 +89,10 @@ fn recent_entries(list: &[persist::Recent], current: &str) -> Rc<Vec<(AttrValue,
     )
 }
 
+/// How long typing must pause before the tolerance spread of the value typed is asked for (common practice for
+/// search-as-you-type, no source: long enough to skip the prefixes of a number typed at a normal pace).
+const TYPING_PAUSE_MS: u32 = 500;
+
 #[component]
 pub fn App() -> Html {
     let session = use_mut_ref(Session::default);
@@ -136,18 +140,55 @@ pub fn App() -> Html {
             *planner.borrow_mut() = Some(client);
         });
     }
+    // What was asked of the plan last (the project, with the spread or not), and the pause timer while typing.
+    let sent = use_mut_ref(|| None::<(ohmstack_core::Project, bool)>);
+    let pause = use_mut_ref(|| None::<gloo::timers::callback::Timeout>);
     {
         let (planner, generation, field) =
             (planner.clone(), generation.clone(), field.dispatcher());
         let plannable = preview.is_ok();
-        use_effect_with(state.project.clone(), move |p| {
+        let typing = state.typing();
+        use_effect_with((state.project.clone(), typing), move |(p, typing)| {
+            // Sends `p` unless the last request already covers it (a spread request covers a nominal one).
+            let send = Rc::new(move |p: &ohmstack_core::Project, spread: bool| {
+                {
+                    let mut last = sent.borrow_mut();
+                    if let Some((q, s)) = &*last {
+                        if q == p && (*s || !spread) {
+                            return;
+                        }
+                    }
+                    *last = Some((p.clone(), spread));
+                }
+                let g = {
+                    let mut g = generation.borrow_mut();
+                    *g += 1;
+                    *g
+                };
+                field.dispatch(plan_client::Event::Submitted(
+                    g,
+                    Box::new(p.clone()),
+                    spread,
+                ));
+                if let Some(client) = planner.borrow().as_ref() {
+                    client.submit(g, p, spread);
+                }
+            });
+            // Any earlier pause timer is for an older project.
+            pause.borrow_mut().take();
             // A stack that cannot be planned keeps the last good figures on screen (issue 17): nothing to send.
             if plannable {
-                let mut g = generation.borrow_mut();
-                *g += 1;
-                field.dispatch(plan_client::Event::Submitted(*g, Box::new(p.clone())));
-                if let Some(client) = planner.borrow().as_ref() {
-                    client.submit(*g, p);
+                if *typing {
+                    // The figures follow each keystroke; the spread waits until typing pauses (or the field is
+                    // left, or Enter pressed), so a transient value never feeds it.
+                    send(p, false);
+                    let (send, p) = (send.clone(), p.clone());
+                    *pause.borrow_mut() = Some(gloo::timers::callback::Timeout::new(
+                        TYPING_PAUSE_MS,
+                        move || send(&p, true),
+                    ));
+                } else {
+                    send(p, true);
                 }
             }
         });
@@ -511,7 +552,8 @@ pub fn App() -> Html {
             }
             <crate::panels::share::SharePanel project={project.clone()} on_load={on_load} saved_work={(*saved_work).clone()} />
             <Layers project={project.clone()} drafts={drafts.clone()} plan={shown.clone()} dispatch={dispatch.clone()} />
-            <Rules project={project.clone()} drafts={drafts} plan={shown} {rows} {stale} dispatch={dispatch} {on_field_map} />
+            <Rules project={project.clone()} drafts={drafts.clone()} plan={shown} {rows} {stale} dispatch={dispatch.clone()} {on_field_map} />
+            <crate::panels::process::ProcessPanel project={project.clone()} {drafts} {dispatch} />
             <crate::panels::pictures::PicturesPanel project={project.clone()} plan={plan_rc.clone()} field_map={current_map} />
             <crate::panels::notes::NotesPanel project={project} plan={plan_rc} />
             <footer class="cautions">

@@ -12,14 +12,14 @@ pub fn field_options() -> PlanOptions {
     PlanOptions::with_spread()
 }
 
-/// One rule's row of the plan with `options` (a rule that cannot be computed becomes its row's message). The stack
-/// must already be valid.
+/// One rule's row of the plan with `options` (a rule that cannot be computed becomes its row's message; a target
+/// out of reach gives the nearest reachable design, marked as such). The stack must already be valid.
 pub fn plan_one_rule(
     project: &Project,
     rule: &ImpedanceRule,
     options: &PlanOptions,
 ) -> RuleOutcome {
-    ohmstack_core::plan::plan_rule(project, rule, options)
+    ohmstack_core::plan::plan_rule_or_nearest(project, rule, options)
 }
 
 /// The plan's stack rows, thickness and symmetry without any rule (the rules' rows are added by the caller); a

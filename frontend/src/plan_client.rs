@@ -33,7 +33,8 @@ impl Runner {
 #[derive(Debug, Clone, PartialEq)]
 pub enum Event {
     Started(Runner),
-    Submitted(u64, Box<Project>),
+    /// A request went out for the project, with the tolerance spread or (while typing) without.
+    Submitted(u64, Box<Project>, bool),
     /// Updates that arrived together (rendered at once).
     Updates(Vec<Update>),
     Fallback(String),
@@ -201,11 +202,13 @@ impl PlanClient {
         }
     }
 
-    /// Asks for the field plan of `project` under `generation` (higher than every earlier one).
-    pub fn submit(&self, generation: u64, project: &Project) {
+    /// Asks for the field plan of `project` under `generation` (higher than every earlier one), with the
+    /// tolerance spread when `spread`.
+    pub fn submit(&self, generation: u64, project: &Project, spread: bool) {
         let request = Request {
             generation,
             project: serde_json::to_string(project).unwrap_or_default(),
+            spread,
         };
         self.send(request);
     }

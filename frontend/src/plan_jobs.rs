@@ -13,6 +13,14 @@ pub struct Request {
     pub generation: u64,
     /// The project as JSON (plain serde: the page's project is already valid and migrated).
     pub project: String,
+    /// Whether to follow each rule's nominal figures with its tolerance spread. False while the user is typing:
+    /// a transient value (the "2" on the way to "210") gets its figures but never feeds the spread (issue 17).
+    #[serde(default = "yes")]
+    pub spread: bool,
+}
+
+fn yes() -> bool {
+    true
 }
 
 /// What the worker reports, each for the generation it was asked under.
@@ -108,6 +116,8 @@ struct Job {
     next: usize,
     /// Rule `next` has posted its nominal figures; its spread is due.
     spread_due: bool,
+    /// The request asks for the spread (see [`Request::spread`]).
+    spread: bool,
 }
 
 /// The worker's state: the newest request, how far it got, and the cache. Each [`Planner::step`] does one rule, so
@@ -162,6 +172,7 @@ impl Planner {
                     project,
                     next: 0,
                     spread_due: false,
+                    spread: request.spread,
                 })
             }
             Err(message) => self.failure = Some((request.generation, message)),
@@ -224,12 +235,18 @@ impl Planner {
             spread_samples: 0,
             ..self.options
         };
+        // The nominal figures are cached too, under their own options: a request with the spread after a pause in
+        // typing starts from them.
+        let nominal_key = rule_key(&job.project, rule, &nominal);
         let (outcome, complete, computed) = if job.spread_due {
             (plan_one_rule(&job.project, rule, &self.options), true, true)
         } else if let Some(hit) = self.cache.get(&key) {
             (hit, true, false)
         } else if nominal == self.options {
             (plan_one_rule(&job.project, rule, &self.options), true, true)
+        } else if let Some(hit) = self.cache.get(&nominal_key) {
+            let complete = matches!(hit, RuleOutcome::Error { .. });
+            (hit, complete, false)
         } else {
             let outcome = plan_one_rule(&job.project, rule, &nominal);
             // A rule that cannot be computed has no spread to follow.
@@ -244,7 +261,14 @@ impl Planner {
                 self.cache.put(key, outcome.clone());
             }
         } else {
-            job.spread_due = true;
+            if computed {
+                self.cache.put(nominal_key, outcome.clone());
+            }
+            if job.spread {
+                job.spread_due = true;
+            } else {
+                job.next += 1;
+            }
         }
         Some(Update::Rule {
             generation: job.generation,
@@ -310,16 +334,22 @@ pub struct FieldPlan {
     pub computations: u64,
     /// Why the generation could not be planned, when it could not.
     pub failure: Option<String>,
+    /// The generation asks for the tolerance spread (not while typing).
+    pub spread: bool,
 }
 
 impl FieldPlan {
-    /// A new generation was sent for `project`: nothing of it has landed yet.
-    pub fn submitted(&mut self, generation: u64, project: Project) {
+    /// A new generation was sent for `project`: nothing of it has landed yet. When the project is the one already
+    /// on screen (the spread asked for once typing paused), its landed rows stay until the new ones replace them.
+    pub fn submitted(&mut self, generation: u64, project: Project, spread: bool) {
         self.generation = generation;
-        self.rules = vec![None; project.rules.len()];
-        self.project = Some(project);
+        if self.project.as_ref() != Some(&project) {
+            self.rules = vec![None; project.rules.len()];
+            self.project = Some(project);
+        }
         self.done = false;
         self.failure = None;
+        self.spread = spread;
     }
 
     /// Takes a worker update; returns false (and changes nothing) when it is for another generation.
@@ -372,7 +402,7 @@ impl FieldPlan {
                 |(i, row)| match self.rules.get(i).and_then(|r| r.as_ref()) {
                     Some((field, complete)) if current => {
                         *row = field.clone();
-                        if *complete || self.done {
+                        if *complete || (self.done && self.spread) {
                             RowState::Final
                         } else {
                             RowState::Nominal
@@ -386,9 +416,9 @@ impl FieldPlan {
         (plan, states)
     }
 
-    /// Every rule of `project` has its field figures (or nothing more is coming for it).
+    /// Every rule of `project` has its field figures and spread (or nothing more is coming for it).
     pub fn settled_for(&self, project: &Project) -> bool {
-        self.done && self.project.as_ref() == Some(project)
+        self.done && self.spread && self.project.as_ref() == Some(project)
     }
 }
 
@@ -401,6 +431,7 @@ mod tests {
         Request {
             generation,
             project: serde_json::to_string(project).unwrap(),
+            spread: true,
         }
     }
 
@@ -416,8 +447,8 @@ mod tests {
     #[test]
     fn every_rule_lands_nominal_then_complete_and_equals_the_whole_plan() {
         let mut p = demo::project();
-        // An unreachable target: an error row, final at once (no spread follows).
-        p.rules[1].target_ohm = 400.0;
+        // A rule on a layer that does not exist: an error row, final at once (no spread follows).
+        p.rules[1].layer = "no such layer".into();
         let mut planner = Planner::default();
         planner.request(&request(1, &p));
         let updates = run(&mut planner);
@@ -573,6 +604,7 @@ mod tests {
         planner.request(&Request {
             generation: 2,
             project: "{".into(),
+            spread: true,
         });
         assert!(
             matches!(planner.step(), Some(Update::Failed { generation: 2, message }) if message.contains("could not be read"))
@@ -588,7 +620,7 @@ mod tests {
         planner.request(&request(2, &p));
         let updates = run(&mut planner);
         let mut field = FieldPlan::default();
-        field.submitted(2, p.clone());
+        field.submitted(2, p.clone(), true);
         let (shown, states) = field.merge(&p, &preview);
         assert_eq!(shown, preview);
         assert!(states.iter().all(|&s| s == RowState::Preview));
@@ -630,6 +662,83 @@ mod tests {
             .1
             .iter()
             .all(|&s| s == RowState::Preview));
+    }
+
+    #[test]
+    fn while_typing_only_nominal_figures_are_asked_and_the_spread_follows_the_pause() {
+        // Issue 17: a transient value never feeds the spread. The page asks without it while typing, then asks
+        // again with it for the same project once typing pauses; the nominal figures are not computed twice.
+        let mut p = demo::project();
+        p.rules.truncate(2);
+        let mut planner = Planner::default();
+        let typing = Request {
+            spread: false,
+            ..request(1, &p)
+        };
+        planner.request(&typing);
+        let updates = run(&mut planner);
+        assert_eq!(updates.len(), p.rules.len() + 1);
+        for u in &updates[..p.rules.len()] {
+            match u {
+                Update::Rule {
+                    outcome,
+                    complete: false,
+                    computed: true,
+                    ..
+                } => assert!(outcome.ok().unwrap().spread.is_none()),
+                other => panic!("expected nominal figures, got {other:?}"),
+            }
+        }
+        // Nominal figures alone are not counted as rules computed in full.
+        assert_eq!(planner.computations(), 0);
+        let mut field = FieldPlan::default();
+        field.submitted(1, p.clone(), false);
+        for u in updates {
+            assert!(field.apply(u));
+        }
+        let preview = ohmstack_core::plan_with(&p, &ohmstack_core::PlanOptions::preview()).unwrap();
+        assert!(field
+            .merge(&p, &preview)
+            .1
+            .iter()
+            .all(|&s| s == RowState::Nominal));
+        assert!(!field.settled_for(&p), "no spread yet");
+        // The pause: the same project with the spread. Rows already landed stay on screen meanwhile.
+        field.submitted(2, p.clone(), true);
+        assert!(field
+            .merge(&p, &preview)
+            .1
+            .iter()
+            .all(|&s| s == RowState::Nominal));
+        planner.request(&request(2, &p));
+        let batch = planner.run_batch();
+        // The cached nominal figures travel with the first spread computed.
+        assert!(matches!(
+            batch[..],
+            [
+                Update::Rule {
+                    index: 0,
+                    computed: false,
+                    complete: false,
+                    ..
+                },
+                Update::Rule {
+                    index: 0,
+                    computed: true,
+                    complete: true,
+                    ..
+                }
+            ]
+        ));
+        for u in batch.into_iter().chain(run(&mut planner)) {
+            assert!(field.apply(u));
+        }
+        assert!(field.settled_for(&p));
+        let (shown, states) = field.merge(&p, &preview);
+        assert!(states.iter().all(|&s| s == RowState::Final));
+        let whole = ohmstack_core::plan_with(&p, &options()).unwrap();
+        assert_eq!(shown.rules, whole.rules);
+        assert_eq!(planner.computations(), p.rules.len() as u64);
     }
 
     #[test]

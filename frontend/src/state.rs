@@ -2,13 +2,16 @@
 //! Plain Rust (no DOM), so every edit rule is unit-tested natively.
 //!
 //! Invariant: `project.stackup` always validates. An edit that would break it is not applied; the typed text stays
-//! in its field with the core's message, and the last good project (and so the last good plan) is kept.
+//! in its field with the core's message, and the project goes back to what it was when that edit began (issue 17:
+//! a typo "12o" shows the figures of the value held before the edit, never those of the valid prefix "12").
 
 use crate::bridge;
 use ohmstack_core::base::error;
-use ohmstack_core::base::units::{LengthUnit, OZ_COPPER};
+use ohmstack_core::base::units::{format_sig, LengthUnit, OZ_COPPER};
 use ohmstack_core::design::material::{self, PresetUse};
+use ohmstack_core::design::process::{Distribution, LayerProcess, Process, Tolerance};
 use ohmstack_core::design::project::{ImpedanceRule, RuleModel, Solve, Structure};
+use ohmstack_core::design::roughness::Foil;
 use ohmstack_core::design::stackup::{Copper, CopperRole, Dielectric};
 use ohmstack_core::{Layer, Project};
 use std::collections::BTreeMap;
@@ -27,6 +30,172 @@ pub enum LayerField {
     Df,
     SpecFreq,
     Material,
+    /// Copper fill, % (blank: the role's default).
+    Fill,
+    /// An outer copper layer's base foil under the plating.
+    BaseFoil,
+    /// This layer's thickness ± limit (blank: the project's limit for its kind).
+    TolThickness,
+    /// This layer's Dk ± limit (blank: the project's).
+    TolDk,
+}
+
+/// A ± limit of the process that the tolerance spread varies.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash)]
+pub enum TolKind {
+    EtchWidth,
+    EtchFactor,
+    CoreThickness,
+    PrepregThickness,
+    Dk,
+    CopperThickness,
+    MaskThickness,
+}
+
+impl TolKind {
+    pub const ALL: [TolKind; 7] = [
+        TolKind::EtchWidth,
+        TolKind::EtchFactor,
+        TolKind::CoreThickness,
+        TolKind::PrepregThickness,
+        TolKind::Dk,
+        TolKind::CopperThickness,
+        TolKind::MaskThickness,
+    ];
+    pub fn key(self) -> &'static str {
+        match self {
+            TolKind::EtchWidth => "etch-width",
+            TolKind::EtchFactor => "etch-factor",
+            TolKind::CoreThickness => "core-thickness",
+            TolKind::PrepregThickness => "prepreg-thickness",
+            TolKind::Dk => "dk",
+            TolKind::CopperThickness => "copper-thickness",
+            TolKind::MaskThickness => "mask-thickness",
+        }
+    }
+    /// The name in tables and messages.
+    pub fn label(self) -> &'static str {
+        match self {
+            TolKind::EtchWidth => "Etched width",
+            TolKind::EtchFactor => "Etch factor",
+            TolKind::CoreThickness => "Core thickness",
+            TolKind::PrepregThickness => "Prepreg thickness",
+            TolKind::Dk => "Laminate Dk",
+            TolKind::CopperThickness => "Copper thickness",
+            TolKind::MaskThickness => "Solder mask thickness",
+        }
+    }
+    /// What the limit covers, in a few words.
+    pub fn what(self) -> &'static str {
+        match self {
+            TolKind::EtchWidth => "whole trace width, both edges together",
+            TolKind::EtchFactor => "varied only when an etch factor is set below",
+            TolKind::CoreThickness => "every core",
+            TolKind::PrepregThickness => "every prepreg, pressed",
+            TolKind::Dk => "cores and prepregs; mask Dk is held unless a layer says",
+            TolKind::CopperThickness => "every copper layer, finished",
+            TolKind::MaskThickness => "over the trace",
+        }
+    }
+    /// Lengths take a length or a percentage; Dk and etch factor a plain number or a percentage.
+    pub fn is_length(self) -> bool {
+        !matches!(self, TolKind::Dk | TolKind::EtchFactor)
+    }
+    pub fn get(self, p: &Process) -> Tolerance {
+        match self {
+            TolKind::EtchWidth => p.etch_width,
+            TolKind::EtchFactor => p.etch_factor,
+            TolKind::CoreThickness => p.core_thickness,
+            TolKind::PrepregThickness => p.prepreg_thickness,
+            TolKind::Dk => p.dk,
+            TolKind::CopperThickness => p.copper_thickness,
+            TolKind::MaskThickness => p.mask_thickness,
+        }
+    }
+    fn get_mut(self, p: &mut Process) -> &mut Tolerance {
+        match self {
+            TolKind::EtchWidth => &mut p.etch_width,
+            TolKind::EtchFactor => &mut p.etch_factor,
+            TolKind::CoreThickness => &mut p.core_thickness,
+            TolKind::PrepregThickness => &mut p.prepreg_thickness,
+            TolKind::Dk => &mut p.dk,
+            TolKind::CopperThickness => &mut p.copper_thickness,
+            TolKind::MaskThickness => &mut p.mask_thickness,
+        }
+    }
+    /// A limit as editable text: "12.5 µm", "10 %", "0.2".
+    pub fn text(self, t: &Tolerance, unit: LengthUnit) -> String {
+        match (t.abs, t.pct) {
+            (Some(a), _) if self.is_length() => {
+                // A limit such as ±12.5 µm is finer than the trade's whole µm: three significant digits there; the
+                // other units are already fine enough at the trade's rounding (0.01 mil, 1 µm in mm).
+                let number = match unit {
+                    LengthUnit::Um => format_sig(unit.from_m(a), 3),
+                    _ => bridge::length_text(a, unit),
+                };
+                format!("{number} {}", unit.symbol())
+            }
+            (Some(a), _) => format_sig(a, 4),
+            (None, Some(p)) => format!("{} %", format_sig(p, 4)),
+            (None, None) => String::new(),
+        }
+    }
+    /// Reads a limit typed for this quantity (keeping `distribution`); errors name it in the user's words.
+    pub fn parse(
+        self,
+        name: &str,
+        text: &str,
+        unit: LengthUnit,
+        distribution: Distribution,
+    ) -> Result<Tolerance, String> {
+        let t = text
+            .trim()
+            .trim_start_matches('±')
+            .trim_start_matches("+-")
+            .trim();
+        let e = |r: ohmstack_core::Result<f64>| r.map_err(|e| e.to_string());
+        let tol = if let Some(p) = t.strip_suffix('%') {
+            let v = bridge::parse_number(name, p.trim(), &[])?;
+            Tolerance::pct(e(error::in_range(name, v, 0.0, 50.0, "%"))?)
+        } else if self.is_length() {
+            let v = bridge::parse_length(name, t, unit)?;
+            if !(0.0..=1e-3).contains(&v) {
+                return Err(format!(
+                    "{name}: {} is more than 1 mm; give a length such as 10 µm, or a percentage such as 10 %",
+                    bridge::length_label(v, unit)
+                ));
+            }
+            Tolerance::abs(v)
+        } else {
+            let max = if self == TolKind::Dk { 5.0 } else { 50.0 };
+            let v = bridge::parse_number(name, t, &[])?;
+            Tolerance::abs(e(error::in_range(name, v, 0.0, max, ""))?)
+        };
+        Ok(tol.with(distribution))
+    }
+}
+
+/// A project-wide process or fabrication field.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash)]
+pub enum ProcessField {
+    /// `fab.etch_factor` (blank: rectangular traces).
+    EtchFactor,
+    /// `fab.outer_plating_m` (blank: not given).
+    OuterPlating,
+    /// `fab.thickness_tolerance_pct` (blank: the common ±10 %).
+    BoardThicknessTol,
+    Tol(TolKind),
+}
+
+impl ProcessField {
+    pub fn key(self) -> String {
+        match self {
+            ProcessField::EtchFactor => "etch-factor".into(),
+            ProcessField::OuterPlating => "outer-plating".into(),
+            ProcessField::BoardThicknessTol => "board-thickness-tol".into(),
+            ProcessField::Tol(k) => format!("tol-{}", k.key()),
+        }
+    }
 }
 
 /// An editable text field of a rule.
@@ -50,6 +219,7 @@ pub enum Field {
     MinSpace,
     Layer(usize, LayerField),
     Rule(usize, RuleField),
+    Process(ProcessField),
 }
 
 impl Field {
@@ -70,8 +240,16 @@ impl Field {
                     LayerField::Df => "df",
                     LayerField::SpecFreq => "spec-freq",
                     LayerField::Material => "material",
+                    LayerField::Fill => "fill",
+                    LayerField::BaseFoil => "base-foil",
+                    LayerField::TolThickness => "tol-thickness",
+                    LayerField::TolDk => "tol-dk",
                 }
             ),
+            Field::Process(p) => match p {
+                ProcessField::Tol(_) => p.key(),
+                _ => format!("fab-{}", p.key()),
+            },
             Field::Rule(i, f) => format!(
                 "rule-{i}-{}-input",
                 match f {
@@ -156,8 +334,18 @@ pub struct State {
     pub redo: Vec<Project>,
     pub drafts: BTreeMap<Field, Draft>,
     pub notice: Option<Notice>,
-    /// The field the last edit went to: further typing in it extends the same undo step.
-    last_field: Option<Field>,
+    /// The edit in progress: further typing in its field extends the same undo step and is applied to the project
+    /// as it was when the edit began.
+    editing: Option<EditStart>,
+}
+
+/// The project as it was when typing into one field began.
+#[derive(Debug, Clone, PartialEq)]
+struct EditStart {
+    field: Field,
+    project: Project,
+    /// Whether that project has been pushed onto the undo history by this edit.
+    pushed: bool,
 }
 
 impl Default for State {
@@ -195,6 +383,13 @@ pub enum Action {
     SetRuleSolve(usize, Solve),
     SetRuleModel(usize, RuleModel),
     SetRulePartner(usize, String),
+    /// Build a rule as shown: these width and spacing, solving for nothing (the nearest design to a target out of
+    /// reach).
+    UseDimensions(usize, f64, Option<f64>),
+    /// The distribution of one process limit.
+    SetDistribution(TolKind, Distribution),
+    /// A copper layer's surface: a generic foil class, or smooth (`None`).
+    SetFoil(usize, Option<Foil>),
     Undo,
     Redo,
     /// Replace the whole project (new, open, demo); undoable. The message says what was opened; the reducer adds
@@ -264,7 +459,7 @@ impl State {
             redo: Vec::new(),
             drafts: BTreeMap::new(),
             notice: None,
-            last_field: None,
+            editing: None,
         }
     }
 
@@ -288,54 +483,216 @@ impl State {
         self.drafts.values().any(|d| d.error.is_some())
     }
 
-    /// Stores `project` as the new current design, remembering the old one for undo.
-    fn commit(&mut self, project: Project, field: Option<Field>) {
+    /// Stores `project` as the new current design, remembering the old one for undo; ends any edit in progress.
+    fn commit(&mut self, project: Project) {
+        self.editing = None;
         if project == self.project {
             return;
         }
-        let coalesce = field.is_some() && field == self.last_field;
-        if !coalesce {
-            let old = std::mem::replace(&mut self.project, project);
-            self.undo.push(old);
-            if self.undo.len() > HISTORY_LIMIT {
-                let excess = self.undo.len() - HISTORY_LIMIT;
-                self.undo.drain(..excess);
-            }
-        } else {
-            self.project = project;
+        let old = std::mem::replace(&mut self.project, project);
+        self.push_undo(old);
+    }
+
+    fn push_undo(&mut self, old: Project) {
+        self.undo.push(old);
+        if self.undo.len() > HISTORY_LIMIT {
+            let excess = self.undo.len() - HISTORY_LIMIT;
+            self.undo.drain(..excess);
         }
         self.redo.clear();
-        self.last_field = field;
     }
 
     /// A structural change: drafts refer to positions that may have moved, so they go.
     fn structural(&mut self, project: Project) {
         self.drafts.clear();
-        self.commit(project, None);
+        self.commit(project);
     }
 
+    /// True while text is being typed into a field (until it loses focus or Enter is pressed): the figures follow
+    /// each keystroke, the tolerance spread waits for a pause (app.rs).
+    pub fn typing(&self) -> bool {
+        self.editing.is_some()
+    }
+
+    /// Ends the edit in progress: the next keystroke anywhere starts a new undo step from the project as it is.
+    fn end_edit(&mut self) {
+        self.editing = None;
+    }
+
+    /// Typing into `field`: the text is applied to the project as it was when this edit began, so an invalid text
+    /// leaves exactly that project (not the last valid prefix) and every keystroke of one field is one undo step.
     fn edit(&mut self, field: Field, text: String) {
-        match self.apply_text(field, &text) {
-            Ok(project) => {
-                self.drafts.insert(field, Draft { text, error: None });
-                self.commit(project, Some(field));
+        let mut start = match self.editing.take() {
+            Some(e) if e.field == field => e,
+            _ => EditStart {
+                field,
+                project: self.project.clone(),
+                pushed: false,
+            },
+        };
+        let base = start.project.clone();
+        let (project, error) = match Self::apply_text_to(&base, field, &text) {
+            Ok(project) => (project, None),
+            Err(message) => (base.clone(), Some(user_words(&message))),
+        };
+        self.drafts.insert(field, Draft { text, error });
+        let changed = project != base;
+        if changed && !start.pushed {
+            self.push_undo(base);
+            start.pushed = true;
+        } else if !changed && start.pushed {
+            // Back to where the edit began: the step it opened holds nothing.
+            self.undo.pop();
+            start.pushed = false;
+        }
+        self.project = project;
+        self.editing = Some(start);
+    }
+
+    /// A project-wide process field typed as `text`.
+    fn process_text(p: &mut Project, f: ProcessField, text: &str) -> Result<(), String> {
+        let unit = p.units;
+        let e = |r: ohmstack_core::Result<f64>| r.map_err(|e| e.to_string());
+        let blank = text.trim().is_empty();
+        match f {
+            ProcessField::EtchFactor => {
+                p.fab.etch_factor = if blank {
+                    None
+                } else {
+                    let v = bridge::parse_number("etch factor", text, &[])?;
+                    Some(e(error::in_range("etch factor", v, 0.5, 100.0, ""))?)
+                };
             }
-            Err(message) => {
-                self.drafts.insert(
-                    field,
-                    Draft {
+            ProcessField::BoardThicknessTol => {
+                p.fab.thickness_tolerance_pct = if blank {
+                    None
+                } else {
+                    let v = bridge::parse_number("board thickness tolerance", text, &["%"])?;
+                    Some(e(error::in_range(
+                        "board thickness tolerance",
+                        v,
+                        0.0,
+                        50.0,
+                        "%",
+                    ))?)
+                };
+            }
+            ProcessField::OuterPlating => {
+                // The outer layers keep their base foil: the finished thickness is foil plus the new plating.
+                let old = p.fab.outer_plating_m.unwrap_or(0.0);
+                let new = if blank {
+                    None
+                } else {
+                    let v = bridge::parse_length("outer plating", text, unit)?;
+                    if !(0.0..=ohmstack_core::design::project::MAX_OUTER_PLATING_M).contains(&v) {
+                        return Err(format!(
+                            "outer plating: {} is outside 0 to {}",
+                            bridge::length_label(v, unit),
+                            bridge::length_label(
+                                ohmstack_core::design::project::MAX_OUTER_PLATING_M,
+                                unit
+                            )
+                        ));
+                    }
+                    Some(v)
+                };
+                let outer: Vec<String> = p
+                    .stackup
+                    .outer_coppers()
+                    .iter()
+                    .map(|c| c.name.clone())
+                    .collect();
+                for layer in &mut p.stackup.layers {
+                    if let Layer::Copper(c) = layer {
+                        if outer.contains(&c.name) {
+                            c.thickness_m = c.thickness_m - old + new.unwrap_or(0.0);
+                        }
+                    }
+                }
+                p.fab.outer_plating_m = new;
+            }
+            ProcessField::Tol(k) => {
+                let mut process = p.process.clone().unwrap_or_default();
+                let current = k.get(&process);
+                *k.get_mut(&mut process) = if blank {
+                    k.get(&Process::default()).with(current.distribution)
+                } else {
+                    k.parse(
+                        &format!("{} tolerance", k.label().to_lowercase()),
                         text,
-                        error: Some(message),
-                    },
-                );
+                        unit,
+                        current.distribution,
+                    )?
+                };
+                p.process = Some(process);
             }
         }
+        p.validate().map_err(|e| e.to_string())
+    }
+
+    /// One layer's own thickness or Dk ± limit; blank gives the layer back to the project's limit.
+    fn layer_tolerance(p: &mut Project, i: usize, f: LayerField, text: &str) -> Result<(), String> {
+        let unit = p.units;
+        let Some(layer) = p.stackup.layers.get(i) else {
+            return Err("this layer no longer exists".into());
+        };
+        let name = layer.name().to_string();
+        let (kind, what) = match (f, layer) {
+            (LayerField::TolDk, Layer::Copper(_)) => {
+                return Err(format!("{name}: copper has no Dk"));
+            }
+            (LayerField::TolDk, _) => (TolKind::Dk, format!("{name} Dk tolerance")),
+            (_, Layer::Copper(_)) => (
+                TolKind::CopperThickness,
+                format!("{name} thickness tolerance"),
+            ),
+            (_, Layer::Core(_)) => (
+                TolKind::CoreThickness,
+                format!("{name} thickness tolerance"),
+            ),
+            (_, Layer::Prepreg(_)) => (
+                TolKind::PrepregThickness,
+                format!("{name} thickness tolerance"),
+            ),
+            (_, Layer::SolderMask(_)) => (
+                TolKind::MaskThickness,
+                format!("{name} thickness tolerance"),
+            ),
+        };
+        let mut process = p.process.clone().unwrap_or_default();
+        let at = process.layers.iter().position(|o| o.layer == name);
+        let tol = if text.trim().is_empty() {
+            None
+        } else {
+            Some(kind.parse(&what, text, unit, kind.get(&process).distribution)?)
+        };
+        let entry = match at {
+            Some(k) => &mut process.layers[k],
+            None => {
+                process.layers.push(LayerProcess {
+                    layer: name,
+                    thickness: None,
+                    dk: None,
+                });
+                process.layers.last_mut().expect("just pushed")
+            }
+        };
+        if f == LayerField::TolDk {
+            entry.dk = tol;
+        } else {
+            entry.thickness = tol;
+        }
+        process
+            .layers
+            .retain(|o| o.thickness.is_some() || o.dk.is_some());
+        p.process = Some(process);
+        p.validate().map_err(|e| e.to_string())
     }
 
     /// The project with `text` applied to `field`, or the core's message why it cannot be.
-    fn apply_text(&self, field: Field, text: &str) -> Result<Project, String> {
-        let unit = self.project.units;
-        let mut p = self.project.clone();
+    fn apply_text_to(base: &Project, field: Field, text: &str) -> Result<Project, String> {
+        let unit = base.units;
+        let mut p = base.clone();
         let e = |r: ohmstack_core::Result<f64>| r.map_err(|e| e.to_string());
         match field {
             Field::Title => {
@@ -360,11 +717,15 @@ impl State {
                 let v = bridge::parse_length("minimum space", text, unit)?;
                 p.fab.min_space_m = e(error::length("minimum space", v))?;
             }
+            Field::Layer(i, f @ (LayerField::TolThickness | LayerField::TolDk)) => {
+                Self::layer_tolerance(&mut p, i, f, text)?
+            }
             Field::Layer(i, f) => {
                 let Some(layer) = p.stackup.layers.get_mut(i) else {
                     return Err("this layer no longer exists".into());
                 };
                 let old_name = layer.name().to_string();
+                let name = old_name.clone();
                 match (f, &mut *layer) {
                     (LayerField::Name, layer) => rename_layer(layer, text.trim().to_string()),
                     (LayerField::Thickness, Layer::Copper(c)) => {
@@ -381,8 +742,23 @@ impl State {
                             d.spec_freq_hz = bridge::parse_frequency_ghz("spec_freq", text)?
                         }
                         LayerField::Material => d.material = text.to_string(),
-                        LayerField::Name | LayerField::Thickness => {}
+                        _ => return Err(format!("{name}: a dielectric has no such field")),
                     },
+                    (LayerField::Fill, Layer::Copper(c)) => {
+                        let what = format!("{name} copper fill");
+                        c.fill_pct = if text.trim().is_empty() {
+                            None
+                        } else {
+                            let v = bridge::parse_number(&what, text, &["%"])?;
+                            Some(e(error::in_range(&what, v, 0.0, 100.0, "%"))?)
+                        };
+                    }
+                    (LayerField::BaseFoil, Layer::Copper(c)) => {
+                        let what = format!("{name} base foil");
+                        let v = bridge::parse_length(&what, text, unit)?;
+                        let foil = e(error::length(&what, v))?;
+                        c.thickness_m = foil + base.fab.outer_plating_m.unwrap_or(0.0);
+                    }
                     (_, Layer::Copper(_)) => return Err("copper has no such field".into()),
                 }
                 p.stackup.validate().map_err(|e| e.to_string())?;
@@ -401,8 +777,15 @@ impl State {
                             }
                         }
                     }
+                    // A layer's own process limits follow its name.
+                    for o in p.process.iter_mut().flat_map(|pr| pr.layers.iter_mut()) {
+                        if o.layer == old_name {
+                            o.layer = new_name.clone();
+                        }
+                    }
                 }
             }
+            Field::Process(f) => Self::process_text(&mut p, f, text)?,
             Field::Rule(i, f) => {
                 let Some(rule) = p.rules.get_mut(i) else {
                     return Err("this rule no longer exists".into());
@@ -565,7 +948,11 @@ impl State {
                     return;
                 }
                 if i < n {
-                    p.stackup.layers.remove(i);
+                    let gone = p.stackup.layers.remove(i);
+                    // Its own process limits go with it.
+                    if let Some(pr) = p.process.as_mut() {
+                        pr.layers.retain(|o| o.layer != gone.name());
+                    }
                 }
             }
             Action::DuplicateLayer(i) => {
@@ -669,6 +1056,14 @@ impl State {
             Action::SetRuleModel(i, model) if i < n => {
                 p.rules[i].model = model;
             }
+            Action::UseDimensions(i, width_m, spacing_m) if i < n => {
+                let r = &mut p.rules[i];
+                r.width_m = width_m;
+                if spacing_m.is_some() {
+                    r.spacing_m = spacing_m;
+                }
+                r.solve = Solve::Nothing;
+            }
             Action::SetRulePartner(i, partner) if i < n => {
                 p.rules[i].partner_layer = Some(partner);
             }
@@ -691,7 +1086,7 @@ impl State {
         let current = std::mem::replace(&mut self.project, project);
         to.push(current);
         self.drafts.clear();
-        self.last_field = None;
+        self.editing = None;
     }
 }
 
@@ -710,12 +1105,13 @@ impl Reducible for State {
                 if s.drafts.get(&field).is_some_and(|d| d.error.is_none()) {
                     s.drafts.remove(&field);
                 }
-                s.last_field = None;
+                s.end_edit();
             }
             Action::SetUnit(unit) => {
                 // Only the display changes; valid drafts are re-shown in the new unit, stored metres stay as they are.
                 s.project.units = unit;
                 s.drafts.retain(|_, d| d.error.is_some());
+                s.end_edit();
             }
             a @ (Action::SetLayerKind(..)
             | Action::SetCopperRole(..)
@@ -733,7 +1129,22 @@ impl Reducible for State {
             | Action::SetRuleStructure(..)
             | Action::SetRuleSolve(..)
             | Action::SetRuleModel(..)
-            | Action::SetRulePartner(..)) => s.rule_action(a),
+            | Action::SetRulePartner(..)
+            | Action::UseDimensions(..)) => s.rule_action(a),
+            Action::SetDistribution(k, distribution) => {
+                let mut p = s.project.clone();
+                let mut process = p.process.clone().unwrap_or_default();
+                k.get_mut(&mut process).distribution = distribution;
+                p.process = Some(process);
+                s.commit(p);
+            }
+            Action::SetFoil(i, foil) => {
+                let mut p = s.project.clone();
+                if let Some(Layer::Copper(c)) = p.stackup.layers.get_mut(i) {
+                    c.roughness = foil.map(Foil::hammerstad_groiss);
+                    s.commit(p);
+                }
+            }
             Action::Undo => s.step(true),
             Action::Redo => s.step(false),
             Action::Load(project, message) => {
@@ -761,6 +1172,25 @@ impl Reducible for State {
         } else {
             Rc::new(s)
         }
+    }
+}
+
+/// A core message in the user's words: a leading `layers[2] "PP1".thickness` or `rules[5] "USB".width` path
+/// becomes `PP1 thickness` / `USB width` (the name, never the position).
+pub fn user_words(message: &str) -> String {
+    let Some((path, rest)) = message.split_once(": ") else {
+        return message.to_string();
+    };
+    let named = ["layers[", "rules["].iter().find_map(|p| {
+        let after = path.strip_prefix(p)?;
+        let (_, tail) = after.split_once("] \"")?;
+        let (name, field) = tail.split_once('"')?;
+        let field = field.trim_start_matches('.').replace(['.', '_'], " ");
+        Some(format!("{name} {field}").trim_end().to_string())
+    });
+    match named {
+        Some(path) => format!("{path}: {rest}"),
+        None => message.to_string(),
     }
 }
 
@@ -829,6 +1259,211 @@ mod tests {
     }
 
     #[test]
+    fn a_typo_shows_the_value_held_before_the_edit_not_the_last_valid_prefix() {
+        // Issue 17: "12o" on the way from PP1's 120 µm to 130 µm. The prefix "12" is valid (12 µm) but is not
+        // what the user means; while the text is invalid, the project is the one from before the edit began.
+        let field = Field::Layer(2, LayerField::Thickness);
+        let s0 = State::default();
+        let mut s = s0.clone();
+        for text in ["1", "12"] {
+            s = reduce(s, Action::Edit(field, text.into()));
+            assert!(s.typing());
+        }
+        assert!((thickness_of(&s, 2) - 12e-6).abs() < 1e-15);
+        assert_eq!(s.undo, vec![s0.project.clone()]);
+        s = reduce(s, Action::Edit(field, "12o".into()));
+        assert_eq!(s.project, s0.project, "the pre-edit project, not 12 µm");
+        assert!(
+            s.undo.is_empty(),
+            "an edit that changed nothing leaves no undo step"
+        );
+        assert_eq!(s.drafts[&field].text, "12o");
+        assert!(s.drafts[&field]
+            .error
+            .as_deref()
+            .unwrap()
+            .contains("thickness"));
+        // The correction applies to the pre-edit project as one undo step.
+        s = reduce(s, Action::Edit(field, "130".into()));
+        assert!((thickness_of(&s, 2) - 130e-6).abs() < 1e-15);
+        assert_eq!(s.undo, vec![s0.project.clone()]);
+        // Leaving the field (or Enter) ends the edit; an invalid text left there keeps the pre-edit project.
+        s = reduce(s, Action::Blur(field));
+        assert!(!s.typing());
+        let edited = s.project.clone();
+        s = reduce(s, Action::Edit(field, "9x".into()));
+        assert_eq!(s.project, edited);
+        s = reduce(s, Action::Blur(field));
+        assert_eq!(s.project, edited);
+        assert_eq!(s.drafts[&field].text, "9x", "nothing typed is lost");
+        s = reduce(s, Action::Undo);
+        assert_eq!(s.project, s0.project);
+    }
+
+    #[test]
+    fn an_edit_in_another_field_starts_from_the_current_project() {
+        let a = Field::Layer(2, LayerField::Thickness);
+        let b = Field::Layer(2, LayerField::Dk);
+        let s = reduce(State::default(), Action::Edit(a, "150".into()));
+        let s = reduce(s, Action::Edit(b, "4.4".into()));
+        assert!((thickness_of(&s, 2) - 150e-6).abs() < 1e-15);
+        assert_eq!(s.project.stackup.layers[2].dielectric().unwrap().dk, 4.4);
+        assert_eq!(s.undo.len(), 2);
+        // A typo in the second field goes back to the project its edit began from: the first edit stays.
+        let s = reduce(s, Action::Edit(b, "4.4q".into()));
+        assert!((thickness_of(&s, 2) - 150e-6).abs() < 1e-15);
+        assert_eq!(s.project.stackup.layers[2].dielectric().unwrap().dk, 4.0);
+        assert_eq!(s.undo.len(), 1);
+    }
+
+    #[test]
+    fn process_limits_are_edited_with_their_names_and_blank_restores_the_default() {
+        use ohmstack_core::design::process::DEFAULT_ETCH_WIDTH;
+        let etch = Field::Process(ProcessField::Tol(TolKind::EtchWidth));
+        let s = reduce(State::default(), Action::Edit(etch, "20".into()));
+        let p = s.project.process.clone().unwrap();
+        assert!(
+            (p.etch_width.abs.unwrap() - 20e-6).abs() < 1e-15,
+            "a bare number is in µm"
+        );
+        let s = reduce(s, Action::Blur(etch));
+        let s = reduce(s, Action::Edit(etch, "8 %".into()));
+        assert_eq!(
+            s.project.process.as_ref().unwrap().etch_width.pct,
+            Some(8.0)
+        );
+        // Bad limits name the quantity in words, never a path such as process.etch_width.abs.
+        for bad in ["-3", "x", "60 %", "2mm"] {
+            let t = reduce(s.clone(), Action::Edit(etch, bad.into()));
+            let msg = t.drafts[&etch].error.clone().unwrap_or_default();
+            assert!(msg.starts_with("etched width tolerance"), "{bad}: {msg}");
+            assert!(!msg.contains("process."), "{bad}: {msg}");
+        }
+        let s = reduce(s, Action::Edit(etch, "".into()));
+        assert_eq!(
+            s.project.process.as_ref().unwrap().etch_width,
+            DEFAULT_ETCH_WIDTH
+        );
+        let s = reduce(
+            s,
+            Action::SetDistribution(TolKind::Dk, Distribution::Uniform),
+        );
+        assert_eq!(
+            s.project.process.as_ref().unwrap().dk.distribution,
+            Distribution::Uniform
+        );
+    }
+
+    #[test]
+    fn a_layer_gets_its_own_limits_and_they_follow_its_name() {
+        let tol = Field::Layer(2, LayerField::TolThickness);
+        let s = reduce(State::default(), Action::Edit(tol, "5 %".into()));
+        let over = &s.project.process.as_ref().unwrap().layers;
+        assert_eq!(over.len(), 1);
+        assert_eq!(
+            (over[0].layer.as_str(), over[0].thickness.unwrap().pct),
+            ("PP1", Some(5.0))
+        );
+        let s = reduce(s, Action::Blur(tol));
+        let s = reduce(
+            s,
+            Action::Edit(Field::Layer(2, LayerField::Name), "Prepreg top".into()),
+        );
+        assert_eq!(
+            s.project.process.as_ref().unwrap().layers[0].layer,
+            "Prepreg top"
+        );
+        assert!(s.project.validate().is_ok());
+        // Copper has no Dk; the message names the layer.
+        let t = reduce(
+            s.clone(),
+            Action::Edit(Field::Layer(1, LayerField::TolDk), "0.1".into()),
+        );
+        let msg = t.drafts[&Field::Layer(1, LayerField::TolDk)]
+            .error
+            .clone()
+            .unwrap();
+        assert!(msg.contains("L1 Top"), "{msg}");
+        // Removing the layer removes its limits (the project stays valid).
+        let s = reduce(s, Action::RemoveLayer(2));
+        assert!(s.project.process.as_ref().unwrap().layers.is_empty());
+        // Blank gives a layer back to the project's limit.
+        let s = reduce(State::default(), Action::Edit(tol, "5 %".into()));
+        let s = reduce(s, Action::Edit(tol, " ".into()));
+        assert!(s.project.process.as_ref().unwrap().layers.is_empty());
+    }
+
+    #[test]
+    fn plating_keeps_the_outer_base_foil_and_fill_and_foil_apply() {
+        let plating = Field::Process(ProcessField::OuterPlating);
+        let s0 = State::default();
+        let top = thickness_of(&s0, 1);
+        let s = reduce(s0.clone(), Action::Edit(plating, "15".into()));
+        assert!((s.project.fab.outer_plating_m.unwrap() - 15e-6).abs() < 1e-15);
+        // The outer layers are now foil plus plating; inner copper is untouched.
+        assert!((thickness_of(&s, 1) - (top + 15e-6)).abs() < 1e-15);
+        assert_eq!(thickness_of(&s, 5), thickness_of(&s0, 5));
+        let s = reduce(s, Action::Blur(plating));
+        let foil = Field::Layer(1, LayerField::BaseFoil);
+        let s = reduce(s, Action::Edit(foil, "18".into()));
+        assert!((thickness_of(&s, 1) - 33e-6).abs() < 1e-15);
+        assert!(s.project.validate().is_ok());
+        let t = reduce(s.clone(), Action::Edit(plating, "500".into()));
+        let msg = t.drafts[&plating].error.clone().unwrap();
+        assert!(msg.starts_with("outer plating"), "{msg}");
+        let fill = Field::Layer(3, LayerField::Fill);
+        let s = reduce(s, Action::Edit(fill, "75".into()));
+        let c = s.project.stackup.layers[3].copper().unwrap().clone();
+        assert_eq!(c.fill_pct, Some(75.0));
+        let t = reduce(s.clone(), Action::Edit(fill, "120".into()));
+        assert!(t.drafts[&fill]
+            .error
+            .as_deref()
+            .unwrap()
+            .starts_with("L2 GND copper fill"));
+        let s = reduce(s, Action::SetFoil(3, Some(Foil::LowProfile)));
+        assert_eq!(
+            s.project.stackup.layers[3].copper().unwrap().roughness,
+            Some(Foil::LowProfile.hammerstad_groiss())
+        );
+        let etch = Field::Process(ProcessField::EtchFactor);
+        let s = reduce(s, Action::Edit(etch, "3".into()));
+        assert_eq!(s.project.fab.etch_factor, Some(3.0));
+        let s = reduce(s, Action::Edit(etch, "".into()));
+        assert_eq!(s.project.fab.etch_factor, None);
+    }
+
+    #[test]
+    fn the_nearest_design_can_be_kept_as_drawn() {
+        let s = reduce(
+            State::default(),
+            Action::UseDimensions(1, 100e-6, Some(150e-6)),
+        );
+        let r = &s.project.rules[1];
+        assert_eq!(
+            (r.width_m, r.spacing_m, r.solve),
+            (100e-6, Some(150e-6), Solve::Nothing)
+        );
+        assert_eq!(s.undo.len(), 1);
+    }
+
+    #[test]
+    fn messages_name_layers_not_positions() {
+        // 1 m of prepreg passes the length reader but not the stack's check, whose message names the layer by
+        // position and name; the field's message keeps the name only.
+        let f = Field::Layer(2, LayerField::Thickness);
+        let s = reduce(State::default(), Action::Edit(f, "1m".into()));
+        let msg = s.drafts[&f].error.clone().unwrap();
+        assert!(msg.starts_with("PP1 thickness"), "{msg}");
+        assert!(!msg.contains("layers["), "{msg}");
+        assert_eq!(
+            user_words("rules[5] \"USB data 90 Ω\".width: too narrow"),
+            "USB data 90 Ω width: too narrow"
+        );
+        assert_eq!(user_words("width: fine"), "width: fine");
+    }
+
+    #[test]
     fn partial_text_is_kept_verbatim() {
         let s = reduce(
             State::default(),
@@ -888,6 +1523,7 @@ mod tests {
         assert!(s.project.rules.iter().all(|r| r.layer != "L1 Top"));
         assert_eq!(s.project.rules[0].layer, "Top signal");
         // A duplicate name is refused with the core's message and nothing changes.
+        let s = reduce(s, Action::Blur(Field::Layer(1, LayerField::Name)));
         let s2 = reduce(
             s.clone(),
             Action::Edit(Field::Layer(1, LayerField::Name), "L2 GND".into()),
@@ -1051,6 +1687,7 @@ mod tests {
             Action::Edit(Field::Revision, " B2 ".into()),
         );
         assert_eq!(s.project.revision, "B2");
+        let s = reduce(s, Action::Blur(Field::Revision));
         let long = "x".repeat(ohmstack_core::design::project::MAX_REVISION_CHARS + 1);
         let s = reduce(s, Action::Edit(Field::Revision, long));
         assert_eq!(s.project.revision, "B2");

@@ -215,9 +215,13 @@ def test_rename_reorder_and_structures(driver):
     # A pair shows Zdiff and Zcommon, both equal to the core's (or the core's reason when it cannot compute yet).
     p = saved(driver)
     rule = core_plan(p)["rules"][1]
+    # The field figures, not the closed-form preview shown while they are computed.
+    browser.wait_for(lambda: driver.find_element(By.ID, "app").get_attribute("data-settled") == "true",
+                     timeout=120, what="field figures in")
     if rule["status"] == "ok":
-        assert abs(value(driver, "rule-1-impedance") - rule["impedance_ohm"]) < 1e-9
-        assert abs(value(driver, "rule-1-zcommon") - rule["analysis"]["z_even"] / 2) < 1e-9
+        # Same core in WASM: equal within the field synthesis tolerance (webapp.assert_same_numbers says why).
+        assert abs(value(driver, "rule-1-impedance") / rule["impedance_ohm"] - 1) < 1e-4
+        assert abs(value(driver, "rule-1-zcommon") / (rule["analysis"]["z_even"] / 2) - 1) < 1e-4
     else:
         assert el(driver, "rule-1-error").text == rule["message"]
     assert browser.console_errors(driver) == []
@@ -392,7 +396,8 @@ def test_figures_are_rounded_as_the_trade_writes_them(driver):
     fields = driver.find_elements(By.CSS_SELECTOR, "input[id$='-thickness'], input[id^='fab-min']")
     assert len(fields) > 5
     for f in fields:
-        text = f.get_attribute("value")
+        # A process limit carries its unit word ("0.39 mil"); the number is what is rounded.
+        text = (f.get_attribute("value") or "").split(" ")[0]
         assert len(text.partition(".")[2]) <= 2, (f.get_attribute("id"), text)
     summary = browser.wait_for(lambda: [td.text for td in driver.find_elements(
         By.CSS_SELECTOR, "[data-testid='board-summary'] tbody td:nth-child(3)")], what="summary widths")

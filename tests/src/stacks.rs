@@ -137,6 +137,7 @@ pub fn project(
             min_space_m: 1e-6,
             etch_factor: None,
             thickness_tolerance_pct: None,
+            outer_plating_m: None,
         },
         loss: Default::default(),
         process: None,

@@ -41,6 +41,8 @@ pub enum Error {
         target: f64,
         nearest: f64,
         bound: String,
+        /// The dimension, m, at which the nearest reachable impedance lies (the bound), when known.
+        at_m: Option<f64>,
     },
     /// An iteration stopped at its cap.
     NotConverged {
@@ -71,7 +73,7 @@ impl fmt::Display for Error {
             Error::BadQuantity { field, text, expected } => {
                 write!(f, "{field}: cannot read {text:?}, expected {expected}")
             }
-            Error::Unreachable { field, target, nearest, bound } => write!(
+            Error::Unreachable { field, target, nearest, bound, .. } => write!(
                 f,
                 "{field}: target {target:.2} Ω cannot be reached; {bound} stops it, nearest reachable is {nearest:.2} Ω"
             ),

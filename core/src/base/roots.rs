@@ -61,16 +61,17 @@ pub fn solve_to(
     }
     if fa.signum() == fb.signum() {
         // Both ends on the same side: say which end is closest and what holds it there.
-        let (nearest, reason) = if fa.abs() < fb.abs() {
-            (za, bracket.lo_reason)
+        let (nearest, reason, at) = if fa.abs() < fb.abs() {
+            (za, bracket.lo_reason, bracket.lo)
         } else {
-            (zb, bracket.hi_reason)
+            (zb, bracket.hi_reason, bracket.hi)
         };
         return Err(Error::Unreachable {
             field: field.to_string(),
             target,
             nearest,
             bound: reason.to_string(),
+            at_m: Some(at),
         });
     }
     let mut side = 0i8;
@@ -148,8 +149,14 @@ mod tests {
         };
         let e = solve("width", 500.0, &br, |w| Ok(1e-3 / w)).unwrap_err();
         match e {
-            Error::Unreachable { nearest, bound, .. } => {
+            Error::Unreachable {
+                nearest,
+                bound,
+                at_m,
+                ..
+            } => {
                 assert!((nearest - 10.0).abs() < 1e-9);
+                assert_eq!(at_m, Some(1e-4), "the nearest lies at the bound");
                 assert_eq!(bound, "minimum trace width");
             }
             other => panic!("unexpected {other:?}"),

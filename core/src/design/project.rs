@@ -146,7 +146,15 @@ pub struct Fab {
     /// Finished board thickness tolerance, ± %; `None` means the common ±10 % (common practice, no source).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub thickness_tolerance_pct: Option<f64>,
+    /// Copper plated onto the outer layers' base foil, m: part of each outer copper layer's finished thickness
+    /// (base foil = finished − plating). `None` says nothing of how the outer copper was made.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub outer_plating_m: Option<f64>,
 }
+
+/// The thickest outer plating accepted, m (a plated-through-hole panel plate is about 25 µm: common practice, no
+/// source; four times that is surely a unit slip).
+pub const MAX_OUTER_PLATING_M: f64 = 100e-6;
 
 impl Default for Fab {
     fn default() -> Self {
@@ -156,7 +164,16 @@ impl Default for Fab {
             min_space_m: 100e-6,
             etch_factor: None,
             thickness_tolerance_pct: None,
+            outer_plating_m: None,
         }
+    }
+}
+
+impl Fab {
+    /// The base foil under the plating of an outer copper layer `finished_m` thick, m (the whole thickness when no
+    /// plating is given).
+    pub fn base_foil_m(&self, finished_m: f64) -> f64 {
+        finished_m - self.outer_plating_m.unwrap_or(0.0)
     }
 }
 
@@ -304,6 +321,24 @@ impl Project {
             error::in_range("fab.thickness_tolerance", tol, 0.0, 50.0, "%")?;
         }
         self.stackup.validate()?;
+        if let Some(plating) = self.fab.outer_plating_m {
+            error::in_range("fab.outer_plating", plating, 0.0, MAX_OUTER_PLATING_M, "m")?;
+            for c in self.stackup.outer_coppers() {
+                if c.thickness_m <= plating {
+                    return Err(Error::Invalid {
+                        field: "fab.outer_plating".into(),
+                        reason: format!(
+                            "{} is only {} thick, which leaves no base foil under the plating",
+                            c.name,
+                            crate::base::units::format_length(
+                                c.thickness_m,
+                                crate::base::units::LengthUnit::Um
+                            )
+                        ),
+                    });
+                }
+            }
+        }
         if let Some(process) = &self.process {
             process.validate(&self.stackup)?;
         }
@@ -449,11 +484,13 @@ pub(crate) fn prefix(e: Error, context: &str) -> Error {
             target,
             nearest,
             bound,
+            at_m,
         } => Error::Unreachable {
             field: format!("{context}.{field}"),
             target,
             nearest,
             bound,
+            at_m,
         },
         Error::Invalid { field, reason } => Error::Invalid {
             field: format!("{context}.{field}"),
@@ -472,6 +509,29 @@ mod tests {
         let p = crate::design::demo::project();
         let back = Project::from_json(&p.to_json()).unwrap();
         assert_eq!(p, back);
+    }
+
+    #[test]
+    fn outer_plating_is_optional_and_leaves_base_foil() {
+        // A file without the field (every file before it) opens as before and writes it back without it.
+        let p = crate::design::demo::project();
+        assert_eq!(p.fab.outer_plating_m, None);
+        assert!(!p.to_json().contains("outer_plating"));
+        let mut plated = p.clone();
+        plated.fab.outer_plating_m = Some(25e-6);
+        assert!(plated.validate().is_ok());
+        assert_eq!(Project::from_json(&plated.to_json()).unwrap(), plated);
+        let outer = plated.stackup.outer_coppers()[0].thickness_m;
+        assert!((plated.fab.base_foil_m(outer) - (outer - 25e-6)).abs() < 1e-15);
+        // Plating as thick as the finished outer copper leaves no foil: refused, naming the layer.
+        plated.fab.outer_plating_m = Some(outer);
+        let e = plated.validate().unwrap_err().to_string();
+        assert!(
+            e.contains("outer_plating") && e.contains("base foil"),
+            "{e}"
+        );
+        plated.fab.outer_plating_m = Some(-1e-6);
+        assert!(plated.validate().is_err());
     }
 
     #[test]

@@ -202,6 +202,16 @@ impl Stackup {
         Ok(())
     }
 
+    /// The outer copper layers: the first and the last copper of the stack (one when the stack has one copper).
+    pub fn outer_coppers(&self) -> Vec<&Copper> {
+        let coppers: Vec<&Copper> = self.layers.iter().filter_map(Layer::copper).collect();
+        match coppers.as_slice() {
+            [] => Vec::new(),
+            [only] => vec![*only],
+            [first, .., last] => vec![*first, *last],
+        }
+    }
+
     /// Index of the layer called `name`.
     pub fn find(&self, name: &str) -> Option<usize> {
         self.layers.iter().position(|l| l.name() == name)

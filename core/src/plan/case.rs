@@ -378,6 +378,7 @@ pub fn project(
             min_space_m: CASE_MIN_FEATURE_M,
             etch_factor,
             thickness_tolerance_pct: None,
+            outer_plating_m: None,
         },
         loss: Default::default(),
         process: None,

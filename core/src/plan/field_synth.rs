@@ -207,7 +207,7 @@ impl FieldSynthesis {
             return Ok(());
         }
         if self.points.len() >= MAX_SOLVES {
-            self.warnings.push(Warning::new(format!(
+            self.warnings.push(Warning::problem(format!(
                 "field synthesis: {} solves without reaching the target within {} %",
                 MAX_SOLVES,
                 TOLERANCE * 100.0
@@ -229,6 +229,7 @@ impl FieldSynthesis {
                         self.dimension_name(),
                         self.lower * 1e6
                     ),
+                    at_m: Some(self.lower),
                 });
             }
             self.current = Some((self.lower, self.new_solve(self.lower)?));

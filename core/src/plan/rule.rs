@@ -80,6 +80,19 @@ pub struct RuleResult {
     /// Tolerance spread and yield, when asked for with [`PlanOptions::spread_samples`].
     #[serde(skip_serializing_if = "Option::is_none")]
     pub spread: Option<SpreadSummary>,
+    /// Set when the target could not be reached: these figures are the nearest reachable design, at the bound
+    /// that stopped the solve ([`crate::plan::plan_rule_or_nearest`]).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub unreached: Option<Unreached>,
+}
+
+/// Why a rule's figures are the nearest reachable design rather than its target's.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct Unreached {
+    /// The dimension that was being solved: "width" or "spacing".
+    pub dimension: String,
+    /// What stopped the solve, in words (the fabricator's minimum, the widest searched).
+    pub bound: String,
 }
 
 /// One rule's outcome: figures, or the reason it could not be computed.
@@ -309,7 +322,7 @@ fn compute(project: &Project, rule: &ImpedanceRule, engine: &Engine) -> Result<R
     let mut notes = line.notes;
     let error_estimate_pct = answer.error_estimate_pct;
     if let Some(err) = error_estimate_pct {
-        notes.push(Warning::new(format!(
+        notes.push(Warning::info(format!(
             "figures from the {} (estimated error {} %), loss too (Wheeler's rule on its air solves)",
             answer.method,
             format_sig(err, 2)
@@ -389,6 +402,20 @@ pub fn rule_figures(
     } else {
         crate::closed_form::bands::wide_for(&cs, rule.structure, &dims)
     };
+    if crate::engine::is_field_method(method) {
+        // The field engine made the figure: a closed form's fit range (left by the loss model or a cross-check)
+        // does not bear on it.
+        for w in warnings.iter_mut().filter(|w| w.is_fit_range()) {
+            w.level = crate::base::validity::Level::Info;
+        }
+    }
+    // Each note once per rule.
+    let mut seen = Vec::new();
+    warnings.retain(|w| {
+        let fresh = !seen.contains(&w.message);
+        seen.push(w.message.clone());
+        fresh
+    });
     if let Some(band) = model_band_pct {
         warnings.push(Warning::new(format!(
             "this closed form differs from the 2D field solver by up to ±{band} % on this structure (measured, \
@@ -430,6 +457,7 @@ pub fn rule_figures(
         cross_section: cs,
         warnings,
         spread: None,
+        unreached: None,
     }
 }
 

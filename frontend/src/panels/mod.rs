@@ -4,6 +4,7 @@ pub mod field_check;
 pub mod layers;
 pub mod notes;
 pub mod pictures;
+pub mod process;
 pub mod rules;
 pub mod share;
 pub mod summary;

@@ -55,6 +55,127 @@ fn figure(i: usize, key: &str, label: &str, text: String, value: Option<f64>) ->
     }
 }
 
+/// A target out of reach: what stopped the solve, and the one-click ways on.
+fn unreached(i: usize, r: &RuleResult, project: &Project, d: &Callback<Action>) -> Html {
+    let Some(u) = &r.unreached else {
+        return html! {};
+    };
+    let unit = project.units;
+    let rule = project.rules.get(i);
+    let pair_by_width = rule.is_some_and(|rule| {
+        matches!(
+            rule.structure,
+            Structure::EdgePair | Structure::CoplanarPair
+        ) && rule.solve == Solve::Width
+    });
+    let at = if u.dimension == "spacing" {
+        r.spacing_m.unwrap_or(r.width_m)
+    } else {
+        r.width_m
+    };
+    let keep_label = if u.bound.contains("minimum") {
+        format!(
+            "Build at the fabricator's minimum {} ({})",
+            u.dimension,
+            bridge::length_label(at, unit)
+        )
+    } else {
+        format!(
+            "Build at this {} ({})",
+            u.dimension,
+            bridge::length_label(at, unit)
+        )
+    };
+    let keep = {
+        let (d, w, s) = (d.clone(), r.width_m, r.spacing_m);
+        Callback::from(move |_: MouseEvent| d.emit(Action::UseDimensions(i, w, s)))
+    };
+    let spacing = {
+        let d = d.clone();
+        Callback::from(move |_: MouseEvent| d.emit(Action::SetRuleSolve(i, Solve::Spacing)))
+    };
+    let verdict = if r.within_tolerance {
+        "inside"
+    } else {
+        "outside"
+    };
+    html! {
+        <div class="unreached" role="status" data-testid={format!("rule-{i}-unreached")}>
+            <p>
+                <strong>{ format!("Target {} Ω is out of reach", format_sig(r.target_ohm, 6)) }</strong>
+                { format!(": {} stops the {}. The figures below are the nearest reachable design, {:.2} Ω ({:+.2} %, {verdict} ±{} %).",
+                    u.bound, u.dimension, r.impedance_ohm, r.deviation_pct, format_sig(r.tolerance_pct, 3)) }
+            </p>
+            <p class="no-print alternatives">
+                if pair_by_width {
+                    <button type="button" id={format!("rule-{i}-solve-spacing")} onclick={spacing}>{ "Solve spacing instead" }</button>
+                }
+                <button type="button" id={format!("rule-{i}-keep-nearest")} onclick={keep}>{ keep_label }</button>
+            </p>
+        </div>
+    }
+}
+
+/// Γ and return loss where they mean something: against the as-built spread's extremes when it is in; against the
+/// target for dimensions analysed as drawn; never for a dimension solved onto the target (Γ ≈ 1e-12 is noise).
+fn reflection(i: usize, r: &RuleResult) -> Html {
+    let gamma = |z: f64| (z - r.target_ohm) / (z + r.target_ohm);
+    let rl = |g: f64| -20.0 * g.abs().log10();
+    if let Some(sp) = &r.spread {
+        let worst = [sp.corners.min_ohm, sp.corners.max_ohm]
+            .into_iter()
+            .map(gamma)
+            .fold(0.0_f64, |a, g| if g.abs() > a.abs() { g } else { a });
+        return html! {
+            <>
+                { figure(i, "gamma", "Worst Γ as built", format!("{worst:+.3}"), Some(worst)) }
+                { figure(i, "return-loss", "Return loss as built (dB)", format!("{:.1}", rl(worst)), Some(rl(worst)).filter(|v| v.is_finite())) }
+            </>
+        };
+    }
+    // A solved dimension sits on the target to the solver's tolerance: Γ there says nothing.
+    if r.solved.is_some() && r.deviation_pct.abs() < 0.1 {
+        return html! {};
+    }
+    html! {
+        <>
+            { figure(i, "gamma", "Γ vs target", format!("{:+.4}", r.gamma), Some(r.gamma)) }
+            { figure(i, "return-loss", "Return loss (dB)", format!("{:.1}", r.return_loss_db), Some(r.return_loss_db).filter(|v| v.is_finite())) }
+        </>
+    }
+}
+
+/// The rule's notes, each once, problems first, each level styled apart, with a count per level.
+fn notes(i: usize, r: &RuleResult) -> Html {
+    use ohmstack_core::base::validity::Level;
+    let mut list: Vec<&ohmstack_core::base::validity::Warning> = Vec::new();
+    for w in &r.warnings {
+        if !list.iter().any(|x| x.message == w.message) {
+            list.push(w);
+        }
+    }
+    list.sort_by_key(|w| std::cmp::Reverse(w.level));
+    if list.is_empty() {
+        return html! { <span class="badge ok" data-testid={format!("rule-{i}-validity")} data-value="0">{ "inside the model's fit" }</span> };
+    }
+    let count = |l: Level| list.iter().filter(|w| w.level == l).count();
+    let plural = |n: usize, word: &str| format!("{n} {word}{}", if n == 1 { "" } else { "s" });
+    html! {
+        <>
+            <span data-testid={format!("rule-{i}-validity")} data-value={list.len().to_string()}>
+                if count(Level::Problem) > 0 { <span class="badge bad">{ plural(count(Level::Problem), "problem") }</span> }
+                if count(Level::Caution) > 0 { <span class="badge warn">{ plural(count(Level::Caution), "caution") }</span> }
+                if count(Level::Info) > 0 { <span class="badge info">{ plural(count(Level::Info), "note") }</span> }
+            </span>
+            <ul class="warnings" data-testid={format!("rule-{i}-warnings")}>
+                { for list.iter().map(|w| html! {
+                    <li class={w.level.label()} data-level={w.level.label()}><span class="level">{ format!("{}: ", w.level.label()) }</span>{ w.message.clone() }</li>
+                }) }
+            </ul>
+        </>
+    }
+}
+
 fn results(i: usize, r: &RuleResult, project: &Project, state: RowState) -> Html {
     let unit = project.units;
     let pair = bridge::z_common(r).is_some();
@@ -118,8 +239,7 @@ fn results(i: usize, r: &RuleResult, project: &Project, state: RowState) -> Html
                 { figure(i, "eps-eff", "Dk eff", format!("{:.3}", r.eps_eff), Some(r.eps_eff)) }
                 { figure(i, "delay", "Delay (ps/mm)", format!("{delay_ps_per_mm:.3}"), Some(delay_ps_per_mm)) }
                 { figure(i, "delay-in", "Delay (ps/in)", format!("{delay_ps_per_in:.1}"), Some(delay_ps_per_in)) }
-                { figure(i, "gamma", "Γ vs target", if r.gamma.abs() < 1e-3 { format!("{:+.1e}", r.gamma) } else { format!("{:+.4}", r.gamma) }, Some(r.gamma)) }
-                { figure(i, "return-loss", "Return loss (dB)", if r.return_loss_db > 100.0 { "> 100".into() } else { format!("{:.1}", r.return_loss_db) }, Some(r.return_loss_db).filter(|v| v.is_finite())) }
+                { reflection(i, r) }
                 if let Some((f, db_in, db_cm)) = bridge::loss_at(r) {
                     { figure(i, "loss", &format!("Loss at {} GHz", format_sig(f / 1e9, 4)), format!("{db_in:.3} dB/in ({db_cm:.3} dB/cm)"), Some(db_in)) }
                 }
@@ -157,14 +277,7 @@ fn results(i: usize, r: &RuleResult, project: &Project, state: RowState) -> Html
                 } else {
                     <span class="refs">{ format!(" · referenced to {}", r.references.join(" and ")) }</span>
                 }
-                if r.warnings.is_empty() {
-                    <span class="badge ok" data-testid={format!("rule-{i}-validity")} data-value="0">{ "inside the model's fit" }</span>
-                } else {
-                    <span class="badge warn" data-testid={format!("rule-{i}-validity")} data-value={r.warnings.len().to_string()}>{ format!("{} note{}", r.warnings.len(), if r.warnings.len() == 1 { "" } else { "s" }) }</span>
-                    <ul class="warnings" data-testid={format!("rule-{i}-warnings")}>
-                        { for r.warnings.iter().map(|w| html! { <li>{ w.message.clone() }</li> }) }
-                    </ul>
-                }
+                { notes(i, r) }
             </div>
         </div>
     }
@@ -243,7 +356,7 @@ pub fn Rules(props: &RulesProps) -> Html {
         let outcome = props.plan.as_ref().and_then(|p| p.rules.get(i));
         let row = props.rows.get(i).copied().unwrap_or(RowState::Final);
         let body = match outcome {
-            Some(RuleOutcome::Ok(r)) => results(i, r, project, row),
+            Some(RuleOutcome::Ok(r)) => html! { <>{ unreached(i, r, project, d) }{ results(i, r, project, row) }</> },
             Some(RuleOutcome::Error { message, .. }) => html! {
                 <p class="error rule-error" data-testid={format!("rule-{i}-error")}>{ message.clone() }</p>
             },
@@ -306,7 +419,7 @@ pub fn Rules(props: &RulesProps) -> Html {
         <section class="panel" aria-labelledby="rules-title">
             <h2 id="rules-title">{ "Impedance rules" }<span class="sub">{ " one per controlled net class" }</span></h2>
             if props.stale {
-                <p class="stale-note" role="status" data-testid="stale-note">{ "Figures below are from the last valid entry; fix the marked field to update them." }</p>
+                <p class="stale-note" role="status" data-testid="stale-note">{ "Figures below are for the values held before the marked field was edited; fix it to update them." }</p>
             }
             <ol class="rules">{ for cards }</ol>
             <p class="no-print"><button type="button" id="add-rule" onclick={add}>{ "Add rule" }</button></p>

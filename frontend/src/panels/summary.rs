@@ -81,9 +81,15 @@ pub fn summarize(plan: &Plan, unit: LengthUnit) -> Summary {
                     layer: r.layer.clone(),
                     geometry,
                     impedance: format!(
-                        "{z:.2} Ω (target {} ± {} %)",
+                        "{z:.2} Ω (target {} ± {} %{})",
                         format_sig(r.target_ohm, 4),
-                        format_sig(r.tolerance_pct, 3)
+                        format_sig(r.tolerance_pct, 3),
+                        // A target out of reach: the row is the nearest reachable design.
+                        if r.unreached.is_some() {
+                            ", out of reach: nearest design"
+                        } else {
+                            ""
+                        }
                     ),
                     deviation: format!("{deviation:+.1} %"),
                     verdict: if within {

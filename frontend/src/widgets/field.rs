@@ -39,6 +39,15 @@ pub fn TextField(props: &TextFieldProps) -> Html {
         let dispatch = props.dispatch.clone();
         Callback::from(move |_: FocusEvent| dispatch.emit(Action::Blur(field)))
     };
+    // Enter ends the edit as leaving the field does: the value typed is meant, so its spread is due at once.
+    let onkeydown = {
+        let dispatch = props.dispatch.clone();
+        Callback::from(move |e: KeyboardEvent| {
+            if e.key() == "Enter" {
+                dispatch.emit(Action::Blur(field));
+            }
+        })
+    };
     let text = props
         .draft
         .as_ref()
@@ -62,6 +71,7 @@ pub fn TextField(props: &TextFieldProps) -> Html {
                 aria-describedby={invalid.then(|| message_id.clone())}
                 {oninput}
                 {onblur}
+                {onkeydown}
             />
             if let Some(message) = error {
                 <span id={message_id.clone()} data-testid={message_id} class="field-error" aria-live="polite">{ message }</span>
