@@ -45,3 +45,16 @@ def cli():
 @pytest.fixture
 def cli_batch():
     return batch
+
+
+@pytest.fixture
+def driver():
+    """Headless Chromium at 1366×768 with the app open on the demo and ready. Browser test modules that need
+    another window or start elsewhere define their own `driver`, which takes precedence over this one."""
+    import browser  # selenium is only needed by the browser tests
+
+    d = browser.start(width=1366, height=768)
+    d.get(browser.app_url())
+    browser.wait_ready(d)
+    yield d
+    d.quit()

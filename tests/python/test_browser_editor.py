@@ -18,15 +18,6 @@ from conftest import run
 PREPREG = 2
 
 
-@pytest.fixture
-def driver():
-    d = browser.start(width=1366, height=768)
-    d.get(browser.app_url())
-    browser.wait_ready(d)
-    yield d
-    d.quit()
-
-
 def saved(driver) -> dict:
     text = browser.saved_text(driver)
     assert text, "nothing autosaved"

@@ -5,22 +5,12 @@ limit is refused with a message naming the quantity in words. Expected numbers c
 import json
 import re
 
-import pytest
 from selenium.webdriver.common.by import By
 from selenium.webdriver.common.keys import Keys
 
 import browser
 
 SPREAD = re.compile(r"([\d.]+)–([\d.]+), yield ([\d.]+)%")
-
-
-@pytest.fixture
-def driver():
-    d = browser.start(width=1366, height=768)
-    d.get(browser.app_url())
-    browser.wait_ready(d)
-    yield d
-    d.quit()
 
 
 def el(driver, testid):

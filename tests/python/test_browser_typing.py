@@ -5,7 +5,6 @@ expected number comes from the page's own figures before the edit or from the na
 import json
 import re
 
-import pytest
 from selenium.webdriver.common.by import By
 from selenium.webdriver.common.keys import Keys
 
@@ -16,15 +15,6 @@ import webapp as w
 PREPREG = 2
 # "-12.00" but not "5–12": a minus sign that starts a number.
 NEGATIVE = re.compile(r"(^|[^\d\w.])-\d")
-
-
-@pytest.fixture
-def driver():
-    d = browser.start(width=1366, height=768)
-    d.get(browser.app_url())
-    browser.wait_ready(d)
-    yield d
-    d.quit()
 
 
 def app(driver):

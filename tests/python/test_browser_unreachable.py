@@ -4,21 +4,11 @@ and offers the alternatives in one click. The nearest design's figures are check
 same rule drawn at that width."""
 import json
 
-import pytest
 from selenium.webdriver.common.by import By
 from selenium.webdriver.common.keys import Keys
 
 import browser
 import webapp as w
-
-
-@pytest.fixture
-def driver():
-    d = browser.start(width=1366, height=768)
-    d.get(browser.app_url())
-    browser.wait_ready(d)
-    yield d
-    d.quit()
 
 
 def el(driver, testid):
