@@ -41,7 +41,7 @@ use crate::field::extract;
 use crate::field::geometry::{Geometry, Layout, Net};
 use crate::field::{FieldResult, Level};
 use crate::section::Analysis;
-use kernel::{Planes, Seg, Src};
+use kernel::{Planes, PlateFrame, PlateSource, Src};
 use lu::Lu;
 use mesh::{Kind, Mesh, MeshParams};
 use std::f64::consts::PI;
@@ -116,7 +116,7 @@ struct Interactions {
     field_mirror: Vec<Vec<f64>>,
 }
 
-fn interactions(mesh: &Mesh, need_mirror: bool) -> Interactions {
+fn interactions(mesh: &Mesh) -> Interactions {
     let n = mesh.panels.len();
     let mut direct = vec![0.0; n * n];
     let mut mirror = vec![0.0; n * n];
@@ -133,106 +133,99 @@ fn interactions(mesh: &Mesh, need_mirror: bool) -> Interactions {
         .collect();
     let mut field_direct = vec![vec![0.0; n]; strips.len()];
     let mut field_mirror = vec![vec![0.0; n]; strips.len()];
-    // No plane or one plane: the source, its mirror in x = 0 and (with a plane) their images, all precomputed.
-    let plane = match mesh.planes {
-        Planes::Below(y) | Planes::Above(y) => Some(Some(y)),
-        Planes::None => Some(None),
-        Planes::Both(..) => None,
-    };
-    if let (Some(plane), true) = (plane, need_mirror) {
-        let src: Vec<[Src; 4]> = mesh
-            .panels
-            .iter()
-            .map(|p| {
-                let m = p.seg.mirror_x();
-                // Without a plane the image slots are unused (`plane` is None there).
-                let y0 = plane.unwrap_or(0.0);
-                [
-                    Src::new(&p.seg),
-                    Src::new(&p.seg.mirror_y(y0)),
-                    Src::new(&m),
-                    Src::new(&m.mirror_y(y0)),
-                ]
-            })
-            .collect();
-        let imaged = plane.is_some();
-        for (i, pi) in mesh.panels.iter().enumerate() {
-            let c = pi.seg.mid();
-            let nrm = pi.seg.normal();
-            let dot = |f: [f64; 2]| f[0] * nrm[0] + f[1] * nrm[1];
-            let strip = strips.iter().position(|&k| k == i);
-            let interface = matches!(pi.kind, Kind::Interface { .. });
-            let row = i * n;
-            for (j, s) in src.iter().enumerate() {
-                let me = i == j;
-                if interface || strip.is_some() {
-                    let mut fd = dot(s[0].field(c, me));
-                    let mut fm = dot(s[2].field(c, false));
-                    if imaged {
-                        fd -= dot(s[1].field(c, false));
-                        fm -= dot(s[3].field(c, false));
-                    }
-                    if let Some(k) = strip {
-                        field_direct[k][j] = fd;
-                        field_mirror[k][j] = fm;
-                    } else {
-                        direct[row + j] = fd;
-                        mirror[row + j] = fm;
-                    }
-                }
-                if !interface {
-                    let mut pd = s[0].potential(c, me);
-                    let mut pm = s[2].potential(c, false);
-                    if imaged {
-                        pd -= s[1].potential(c, false);
-                        pm -= s[3].potential(c, false);
-                    }
-                    direct[row + j] = pd;
-                    mirror[row + j] = pm;
-                }
-            }
-        }
-        return Interactions {
-            direct,
-            mirror,
-            strips,
-            field_direct,
-            field_mirror,
-        };
+    // Every source is precomputed once: with no plane or one plane the panel, its mirror in x = 0 and (with a
+    // plane) their images; with two planes the same pair with the two-plate function's factors.
+    enum Sources {
+        Images(Vec<[Src; 4]>, bool),
+        Plates(PlateFrame, Vec<[PlateSource; 2]>),
     }
-    let mirrored: Vec<Seg> = mesh.panels.iter().map(|p| p.seg.mirror_x()).collect();
+    let sources = match mesh.planes {
+        Planes::Both(y0, b) => {
+            let frame = PlateFrame::new(y0, b);
+            let s = mesh
+                .panels
+                .iter()
+                .map(|p| {
+                    [
+                        PlateSource::new(&frame, &p.seg),
+                        PlateSource::new(&frame, &p.seg.mirror_x()),
+                    ]
+                })
+                .collect();
+            Sources::Plates(frame, s)
+        }
+        planes => {
+            let plane = match planes {
+                Planes::Below(y) | Planes::Above(y) => Some(y),
+                _ => None,
+            };
+            // Without a plane the image slots are unused.
+            let y0 = plane.unwrap_or(0.0);
+            let s = mesh
+                .panels
+                .iter()
+                .map(|p| {
+                    let m = p.seg.mirror_x();
+                    [
+                        Src::new(&p.seg),
+                        Src::new(&p.seg.mirror_y(y0)),
+                        Src::new(&m),
+                        Src::new(&m.mirror_y(y0)),
+                    ]
+                })
+                .collect();
+            Sources::Images(s, plane.is_some())
+        }
+    };
     for (i, pi) in mesh.panels.iter().enumerate() {
         let c = pi.seg.mid();
         let nrm = pi.seg.normal();
+        let dot = |f: [f64; 2]| f[0] * nrm[0] + f[1] * nrm[1];
         let strip = strips.iter().position(|&k| k == i);
         let interface = matches!(pi.kind, Kind::Interface { .. });
-        for (j, pj) in mesh.panels.iter().enumerate() {
-            let (p, f) = kernel::with_planes(
-                c,
-                &pj.seg,
-                i == j,
-                mesh.planes,
-                interface || strip.is_some(),
-            );
-            let dot = |f: [f64; 2]| f[0] * nrm[0] + f[1] * nrm[1];
-            direct[i * n + j] = if interface { dot(f) } else { p };
-            let m = if need_mirror {
-                let (pm, fm) = kernel::with_planes(
-                    c,
-                    &mirrored[j],
-                    false,
-                    mesh.planes,
-                    interface || strip.is_some(),
-                );
-                mirror[i * n + j] = if interface { dot(fm) } else { pm };
-                Some(fm)
-            } else {
-                None
-            };
+        let need_field = interface || strip.is_some();
+        let row = i * n;
+        // (potential, normal field) of source j and of its mirror at this collocation point.
+        let mut put = |j: usize, (pd, fd): (f64, f64), (pm, fm): (f64, f64)| {
             if let Some(k) = strip {
-                field_direct[k][j] = dot(f);
-                if let Some(fm) = m {
-                    field_mirror[k][j] = dot(fm);
+                field_direct[k][j] = fd;
+                field_mirror[k][j] = fm;
+            }
+            let (d, m) = if interface { (fd, fm) } else { (pd, pm) };
+            direct[row + j] = d;
+            mirror[row + j] = m;
+        };
+        match &sources {
+            Sources::Images(src, imaged) => {
+                for (j, s) in src.iter().enumerate() {
+                    let me = i == j;
+                    let (mut fd, mut fm) = (0.0, 0.0);
+                    if need_field {
+                        fd = dot(s[0].field(c, me));
+                        fm = dot(s[2].field(c, false));
+                        if *imaged {
+                            fd -= dot(s[1].field(c, false));
+                            fm -= dot(s[3].field(c, false));
+                        }
+                    }
+                    let (mut pd, mut pm) = (0.0, 0.0);
+                    if !interface {
+                        pd = s[0].potential(c, me);
+                        pm = s[2].potential(c, false);
+                        if *imaged {
+                            pd -= s[1].potential(c, false);
+                            pm -= s[3].potential(c, false);
+                        }
+                    }
+                    put(j, (pd, fd), (pm, fm));
+                }
+            }
+            Sources::Plates(frame, src) => {
+                let t = frame.point(c, 0.0);
+                for (j, s) in src.iter().enumerate() {
+                    let (pd, fd) = s[0].at(frame, &t, i == j, need_field);
+                    let (pm, fm) = s[1].at(frame, &t, false, need_field);
+                    put(j, (pd, dot(fd)), (pm, dot(fm)));
                 }
             }
         }
@@ -379,7 +372,7 @@ fn level(g: &Geometry, params: MeshParams, with_dielectrics: bool) -> Result<Bem
         }
     }
     let pair = g.layout == Layout::MirroredPair;
-    let ints = interactions(&mesh, true);
+    let ints = interactions(&mesh);
     let ns = g.n_signals;
     let sym = |m: Vec<Vec<f64>>| -> Vec<Vec<f64>> {
         let n = m.len();
