@@ -13,6 +13,8 @@
 //! Computation by Moment Methods", 1968, §2.4). Piecewise-constant panels graded geometrically toward every corner
 //! and junction ([`mesh`]); closed-form panel integrals of ln r and of its gradient ([`kernel`]); dense LU
 //! ([`lu`]). The vacuum problem is the conductor-only sub-block of the same matrix.
+//! The interaction matrices and vacuum capacitances of the last few meshes are kept (per thread): a solve that
+//! changes only a Dk (the spread's Dk limits, the loss probe's dielectric share) refactorises and nothing else.
 //!
 //! Error estimate: the solve runs on two meshes (the finer one has about 1.7× the panels); the estimate is twice the
 //! largest relative change of each mode's Z and εeff between them plus [`ESTIMATE_FLOOR`] (0.05 %) for what both
@@ -358,6 +360,96 @@ pub fn vacuum_capacitances(g: &Geometry, params: MeshParams) -> Result<BemLevel>
     level(g, params, false)
 }
 
+/// What a solve shares with every other solve on the same panels: the interaction matrices (which depend on where
+/// the panels are and which rows are potentials or normal fields, not on any Dk) and the vacuum capacitances
+/// (no Dk at all). A Dk-only change — the spread's Dk limits, the loss probe's dielectric share — then costs one
+/// factorisation per symmetry instead of the fill and two.
+struct Shared {
+    key: Vec<u64>,
+    ints: Interactions,
+    /// Half-domain vacuum capacitance per symmetry: [odd, even].
+    vacuum: std::cell::RefCell<[Option<Vec<Vec<f64>>>; 2]>,
+}
+
+/// Meshes kept: the nominal and a few Dk variations of it come in a row; four pairs of 300 panels are ~6 MB.
+const SHARED_KEPT: usize = 4;
+
+thread_local! {
+    static RECENT: std::cell::RefCell<Vec<std::rc::Rc<Shared>>> = const { std::cell::RefCell::new(Vec::new()) };
+}
+
+/// The panels as exact bits: positions, row kind (interface, conductor of a net, two-sided strip) and the planes.
+fn mesh_key(mesh: &Mesh) -> Vec<u64> {
+    let mut key = Vec::with_capacity(5 * mesh.panels.len() + 3);
+    let (tag, a, b) = match mesh.planes {
+        Planes::None => (0, 0.0, 0.0),
+        Planes::Below(y) => (1, y, 0.0),
+        Planes::Above(y) => (2, y, 0.0),
+        Planes::Both(y, h) => (3, y, h),
+    };
+    key.extend([tag, a.to_bits(), b.to_bits()]);
+    for p in &mesh.panels {
+        let class = match p.kind {
+            Kind::Interface { .. } => 0,
+            Kind::Conductor { net, eps_minus, .. } => {
+                let net = match net {
+                    Net::Ground => 1,
+                    Net::Signal(k) => 2 + k as u64,
+                };
+                net << 1 | u64::from(eps_minus.is_some())
+            }
+        };
+        key.extend([
+            p.seg.a[0].to_bits(),
+            p.seg.a[1].to_bits(),
+            p.seg.b[0].to_bits(),
+            p.seg.b[1].to_bits(),
+            class,
+        ]);
+    }
+    key
+}
+
+/// The shared part of `mesh`'s solves, from the recent ones or filled now.
+fn shared(mesh: &Mesh) -> std::rc::Rc<Shared> {
+    let key = mesh_key(mesh);
+    RECENT.with(|r| {
+        let mut recent = r.borrow_mut();
+        if let Some(i) = recent.iter().position(|s| s.key == key) {
+            let s = recent.remove(i);
+            recent.push(s.clone());
+            return s;
+        }
+        let s = std::rc::Rc::new(Shared {
+            key,
+            ints: interactions(mesh),
+            vacuum: Default::default(),
+        });
+        if recent.len() >= SHARED_KEPT {
+            recent.remove(0);
+        }
+        recent.push(s.clone());
+        s
+    })
+}
+
+/// Forgets the kept meshes (the tests compare a solve that reuses them with one that does not).
+#[cfg(test)]
+fn forget_shared() {
+    RECENT.with(|r| r.borrow_mut().clear());
+}
+
+/// The vacuum half capacitance of one symmetry, computed once per mesh.
+fn vacuum_half(mesh: &Mesh, sh: &Shared, n_signals: usize, sign: f64) -> Result<Vec<Vec<f64>>> {
+    let slot = usize::from(sign > 0.0);
+    if let Some(c) = &sh.vacuum.borrow()[slot] {
+        return Ok(c.clone());
+    }
+    let c = half_capacitance(mesh, &sh.ints, n_signals, sign, true)?;
+    sh.vacuum.borrow_mut()[slot] = Some(c.clone());
+    Ok(c)
+}
+
 fn level(g: &Geometry, params: MeshParams, with_dielectrics: bool) -> Result<BemLevel> {
     let mesh = mesh::build(g, params);
     for k in 0..g.n_signals {
@@ -372,7 +464,8 @@ fn level(g: &Geometry, params: MeshParams, with_dielectrics: bool) -> Result<Bem
         }
     }
     let pair = g.layout == Layout::MirroredPair;
-    let ints = interactions(&mesh);
+    let sh = shared(&mesh);
+    let ints = &sh.ints;
     let ns = g.n_signals;
     let sym = |m: Vec<Vec<f64>>| -> Vec<Vec<f64>> {
         let n = m.len();
@@ -390,14 +483,14 @@ fn level(g: &Geometry, params: MeshParams, with_dielectrics: bool) -> Result<Bem
             let (s, m) = (0.5 * (odd + even), 0.5 * (even - odd));
             vec![vec![s, m], vec![m, s]]
         };
-        let vo = half_capacitance(&mesh, &ints, 1, -1.0, true)?[0][0];
-        let ve = half_capacitance(&mesh, &ints, 1, 1.0, true)?[0][0];
+        let vo = vacuum_half(&mesh, &sh, 1, -1.0)?[0][0];
+        let ve = vacuum_half(&mesh, &sh, 1, 1.0)?[0][0];
         let c0 = maxwell(vo, ve);
         if !with_dielectrics {
             (c0.clone(), c0)
         } else {
-            let co = half_capacitance(&mesh, &ints, 1, -1.0, false)?[0][0];
-            let ce = half_capacitance(&mesh, &ints, 1, 1.0, false)?[0][0];
+            let co = half_capacitance(&mesh, ints, 1, -1.0, false)?[0][0];
+            let ce = half_capacitance(&mesh, ints, 1, 1.0, false)?[0][0];
             (maxwell(co, ce), c0)
         }
     } else {
@@ -407,11 +500,11 @@ fn level(g: &Geometry, params: MeshParams, with_dielectrics: bool) -> Result<Bem
                 .map(|r| r.into_iter().map(|v| 2.0 * v).collect())
                 .collect()
         };
-        let c0 = double(half_capacitance(&mesh, &ints, ns, 1.0, true)?);
+        let c0 = double(vacuum_half(&mesh, &sh, ns, 1.0)?);
         if !with_dielectrics {
             (c0.clone(), c0)
         } else {
-            (double(half_capacitance(&mesh, &ints, ns, 1.0, false)?), c0)
+            (double(half_capacitance(&mesh, ints, ns, 1.0, false)?), c0)
         }
     };
     Ok(BemLevel {
