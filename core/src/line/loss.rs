@@ -903,26 +903,40 @@ pub fn for_rule(
     cs: &CrossSection,
     dims: &Dims,
 ) -> Result<LineModel> {
-    for_rule_with(project, rule, cs, dims, None)
+    on_engine(
+        project,
+        &Engine::for_rule(project, rule),
+        rule,
+        cs,
+        dims,
+        None,
+    )
 }
 
-/// [`for_rule`] with the rule engine's own answer at these dimensions, when the caller has it.
-pub fn for_rule_with(
+/// The loss model on the engine that made figures named `method` (the closed form for a closed-form method: the
+/// app's instant preview must not start field solves), with that engine's `nominal` answer.
+pub fn for_method(
     project: &Project,
+    method: &str,
+    rule: &ImpedanceRule,
+    cs: &CrossSection,
+    dims: &Dims,
+    nominal: Option<&Analysis>,
+) -> Result<LineModel> {
+    let engine = Engine::that_made(method, project).unwrap_or(Engine::ClosedForm);
+    on_engine(project, &engine, rule, cs, dims, nominal)
+}
+
+fn on_engine(
+    project: &Project,
+    engine: &Engine,
     rule: &ImpedanceRule,
     cs: &CrossSection,
     dims: &Dims,
     nominal: Option<&Analysis>,
 ) -> Result<LineModel> {
     let inputs = inputs_for_section(&project.loss, cs)?;
-    LineModel::on_with(
-        &Engine::for_rule(project, rule),
-        cs,
-        rule.structure,
-        dims,
-        inputs,
-        nominal,
-    )
+    LineModel::on_with(engine, cs, rule.structure, dims, inputs, nominal)
 }
 
 #[cfg(test)]

@@ -382,10 +382,8 @@ pub fn rule_figures(
         warnings.extend(cs.merged_dielectric_note());
     }
     warnings.extend(analysis.warnings().iter().cloned());
-    // The rule's engine made `analysis` when `method` names it; the loss model then reuses it.
-    let own = (method == crate::engine::Engine::for_rule(project, rule).method_name())
-        .then_some(&analysis);
-    let model = crate::line::loss::for_rule_with(project, rule, &cs, &dims, own);
+    // Loss on the engine that made `analysis` (the closed-form preview starts no field solve), reusing it.
+    let model = crate::line::loss::for_method(project, method, rule, &cs, &dims, Some(&analysis));
     let loss_probe = model.as_ref().ok().map(|m| m.probe());
     let loss = match model.and_then(|m| m.at(project.analysis_freq_hz)) {
         Ok(at) => {
@@ -485,7 +483,14 @@ pub fn loss_model(
             loss::inputs_for_section(&project.loss, &cs)?,
             probe,
         ),
-        None => loss::for_rule_with(project, rule, &cs, &dims, Some(&result.analysis)),
+        None => loss::for_method(
+            project,
+            &result.method,
+            rule,
+            &cs,
+            &dims,
+            Some(&result.analysis),
+        ),
     }
 }
 
