@@ -114,6 +114,8 @@ pub fn bindgen_inline(wasm_path: &std::path::Path) -> Result<(String, Vec<u8>)> 
         .input_path(wasm_path)
         .web(true)?
         .typescript(false)
+        // Function names only serve a profiler (set false to profile): 0.3 MB of the 1.9 MB module.
+        .remove_name_section(true)
         .generate_output()
         .with_context(|| format!("wasm-bindgen on {}", wasm_path.display()))?;
     let snippet_count: usize = output.snippets().values().map(Vec::len).sum();
