@@ -177,11 +177,13 @@ pub fn evaluate_rule_with(
     if engine.is_closed_form() {
         return compute(project, rule, engine);
     }
-    // Everything the result depends on: the stack, the fabrication limits and etch, the frequency, the rule.
+    // Everything the result depends on: the stack, the fabrication limits and etch, the frequency, the loss
+    // settings, the rule.
     let key = serde_json::to_string(&(
         &project.stackup,
         &project.fab,
         project.analysis_freq_hz,
+        &project.loss,
         project.units,
         rule,
         engine.name(),
@@ -506,6 +508,26 @@ impl RuleOutcome {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn a_changed_loss_setting_is_not_answered_from_the_field_cache() {
+        // The field results are kept per rule and stack; the copper's conductivity changes the loss (R ∝ 1/√σ,
+        // skin effect), so it must be part of what a kept result is found by.
+        let mut p = crate::design::demo::project();
+        let rule = p.rules[0].clone();
+        let engine = crate::engine::Engine::field(&p);
+        let before = evaluate_rule_with(&p, &rule, &engine).unwrap();
+        p.loss.conductivity_s_per_m *= 0.25;
+        let after = evaluate_rule_with(&p, &rule, &engine).unwrap();
+        let r = |x: &RuleResult| x.loss.as_ref().unwrap().signal().unwrap().r_skin_ohm_per_m;
+        // σ/4 doubles the skin resistance.
+        assert!(
+            (r(&after) / r(&before) - 2.0).abs() < 0.05,
+            "{} vs {}",
+            r(&before),
+            r(&after)
+        );
+    }
 
     #[test]
     fn a_result_rebuilds_its_loss_model_without_solving() {
