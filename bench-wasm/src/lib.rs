@@ -16,6 +16,8 @@ pub fn project() -> Project {
 /// One recompute: every rule solved and analysed, with the default tolerance spread. Returns a checksum (sum of
 /// the rules' impedances and yields) so that nothing is optimised away and both sides can be compared.
 pub fn recompute_once(project: &Project) -> f64 {
+    // Cold: nothing kept from a previous run (the field results per rule, the meshes' matrices).
+    ohmstack_core::plan::rule::forget_kept();
     let plan = plan_with(project, &PlanOptions::with_spread()).expect("the bench fixture plans");
     plan.rules
         .iter()

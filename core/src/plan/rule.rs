@@ -220,6 +220,13 @@ thread_local! {
         const { std::cell::RefCell::new(Vec::new()) };
 }
 
+/// Forgets every kept field result and mesh, so that a benchmark times cold work (a repeated plan otherwise answers
+/// each rule's nominal figures from [`CACHE`]).
+pub fn forget_kept() {
+    CACHE.with(|c| c.borrow_mut().clear());
+    crate::field::boundary::forget_kept();
+}
+
 /// A rule's dimensions after synthesis on an engine, with that engine's answer when the synthesis already has it.
 struct Solved {
     dims: Dims,

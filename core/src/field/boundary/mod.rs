@@ -433,9 +433,9 @@ fn shared(mesh: &Mesh) -> std::rc::Rc<Shared> {
     })
 }
 
-/// Forgets the kept meshes (the tests compare a solve that reuses them with one that does not).
-#[cfg(test)]
-fn forget_shared() {
+/// Forgets the kept meshes: the tests compare a solve that reuses them with one that does not, and the benchmarks
+/// time cold solves.
+pub fn forget_kept() {
     RECENT.with(|r| r.borrow_mut().clear());
 }
 

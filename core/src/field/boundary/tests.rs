@@ -512,10 +512,10 @@ fn a_dk_change_reuses_the_fill_and_gives_the_figures_of_a_fresh_solve() {
     {
         let p = BemOptions::default().fine;
         let scaled = g.with_dielectrics_scaled(1.07);
-        forget_shared();
+        forget_kept();
         let nominal = capacitances(&g, p).unwrap();
         let reused = capacitances(&scaled, p).unwrap();
-        forget_shared();
+        forget_kept();
         let fresh = capacitances(&scaled, p).unwrap();
         assert_eq!(reused.c, fresh.c, "{name}");
         assert_eq!(reused.c0, fresh.c0, "{name}");
