@@ -16,6 +16,8 @@ pub const FIELD_TOLERANCE: f64 = 1e-6;
 const SECANT_STEPS: usize = 8;
 /// Half-width (a factor) of the first bracket a field engine searches around the closed form's answer.
 const NEAR_FACTOR: f64 = 1.25;
+/// Largest change of the free dimension in one secant step.
+const MAX_SECANT_RATIO: f64 = 2.0;
 
 /// `engine` for solves whose error estimate nobody reads (a synthesis's iterates, the spread's fit): the fast
 /// field engine on its fine mesh alone, which gives the same impedance as the full solve. Other engines unchanged.
@@ -49,9 +51,9 @@ pub fn solve_bracketed(
 
 /// Solves the free dimension on a field engine, starting from the closed form's answer in `dims`: secant steps in
 /// log–log from there, the first along the closed form's own slope (Z is close to a power of the dimension, so
-/// three or four solves reach [`FIELD_TOLERANCE`]); if they leave the bracket a factor [`NEAR_FACTOR`] either side
-/// of the start or do not converge, bracketed root finding inside that bracket, then over the whole search range
-/// when the target lies outside it.
+/// three or four solves reach [`FIELD_TOLERANCE`]), anywhere within the fabricator's limits and the search range;
+/// if they leave those or do not converge, bracketed root finding in the bracket a factor [`NEAR_FACTOR`] either
+/// side of the start, then over the whole search range when the target lies outside it.
 pub fn solve_near(
     project: &Project,
     rule: &ImpedanceRule,
@@ -69,11 +71,7 @@ pub fn solve_near(
         _ => project.fab.min_trace_m,
     };
     let upper = (100.0 * cs.scale_height()).min(MAX_LENGTH_M);
-    let range = (
-        (start / NEAR_FACTOR).max(lower),
-        (start * NEAR_FACTOR).min(upper),
-    );
-    if let Some(x) = secant_near(rule, cs, engine, dims, start, range) {
+    if let Some(x) = secant_near(rule, cs, engine, dims, start, (lower, upper)) {
         match rule.solve {
             Solve::Spacing => dims.s = Some(x),
             _ => dims.w = x,
@@ -102,7 +100,7 @@ pub fn solve_near(
 }
 
 /// Secant iteration in (ln x, ln Z) from `start` on `engine`, the first slope the closed form's; `None` when a
-/// solve fails, a step leaves the [`NEAR_FACTOR`] bracket or the fabricator's limits, or it has not converged
+/// solve fails, a step leaves `(lo, hi)` (the fabricator's limits and the search range), or it has not converged
 /// after [`SECANT_STEPS`] solves (the caller then brackets).
 fn secant_near(
     rule: &ImpedanceRule,
@@ -140,7 +138,12 @@ fn secant_near(
         if !(slope.is_finite() && slope.abs() > 1e-6) {
             return None;
         }
-        let next = x * ((target.ln() - z.ln()) / slope).exp();
+        // At most a factor MAX_SECANT_RATIO a step: the closed form's slope can be far from the field's where its
+        // start is far off (a plane-less coplanar pair: 14 % high at the closed form's width).
+        let next = x
+            * ((target.ln() - z.ln()) / slope)
+                .exp()
+                .clamp(1.0 / MAX_SECANT_RATIO, MAX_SECANT_RATIO);
         if !(next >= lo && next <= hi) {
             return None;
         }
