@@ -62,7 +62,7 @@ pub fn options() -> PlanOptions {
 }
 
 /// Everything one rule's outcome depends on: the project without its title, revision and other rules (the rule's
-/// name is kept: the spread's random stream mixes it in), and the options. Over-inclusive by design: a field added
+/// name is kept: the outcome carries it), and the options. Over-inclusive by design: a field added
 /// to the project later is part of the key until someone shows the rules do not read it.
 pub fn rule_key(project: &Project, rule: &ImpedanceRule, options: &PlanOptions) -> String {
     let slice = Project {
