@@ -196,13 +196,17 @@ pub fn App() -> Html {
     // The potential map of the last field check, with the project it was solved for (any edit makes it stale).
     let field_map = use_state(|| None::<(ohmstack_core::Project, Rc<bridge::FieldMapView>)>);
     let map_serial = use_mut_ref(|| 0u32);
+    // The map is tagged with the project on screen when it lands. The callback itself stays the same across
+    // renders (it reads that project from a cell), so the rule cards' props do not change with it.
+    let shown_project = use_mut_ref(|| state.project.clone());
+    *shown_project.borrow_mut() = state.project.clone();
     let on_field_map = {
-        let (field_map, project) = (field_map.clone(), state.project.clone());
-        Callback::from(move |mut view: bridge::FieldMapView| {
+        let field_map = field_map.clone();
+        use_callback((), move |mut view: bridge::FieldMapView, _| {
             let mut serial = map_serial.borrow_mut();
             *serial += 1;
             view.serial = *serial;
-            field_map.set(Some((project.clone(), Rc::new(view))));
+            field_map.set(Some((shown_project.borrow().clone(), Rc::new(view))));
         })
     };
     let current_map = match &*field_map {
@@ -361,9 +365,10 @@ pub fn App() -> Html {
             move || drop(listener)
         });
     }
+    // One callback for the whole session (the dispatcher does not change), so components given it can skip renders.
     let dispatch = {
         let d = state.dispatcher();
-        Callback::from(move |a: Action| d.dispatch(a))
+        use_callback((), move |a: Action, _| d.dispatch(a))
     };
     let on_load = {
         let d = dispatch.clone();

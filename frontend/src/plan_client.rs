@@ -119,7 +119,8 @@ impl PlanClient {
         let seen = answered.clone();
         let on_message = Closure::<dyn FnMut(MessageEvent)>::new(move |e: MessageEvent| {
             seen.set(true);
-            match serde_wasm_bindgen::from_value::<Vec<Update>>(e.data()) {
+            let text = e.data().as_string().unwrap_or_default();
+            match serde_json::from_str::<Vec<Update>>(&text) {
                 Ok(updates) => on_event(Event::Updates(updates)),
                 Err(err) => on_event(Event::Updates(vec![Update::Failed {
                     generation: 0,

@@ -284,133 +284,260 @@ fn results(i: usize, r: &RuleResult, project: &Project, state: RowState) -> Html
 }
 
 #[component]
-pub fn Rules(props: &RulesProps) -> Html {
+fn RuleCard(props: &RuleCardProps) -> Html {
+    let i = props.index;
     let project = &props.project;
+    let Some(rule) = project.rules.get(i) else {
+        return html! {};
+    };
     let unit = project.units;
     let d = &props.dispatch;
     let draft = |f: Field| props.drafts.get(&f).cloned();
-    let coppers: Vec<String> = project
-        .stackup
-        .layers
+    let coppers = &props.coppers;
+    let title = if rule.name.trim().is_empty() {
+        format!("Rule {}", i + 1)
+    } else {
+        rule.name.clone()
+    };
+    let mut layer_options: Vec<(AttrValue, AttrValue)> = coppers
         .iter()
-        .filter_map(|l| l.copper())
-        .map(|c| c.name.clone())
+        .map(|c| (AttrValue::from(c.clone()), AttrValue::from(c.clone())))
         .collect();
-    let cards = project.rules.iter().enumerate().map(|(i, rule)| {
-        let title = if rule.name.trim().is_empty() { format!("Rule {}", i + 1) } else { rule.name.clone() };
-        let mut layer_options: Vec<(AttrValue, AttrValue)> =
-            coppers.iter().map(|c| (AttrValue::from(c.clone()), AttrValue::from(c.clone()))).collect();
-        if !coppers.contains(&rule.layer) {
-            layer_options.insert(0, (rule.layer.clone().into(), format!("{} (missing)", rule.layer).into()));
-        }
-        let allowed = bridge::structures_for(&project.stackup, &rule.layer);
-        let structure_options: Vec<(AttrValue, AttrValue)> = Structure::ALL
-            .into_iter()
-            .filter(|s| allowed.contains(s) || *s == rule.structure)
-            .map(|s| {
-                let label = if allowed.contains(&s) { s.label().to_string() } else { format!("{} (not possible on this layer)", s.label()) };
-                (AttrValue::from(structure_key(s)), AttrValue::from(label))
-            })
-            .collect();
-        let spacing_solvable = matches!(rule.structure, Structure::EdgePair | Structure::CoplanarPair);
-        let mut solve_options: Vec<(AttrValue, AttrValue)> = vec![("width".into(), "width".into())];
-        if spacing_solvable {
-            solve_options.push(("spacing".into(), "spacing".into()));
-        }
-        solve_options.push(("nothing".into(), "nothing (analyse as drawn)".into()));
-        let on_layer = { let d = d.clone(); Callback::from(move |v: String| d.emit(Action::SetRuleLayer(i, v))) };
-        let on_structure = {
-            let d = d.clone();
-            Callback::from(move |v: String| {
-                if let Some(s) = Structure::ALL.into_iter().find(|s| structure_key(*s) == v) {
-                    d.emit(Action::SetRuleStructure(i, s))
-                }
-            })
-        };
-        let on_solve = {
-            let d = d.clone();
-            Callback::from(move |v: String| {
-                let s = match v.as_str() { "spacing" => Solve::Spacing, "nothing" => Solve::Nothing, _ => Solve::Width };
-                d.emit(Action::SetRuleSolve(i, s))
-            })
-        };
-        let on_model = {
-            let d = d.clone();
-            Callback::from(move |v: String| {
-                let m = if v == "field_solver" { RuleModel::FieldSolver } else { RuleModel::ClosedForm };
-                d.emit(Action::SetRuleModel(i, m))
-            })
-        };
-        let model_options: Vec<(AttrValue, AttrValue)> = vec![
-            ("closed_form".into(), "closed form".into()),
-            ("field_solver".into(), "2D field solver".into()),
-        ];
-        let model_key = if rule.model == RuleModel::FieldSolver { "field_solver" } else { "closed_form" };
-        let on_partner = { let d = d.clone(); Callback::from(move |v: String| d.emit(Action::SetRulePartner(i, v))) };
-        let len = |f: RuleField, label: &str, m: f64| html! {
+    if !coppers.contains(&rule.layer) {
+        layer_options.insert(
+            0,
+            (
+                rule.layer.clone().into(),
+                format!("{} (missing)", rule.layer).into(),
+            ),
+        );
+    }
+    let allowed = bridge::structures_for(&project.stackup, &rule.layer);
+    let structure_options: Vec<(AttrValue, AttrValue)> = Structure::ALL
+        .into_iter()
+        .filter(|s| allowed.contains(s) || *s == rule.structure)
+        .map(|s| {
+            let label = if allowed.contains(&s) {
+                s.label().to_string()
+            } else {
+                format!("{} (not possible on this layer)", s.label())
+            };
+            (AttrValue::from(structure_key(s)), AttrValue::from(label))
+        })
+        .collect();
+    let spacing_solvable = matches!(
+        rule.structure,
+        Structure::EdgePair | Structure::CoplanarPair
+    );
+    let mut solve_options: Vec<(AttrValue, AttrValue)> = vec![("width".into(), "width".into())];
+    if spacing_solvable {
+        solve_options.push(("spacing".into(), "spacing".into()));
+    }
+    solve_options.push(("nothing".into(), "nothing (analyse as drawn)".into()));
+    let on_layer = {
+        let d = d.clone();
+        Callback::from(move |v: String| d.emit(Action::SetRuleLayer(i, v)))
+    };
+    let on_structure = {
+        let d = d.clone();
+        Callback::from(move |v: String| {
+            if let Some(s) = Structure::ALL.into_iter().find(|s| structure_key(*s) == v) {
+                d.emit(Action::SetRuleStructure(i, s))
+            }
+        })
+    };
+    let on_solve = {
+        let d = d.clone();
+        Callback::from(move |v: String| {
+            let s = match v.as_str() {
+                "spacing" => Solve::Spacing,
+                "nothing" => Solve::Nothing,
+                _ => Solve::Width,
+            };
+            d.emit(Action::SetRuleSolve(i, s))
+        })
+    };
+    let on_model = {
+        let d = d.clone();
+        Callback::from(move |v: String| {
+            let m = if v == "field_solver" {
+                RuleModel::FieldSolver
+            } else {
+                RuleModel::ClosedForm
+            };
+            d.emit(Action::SetRuleModel(i, m))
+        })
+    };
+    let model_options: Vec<(AttrValue, AttrValue)> = vec![
+        ("closed_form".into(), "closed form".into()),
+        ("field_solver".into(), "2D field solver".into()),
+    ];
+    let model_key = if rule.model == RuleModel::FieldSolver {
+        "field_solver"
+    } else {
+        "closed_form"
+    };
+    let on_partner = {
+        let d = d.clone();
+        Callback::from(move |v: String| d.emit(Action::SetRulePartner(i, v)))
+    };
+    let len = |f: RuleField, label: &str, m: f64| {
+        html! {
             <TextField field={Field::Rule(i, f)} label={format!("{label} ({})", unit.symbol())} size="narrow"
                 value={bridge::length_text(m, unit)} draft={draft(Field::Rule(i, f))} dispatch={d.clone()} />
-        };
-        let width_label = if rule.solve == Solve::Width { "Start width" } else { "Width" };
-        let spacing_label = if rule.solve == Solve::Spacing { "Start spacing" } else { "Spacing" };
-        let outcome = props.plan.as_ref().and_then(|p| p.rules.get(i));
-        let row = props.rows.get(i).copied().unwrap_or(RowState::Final);
-        let body = match outcome {
-            Some(RuleOutcome::Ok(r)) => html! { <>{ unreached(i, r, project, d) }{ results(i, r, project, row) }</> },
-            Some(RuleOutcome::Error { message, .. }) => html! {
-                <p class="error rule-error" data-testid={format!("rule-{i}-error")}>{ message.clone() }</p>
-            },
-            None => html! {},
-        };
-        let (dup, remove) = {
-            let (d1, d2) = (d.clone(), d.clone());
-            (Callback::from(move |_: MouseEvent| d1.emit(Action::DuplicateRule(i))), Callback::from(move |_: MouseEvent| d2.emit(Action::RemoveRule(i))))
-        };
-        let partners = if rule.structure == Structure::BroadsidePair {
-            let mut options: Vec<(AttrValue, AttrValue)> = bridge::broadside_partners(&project.stackup, &rule.layer)
+        }
+    };
+    let width_label = if rule.solve == Solve::Width {
+        "Start width"
+    } else {
+        "Width"
+    };
+    let spacing_label = if rule.solve == Solve::Spacing {
+        "Start spacing"
+    } else {
+        "Spacing"
+    };
+    let outcome = props.outcome.as_ref();
+    let row = props.row;
+    let body = match outcome {
+        Some(RuleOutcome::Ok(r)) => {
+            html! { <>{ unreached(i, r, project, d) }{ results(i, r, project, row) }</> }
+        }
+        Some(RuleOutcome::Error { message, .. }) => html! {
+            <p class="error rule-error" data-testid={format!("rule-{i}-error")}>{ message.clone() }</p>
+        },
+        None => html! {},
+    };
+    let (dup, remove) = {
+        let (d1, d2) = (d.clone(), d.clone());
+        (
+            Callback::from(move |_: MouseEvent| d1.emit(Action::DuplicateRule(i))),
+            Callback::from(move |_: MouseEvent| d2.emit(Action::RemoveRule(i))),
+        )
+    };
+    let partners = if rule.structure == Structure::BroadsidePair {
+        let mut options: Vec<(AttrValue, AttrValue)> =
+            bridge::broadside_partners(&project.stackup, &rule.layer)
                 .into_iter()
                 .map(|p| (AttrValue::from(p.clone()), AttrValue::from(p)))
                 .collect();
-            let current = rule.partner_layer.clone().unwrap_or_default();
-            if !options.iter().any(|(v, _)| v.as_str() == current) {
-                options.insert(0, (current.clone().into(), format!("{current} (not usable)").into()));
-            }
-            html! { <Select id={format!("rule-{i}-partner")} label="Second trace on" options={options} selected={current} onchange={on_partner} /> }
-        } else {
-            html! {}
-        };
-        html! {
-            <li class={classes!("rule-card", props.stale.then_some("stale"))} data-testid={format!("rule-card-{i}")} aria-label={title.clone()}
-                data-field={match row { RowState::Preview => "pending", RowState::Nominal => "nominal", RowState::Final => "landed" }}>
-                <div class="rule-inputs">
-                    <TextField field={Field::Rule(i, RuleField::Name)} label="Net class" size="wide" value={rule.name.clone()}
-                        draft={draft(Field::Rule(i, RuleField::Name))} dispatch={d.clone()} />
-                    <Select id={format!("rule-{i}-layer")} label="Layer" options={layer_options} selected={rule.layer.clone()} onchange={on_layer} />
-                    <Select id={format!("rule-{i}-structure")} label="Structure" options={structure_options} selected={structure_key(rule.structure)} onchange={on_structure} />
-                    { partners }
-                    <TextField field={Field::Rule(i, RuleField::Target)} label={if rule.structure.is_pair() { "Target Zdiff (Ω)" } else { "Target Z0 (Ω)" }} size="narrow"
-                        value={format_sig(rule.target_ohm, 6)} draft={draft(Field::Rule(i, RuleField::Target))} dispatch={d.clone()} />
-                    <TextField field={Field::Rule(i, RuleField::Tolerance)} label="± (%)" size="narrow"
-                        value={format_sig(rule.tolerance_pct, 6)} draft={draft(Field::Rule(i, RuleField::Tolerance))} dispatch={d.clone()} />
-                    <Select id={format!("rule-{i}-solve")} label="Solve for" options={solve_options} selected={solve_key(rule.solve)} onchange={on_solve} />
-                    <Select id={format!("rule-{i}-model")} label="Model" options={model_options} selected={model_key} onchange={on_model} />
-                    { len(RuleField::Width, width_label, rule.width_m) }
-                    if let (Some(s), true) = (rule.spacing_m, matches!(rule.structure, Structure::EdgePair | Structure::CoplanarPair)) {
-                        { len(RuleField::Spacing, spacing_label, s) }
-                    }
-                    if let (Some(g), true) = (rule.gap_m, matches!(rule.structure, Structure::Coplanar | Structure::CoplanarPair)) {
-                        { len(RuleField::Gap, "Gap to ground", g) }
-                    }
-                    <div class="card-actions no-print">
-                        <button type="button" id={format!("rule-{i}-dup")} aria-label={format!("Duplicate rule {title}")} title="Duplicate" onclick={dup}>{ "Duplicate" }</button>
-                        <button type="button" id={format!("rule-{i}-remove")} aria-label={format!("Remove rule {title}")} title="Remove" onclick={remove}>{ "Remove" }</button>
-                    </div>
+        let current = rule.partner_layer.clone().unwrap_or_default();
+        if !options.iter().any(|(v, _)| v.as_str() == current) {
+            options.insert(
+                0,
+                (
+                    current.clone().into(),
+                    format!("{current} (not usable)").into(),
+                ),
+            );
+        }
+        html! { <Select id={format!("rule-{i}-partner")} label="Second trace on" options={options} selected={current} onchange={on_partner} /> }
+    } else {
+        html! {}
+    };
+    html! {
+        <li class={classes!("rule-card", props.stale.then_some("stale"))} data-testid={format!("rule-card-{i}")} aria-label={title.clone()}
+            data-field={match row { RowState::Preview => "pending", RowState::Nominal => "nominal", RowState::Final => "landed" }}>
+            <div class="rule-inputs">
+                <TextField field={Field::Rule(i, RuleField::Name)} label="Net class" size="wide" value={rule.name.clone()}
+                    draft={draft(Field::Rule(i, RuleField::Name))} dispatch={d.clone()} />
+                <Select id={format!("rule-{i}-layer")} label="Layer" options={layer_options} selected={rule.layer.clone()} onchange={on_layer} />
+                <Select id={format!("rule-{i}-structure")} label="Structure" options={structure_options} selected={structure_key(rule.structure)} onchange={on_structure} />
+                { partners }
+                <TextField field={Field::Rule(i, RuleField::Target)} label={if rule.structure.is_pair() { "Target Zdiff (Ω)" } else { "Target Z0 (Ω)" }} size="narrow"
+                    value={format_sig(rule.target_ohm, 6)} draft={draft(Field::Rule(i, RuleField::Target))} dispatch={d.clone()} />
+                <TextField field={Field::Rule(i, RuleField::Tolerance)} label="± (%)" size="narrow"
+                    value={format_sig(rule.tolerance_pct, 6)} draft={draft(Field::Rule(i, RuleField::Tolerance))} dispatch={d.clone()} />
+                <Select id={format!("rule-{i}-solve")} label="Solve for" options={solve_options} selected={solve_key(rule.solve)} onchange={on_solve} />
+                <Select id={format!("rule-{i}-model")} label="Model" options={model_options} selected={model_key} onchange={on_model} />
+                { len(RuleField::Width, width_label, rule.width_m) }
+                if let (Some(s), true) = (rule.spacing_m, matches!(rule.structure, Structure::EdgePair | Structure::CoplanarPair)) {
+                    { len(RuleField::Spacing, spacing_label, s) }
+                }
+                if let (Some(g), true) = (rule.gap_m, matches!(rule.structure, Structure::Coplanar | Structure::CoplanarPair)) {
+                    { len(RuleField::Gap, "Gap to ground", g) }
+                }
+                <div class="card-actions no-print">
+                    <button type="button" id={format!("rule-{i}-dup")} aria-label={format!("Duplicate rule {title}")} title="Duplicate" onclick={dup}>{ "Duplicate" }</button>
+                    <button type="button" id={format!("rule-{i}-remove")} aria-label={format!("Remove rule {title}")} title="Remove" onclick={remove}>{ "Remove" }</button>
                 </div>
-                { body }
-                <super::FieldCheck project={props.project.clone()} index={i} on_map={props.on_field_map.clone()} />
-            </li>
+            </div>
+            { body }
+            <super::FieldCheck project={props.project.clone()} index={i} on_map={props.on_field_map.clone()} />
+        </li>
+    }
+}
+
+/// One card's inputs. A keystroke in one rule changes only that card's props, so the other cards skip their
+/// render (a whole-page render per keystroke was the long task left while typing on a 16-rule board).
+#[derive(Properties)]
+pub struct RuleCardProps {
+    pub index: usize,
+    /// The whole project (the field check and the one-click alternatives need it); compared without its other
+    /// rules, see the `PartialEq` below.
+    pub project: Rc<Project>,
+    pub outcome: Option<RuleOutcome>,
+    pub row: RowState,
+    pub stale: bool,
+    pub coppers: Rc<Vec<String>>,
+    /// This card's drafts only.
+    pub drafts: BTreeMap<Field, Draft>,
+    pub dispatch: Callback<Action>,
+    pub on_field_map: Callback<crate::bridge::FieldMapView>,
+}
+
+impl PartialEq for RuleCardProps {
+    fn eq(&self, other: &Self) -> bool {
+        let (a, b) = (&*self.project, &*other.project);
+        // Everything but the other rules: the stack, fab, units, frequency, loss and process settings, this rule.
+        let same_project = Rc::ptr_eq(&self.project, &other.project)
+            || (a.rules.get(self.index) == b.rules.get(other.index)
+                && a.stackup == b.stackup
+                && a.fab == b.fab
+                && a.units == b.units
+                && a.analysis_freq_hz == b.analysis_freq_hz
+                && a.loss == b.loss
+                && a.process == b.process);
+        self.index == other.index
+            && same_project
+            && self.outcome == other.outcome
+            && self.row == other.row
+            && self.stale == other.stale
+            && self.coppers == other.coppers
+            && self.drafts == other.drafts
+            && self.dispatch == other.dispatch
+            && self.on_field_map == other.on_field_map
+    }
+}
+
+#[component]
+pub fn Rules(props: &RulesProps) -> Html {
+    let project = &props.project;
+    let coppers: Rc<Vec<String>> = Rc::new(
+        project
+            .stackup
+            .layers
+            .iter()
+            .filter_map(|l| l.copper())
+            .map(|c| c.name.clone())
+            .collect(),
+    );
+    let cards = (0..project.rules.len()).map(|i| {
+        let drafts: BTreeMap<Field, Draft> = props
+            .drafts
+            .iter()
+            .filter(|(f, _)| matches!(f, Field::Rule(k, _) if *k == i))
+            .map(|(f, d)| (*f, d.clone()))
+            .collect();
+        html! {
+            <RuleCard key={i} index={i} project={props.project.clone()}
+                outcome={props.plan.as_ref().and_then(|p| p.rules.get(i)).cloned()}
+                row={props.rows.get(i).copied().unwrap_or(RowState::Final)} stale={props.stale}
+                coppers={coppers.clone()} drafts={drafts} dispatch={props.dispatch.clone()}
+                on_field_map={props.on_field_map.clone()} />
         }
     });
+    let d = &props.dispatch;
     let add = {
         let d = d.clone();
         Callback::from(move |_: MouseEvent| d.emit(Action::AddRule))
