@@ -263,6 +263,7 @@ fn project() -> impl Strategy<Value = Project> {
                         etch_factor: etch,
                         thickness_tolerance_pct: thick,
                         outer_plating_m: None,
+                        target_thickness_m: None,
                     },
                     loss,
                     process: custom_loss.then(Process::default),

@@ -13,8 +13,7 @@ use crate::engine::is_field_method;
 use crate::plan::{Plan, RuleOutcome};
 use serde::{Serialize, Serializer};
 
-/// Board thickness tolerance used when the project sets none, ± % (common practice, no source).
-pub const DEFAULT_THICKNESS_TOLERANCE_PCT: f64 = 10.0;
+pub use crate::design::project::DEFAULT_THICKNESS_TOLERANCE_PCT;
 
 /// The date the notes are issued: a valid calendar date, written ISO 8601 (`2026-03-14`).
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
