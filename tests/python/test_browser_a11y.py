@@ -157,5 +157,6 @@ def test_every_control_is_reachable_by_tab(driver):
         if seen and key == seen[0]:
             break
         seen.append(key)
+    print(f"Tab walk: {len(seen)} stops for {len(want)} enabled controls")
     missing = [k for k in want if k not in seen]
     assert not missing, f"Tab never reaches: {missing[:20]}"

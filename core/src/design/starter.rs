@@ -252,6 +252,10 @@ pub fn apply(project: &Project, copper_layers: usize) -> Option<(Project, Vec<St
     };
     if p.rules.is_empty() {
         p.rules = rules(&stackup);
+        notes.push(format!(
+            "added a 50 Ω trace and a 100 Ω pair on each of its {} signal layers",
+            roles(copper_layers).map_or(0, |r| r.matches('S').count())
+        ));
     } else {
         for r in &mut p.rules {
             let was = r.layer.clone();
@@ -375,9 +379,10 @@ mod tests {
         // A project without rules gets the starter's: 50 Ω and 100 Ω on each of the four signal layers.
         let mut blank = demo.clone();
         blank.rules.clear();
-        let (p, _) = apply(&blank, 8).unwrap();
+        let (p, notes) = apply(&blank, 8).unwrap();
         p.validate().unwrap();
         assert_eq!(p.rules.len(), 8);
+        assert!(notes[0].contains("4 signal layers"), "{notes:?}");
         // A target already set is the user's and stays.
         blank.fab.target_thickness_m = Some(1.0e-3);
         assert_eq!(
