@@ -37,6 +37,8 @@ BLOCKING = {"serious", "critical"}
 def run_axe(driver, name: str, context: str = "document") -> list[dict]:
     """Runs axe over `context` (a CSS selector or the whole document) with the WCAG 2 A/AA rules and best
     practices; saves the full result as an artefact and returns the serious and critical violations."""
+    if context != "document":
+        assert driver.find_elements(By.CSS_SELECTOR, context), f"nothing matches {context!r} to check"
     if not driver.execute_script("return typeof window.axe !== 'undefined'"):
         driver.execute_script(axe_script())
     result = driver.execute_async_script(
