@@ -528,16 +528,17 @@ fn renumbered(p: &Project) -> BTreeMap<String, String> {
         .map(|l| {
             l.copper().map(|c| {
                 k += 1;
-                let tag = starter::copper_tag(&c.name);
-                let rest = if tag == c.name {
-                    ""
+                let name = c.name.trim();
+                let tag = starter::copper_tag(name);
+                // `copper_tag` gives back the whole name unless it starts with a number tag such as "L3".
+                let numbered = tag.starts_with('L')
+                    && tag.len() > 1
+                    && tag[1..].chars().all(|ch| ch.is_ascii_digit());
+                let rest = if numbered {
+                    let after = name.strip_prefix(tag).unwrap_or_default().trim();
+                    after.strip_suffix("new").unwrap_or(after).trim()
                 } else {
-                    c.name[tag.len()..].trim()
-                };
-                let rest = if tag.starts_with('L') && tag[1..].parse::<u32>().is_ok() {
-                    rest.trim_end_matches("new").trim()
-                } else {
-                    c.name.as_str()
+                    name
                 };
                 if rest.is_empty() {
                     format!("L{k}")
@@ -1815,6 +1816,34 @@ mod tests {
         assert_eq!(r.project.rules[3].layer, "L5 Inner");
         let u = reduce(r, Action::Undo);
         assert_eq!(on(&u), on(&s0));
+    }
+
+    #[test]
+    fn renumbering_takes_any_name() {
+        // Names from a file may carry odd spacing, other scripts, or a bare number tag: none may panic, and each
+        // copper ends up with its number first.
+        let mut p = blank_project();
+        let names = ["\u{3000}L3 wide space", "L", "L12", "Ω plane"];
+        p.stackup.layers = names
+            .iter()
+            .flat_map(|n| {
+                [
+                    new_copper(n.to_string()),
+                    Layer::Prepreg(laminate(format!("between {n}"), "fr4", 100e-6)),
+                ]
+            })
+            .collect();
+        p.stackup.layers.pop();
+        let s = reduce(State::new(p), Action::RenumberLayers);
+        let copper: Vec<&str> = s
+            .project
+            .stackup
+            .layers
+            .iter()
+            .filter_map(|l| l.copper())
+            .map(|c| c.name.as_str())
+            .collect();
+        assert_eq!(copper, ["L1 wide space", "L2 L", "L3", "L4 Ω plane"]);
     }
 
     #[test]
