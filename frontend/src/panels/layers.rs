@@ -230,7 +230,7 @@ pub fn Layers(props: &LayersProps) -> Html {
     });
     let target_field = Field::Process(ProcessField::TargetThickness);
     let target_input = html! {
-        <TextField field={target_field} label={format!("Target board thickness ({})", unit.symbol())} size="narrow"
+        <TextField field={target_field} label={format!("Target board thickness ({})", unit.symbol())} hidden_label=true size="narrow"
             value={project.fab.target_thickness_m.map(|t| bridge::length_text(t, unit)).unwrap_or_default()}
             placeholder={AttrValue::from("none")} draft={draft(target_field)} dispatch={d.clone()} />
     };
@@ -260,7 +260,12 @@ pub fn Layers(props: &LayersProps) -> Html {
                 } else {
                     <span class="warn" data-testid="symmetry" role="status">{ " · not mirror-symmetric about the centre: an unbalanced stack tends to bow and twist in lamination and reflow (common practice)" }</span>
                 }
-                <div class="target-row">{ target_input }{ against_target }</div>
+                // Inline with the totals (the label is for screen readers; the words before the box say it), so the
+                // rules stay as high on the page as before.
+                { " · " }
+                <span class="target-row">
+                    <span aria-hidden="true">{ format!("target ({})", unit.symbol()) }</span>{ target_input }{ against_target }
+                </span>
             </div>
         },
         None => html! {},
