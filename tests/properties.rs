@@ -230,12 +230,27 @@ fn project() -> impl Strategy<Value = Project> {
                 prop_oneof![Just(1e9), 1e6..5e10f64],
                 (30e-6..150e-6f64, 30e-6..150e-6f64),
                 prop::option::of(1.0..10.0f64),
-                prop::option::of(0.0..20.0f64),
+                (
+                    prop::option::of(0.0..20.0f64),
+                    prop::option::of(0.4e-3..6e-3f64),
+                ),
                 (any::<bool>(), 1e7..6e7f64, any::<bool>(), any::<bool>()),
             )
         })
         .prop_map(
-            |(stack, mut rules, n, title, revision, units, f, (mt, ms), etch, thick, lo)| {
+            |(
+                stack,
+                mut rules,
+                n,
+                title,
+                revision,
+                units,
+                f,
+                (mt, ms),
+                etch,
+                (thick, target),
+                lo,
+            )| {
                 rules.truncate(n);
                 let (custom_loss, sigma, constant, dispersion) = lo;
                 let loss = if custom_loss {
@@ -263,6 +278,7 @@ fn project() -> impl Strategy<Value = Project> {
                         etch_factor: etch,
                         thickness_tolerance_pct: thick,
                         outer_plating_m: None,
+                        target_thickness_m: target,
                     },
                     loss,
                     process: custom_loss.then(Process::default),

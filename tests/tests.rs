@@ -6,4 +6,5 @@ mod physical_bounds;
 mod properties;
 mod regression;
 mod schema;
+mod starters;
 mod tidy;

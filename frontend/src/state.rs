@@ -13,6 +13,7 @@ use ohmstack_core::design::process::{Distribution, LayerProcess, Process, Tolera
 use ohmstack_core::design::project::{ImpedanceRule, RuleModel, Solve, Structure};
 use ohmstack_core::design::roughness::Foil;
 use ohmstack_core::design::stackup::{Copper, CopperRole, Dielectric};
+use ohmstack_core::design::starter;
 use ohmstack_core::{Layer, Project};
 use std::collections::BTreeMap;
 use std::rc::Rc;
@@ -184,6 +185,8 @@ pub enum ProcessField {
     OuterPlating,
     /// `fab.thickness_tolerance_pct` (blank: the common ±10 %).
     BoardThicknessTol,
+    /// `fab.target_thickness_m` (blank: no target).
+    TargetThickness,
     Tol(TolKind),
 }
 
@@ -193,6 +196,7 @@ impl ProcessField {
             ProcessField::EtchFactor => "etch-factor".into(),
             ProcessField::OuterPlating => "outer-plating".into(),
             ProcessField::BoardThicknessTol => "board-thickness-tol".into(),
+            ProcessField::TargetThickness => "target-thickness".into(),
             ProcessField::Tol(k) => format!("tol-{}", k.key()),
         }
     }
@@ -367,8 +371,16 @@ pub enum Action {
     /// Copper weight in oz/ft².
     SetCopperWeight(usize, f64),
     ApplyPreset(usize, &'static str),
-    /// Insert a new layer below `usize` (the other kind: dielectric under copper, copper under dielectric).
+    /// Insert a new layer below `usize` (the other kind: dielectric under copper, copper under dielectric), named
+    /// by its position.
     InsertLayer(usize),
+    /// Insert a new layer above `usize`, as [`Action::InsertLayer`] does below.
+    InsertAbove(usize),
+    /// Rename every copper layer "L1 …", "L2 …" from the top (keeping what follows the number) and every core and
+    /// prepreg by the copper around it; rules and per-layer limits follow the new names.
+    RenumberLayers,
+    /// Replace the stack by the starter of this many copper layers (rules kept and moved by position); one undo step.
+    Starter(usize),
     /// Append a layer at the bottom.
     AddLayer,
     RemoveLayer(usize),
@@ -449,6 +461,123 @@ fn rename_layer(layer: &mut Layer, name: String) {
         Layer::Copper(c) => c.name = name,
         Layer::Core(d) | Layer::Prepreg(d) | Layer::SolderMask(d) => d.name = name,
     }
+}
+
+/// The name a layer inserted at `at` of `p` gets from where it sits: copper "L3" by its place among the copper
+/// layers (or "L3 new" where a layer already carries that number), a prepreg by the copper around it
+/// ("Prepreg L2–L3"). Existing names are left alone, so rules naming them stay as they are.
+fn positional_name(p: &Project, at: usize, copper: bool) -> String {
+    let layers = &p.stackup.layers;
+    if copper {
+        let k = layers[..at].iter().filter(|l| l.copper().is_some()).count() + 1;
+        let tag = format!("L{k}");
+        let numbered = layers
+            .iter()
+            .filter_map(Layer::copper)
+            .any(|c| starter::copper_tag(&c.name) == tag);
+        unique_name(p, &if numbered { format!("{tag} new") } else { tag })
+    } else {
+        let above = layers[..at].iter().rev().find_map(Layer::copper);
+        // `at` holds the new layer's placeholder (or is past the end): what is below starts after it.
+        let below = layers
+            .get(at + 1..)
+            .unwrap_or(&[])
+            .iter()
+            .find_map(Layer::copper);
+        let name = starter::dielectric_name(
+            "Prepreg",
+            above.map(|c| c.name.as_str()),
+            below.map(|c| c.name.as_str()),
+        );
+        unique_name(p, &name)
+    }
+}
+
+/// Renames layers by the map `(old, new)` in the stack, the rules (layer, partner, references) and the per-layer
+/// process limits, all at once (so "L3 → L4" and "L4 → L5" do not collide).
+fn rename_all(p: &mut Project, map: &BTreeMap<String, String>) {
+    let to = |n: &mut String| {
+        if let Some(new) = map.get(n.as_str()) {
+            *n = new.clone();
+        }
+    };
+    for layer in &mut p.stackup.layers {
+        let mut name = layer.name().to_string();
+        to(&mut name);
+        rename_layer(layer, name);
+    }
+    for r in &mut p.rules {
+        to(&mut r.layer);
+        if let Some(partner) = r.partner_layer.as_mut() {
+            to(partner);
+        }
+        r.references.iter_mut().for_each(to);
+    }
+    for o in p.process.iter_mut().flat_map(|pr| pr.layers.iter_mut()) {
+        to(&mut o.layer);
+    }
+}
+
+/// The renumbering of [`Action::RenumberLayers`]: copper "L<k> <rest>" from the top (a name without a number keeps
+/// it after the new one; a trailing "new" from an insert goes), cores and prepregs "Core L2–L3".
+fn renumbered(p: &Project) -> BTreeMap<String, String> {
+    let layers = &p.stackup.layers;
+    let mut k = 0;
+    let coppers: Vec<Option<String>> = layers
+        .iter()
+        .map(|l| {
+            l.copper().map(|c| {
+                k += 1;
+                let name = c.name.trim();
+                let tag = starter::copper_tag(name);
+                // `copper_tag` gives back the whole name unless it starts with a number tag such as "L3".
+                let numbered = tag.starts_with('L')
+                    && tag.len() > 1
+                    && tag[1..].chars().all(|ch| ch.is_ascii_digit());
+                let rest = if numbered {
+                    let after = name.strip_prefix(tag).unwrap_or_default().trim();
+                    after.strip_suffix("new").unwrap_or(after).trim()
+                } else {
+                    name
+                };
+                if rest.is_empty() {
+                    format!("L{k}")
+                } else {
+                    format!("L{k} {rest}")
+                }
+            })
+        })
+        .collect();
+    let mut taken: Vec<String> = Vec::new();
+    let mut map = BTreeMap::new();
+    for (i, layer) in layers.iter().enumerate() {
+        let new = match layer {
+            Layer::Copper(_) => coppers[i].clone().unwrap_or_default(),
+            Layer::Core(_) | Layer::Prepreg(_) => {
+                let above = coppers[..i].iter().rev().flatten().next();
+                let below = coppers[i..].iter().flatten().next();
+                let kind = if matches!(layer, Layer::Core(_)) {
+                    "Core"
+                } else {
+                    "Prepreg"
+                };
+                starter::dielectric_name(kind, above.map(String::as_str), below.map(String::as_str))
+            }
+            Layer::SolderMask(_) => layer.name().to_string(),
+        };
+        let mut name = new.clone();
+        let mut n = 2;
+        // Two prepregs between the same copper, or a mask already named like one: numbered apart.
+        while taken.contains(&name) {
+            name = format!("{new} {n}");
+            n += 1;
+        }
+        taken.push(name.clone());
+        if name != layer.name() {
+            map.insert(layer.name().to_string(), name);
+        }
+    }
+    map
 }
 
 impl State {
@@ -575,6 +704,22 @@ impl State {
                         50.0,
                         "%",
                     ))?)
+                };
+            }
+            ProcessField::TargetThickness => {
+                p.fab.target_thickness_m = if blank {
+                    None
+                } else {
+                    let v = bridge::parse_length("target board thickness", text, unit)?;
+                    let max = ohmstack_core::design::project::MAX_TARGET_THICKNESS_M;
+                    if !(v > 0.0 && v <= max) {
+                        return Err(format!(
+                            "target board thickness: {} is outside 0 to {}",
+                            bridge::length_label(v, unit),
+                            bridge::length_label(max, unit)
+                        ));
+                    }
+                    Some(v)
                 };
             }
             ProcessField::OuterPlating => {
@@ -916,28 +1061,39 @@ impl State {
                     d.spec_freq_hz = preset.spec_freq_hz;
                 }
             }
-            Action::InsertLayer(i) => {
+            Action::InsertLayer(i) | Action::InsertAbove(i) => {
                 if i >= n {
                     return;
                 }
-                let layer = match &p.stackup.layers[i] {
-                    Layer::Copper(_) => {
-                        let name = unique_name(&p, "Prepreg");
-                        Layer::Prepreg(laminate(name, "fr4", 100e-6))
-                    }
-                    _ => new_copper(unique_name(&p, "Copper")),
+                let at = if matches!(action, Action::InsertAbove(_)) {
+                    i
+                } else {
+                    i + 1
                 };
-                p.stackup.layers.insert(i + 1, layer);
+                let copper = !matches!(p.stackup.layers[i], Layer::Copper(_));
+                // Named in the stack as it will be, with a placeholder in the new layer's place.
+                let mut probe = p.clone();
+                probe.stackup.layers.insert(at, new_copper(String::new()));
+                let name = positional_name(&probe, at, copper);
+                let layer = if copper {
+                    new_copper(name)
+                } else {
+                    Layer::Prepreg(laminate(name, "fr4", 100e-6))
+                };
+                p.stackup.layers.insert(at, layer);
+            }
+            Action::RenumberLayers => {
+                let map = renumbered(&p);
+                rename_all(&mut p, &map);
             }
             Action::AddLayer => {
-                let layer = match p.stackup.layers.last() {
-                    Some(Layer::Copper(_)) => {
-                        let name = unique_name(&p, "Prepreg");
-                        Layer::Prepreg(laminate(name, "fr4", 100e-6))
-                    }
-                    _ => new_copper(unique_name(&p, "Copper")),
-                };
-                p.stackup.layers.push(layer);
+                let copper = !matches!(p.stackup.layers.last(), Some(Layer::Copper(_)));
+                let name = positional_name(&p, n, copper);
+                p.stackup.layers.push(if copper {
+                    new_copper(name)
+                } else {
+                    Layer::Prepreg(laminate(name, "fr4", 100e-6))
+                });
             }
             Action::RemoveLayer(i) => {
                 if n <= 1 {
@@ -1118,6 +1274,8 @@ impl Reducible for State {
             | Action::SetCopperWeight(..)
             | Action::ApplyPreset(..)
             | Action::InsertLayer(_)
+            | Action::InsertAbove(_)
+            | Action::RenumberLayers
             | Action::AddLayer
             | Action::RemoveLayer(_)
             | Action::DuplicateLayer(_)
@@ -1143,6 +1301,20 @@ impl Reducible for State {
                 if let Some(Layer::Copper(c)) = p.stackup.layers.get_mut(i) {
                     c.roughness = foil.map(Foil::hammerstad_groiss);
                     s.commit(p);
+                }
+            }
+            Action::Starter(copper_layers) => {
+                if let Some((p, moved)) = starter::apply(&s.project, copper_layers) {
+                    let mut text = format!(
+                        "started from the generic {copper_layers}-layer stack (common-practice values: replace them with your fabricator's)"
+                    );
+                    if !moved.is_empty() {
+                        text.push_str("; ");
+                        text.push_str(&moved.join("; "));
+                    }
+                    text.push_str("; Undo brings back the previous stack");
+                    s.structural(p);
+                    s.notice = Some(Notice { error: false, text });
                 }
             }
             Action::Undo => s.step(true),
@@ -1577,6 +1749,134 @@ mod tests {
         let s = reduce(one.clone(), Action::RemoveLayer(0));
         assert_eq!(s.project, one.project);
         assert!(s.notice.is_some_and(|n| n.error));
+    }
+
+    #[test]
+    fn inserted_layers_are_named_by_position_and_renumbering_keeps_rules() {
+        // Demo: Top mask, L1 Top, PP1, L2 GND, Core 1, L3 Inner, PP2, L4 Inner, …; one rule moved to L4 Inner.
+        let s0 = reduce(State::default(), Action::SetRuleLayer(3, "L4 Inner".into()));
+        let names = |s: &State| -> Vec<String> {
+            s.project
+                .stackup
+                .layers
+                .iter()
+                .map(|l| l.name().to_string())
+                .collect()
+        };
+        // Above PP2 (index 6): copper, the fourth copper from the top; "L4" is taken by "L4 Inner".
+        let s = reduce(s0.clone(), Action::InsertAbove(6));
+        assert_eq!(names(&s)[6], "L4 new");
+        assert!(matches!(s.project.stackup.layers[6], Layer::Copper(_)));
+        // Below it: a prepreg named by the copper around it.
+        let s = reduce(s, Action::InsertLayer(6));
+        assert_eq!(names(&s)[7], "Prepreg L4–L4");
+        // Above L1 Top (index 1): a prepreg over L1.
+        let a = reduce(s0.clone(), Action::InsertAbove(1));
+        assert_eq!(names(&a)[1], "Prepreg over L1");
+        assert_eq!(a.undo.len(), s0.undo.len() + 1);
+        // Renumbering: coppers L1…L7 from the top keeping their words, dielectrics by their copper, and every
+        // rule still on its layer (now under the new name).
+        let on = |s: &State| -> Vec<String> {
+            s.project.rules.iter().map(|r| r.layer.clone()).collect()
+        };
+        let before: Vec<usize> = s0
+            .project
+            .rules
+            .iter()
+            .map(|r| s0.project.stackup.find(&r.layer).unwrap())
+            .collect();
+        let r = reduce(s, Action::RenumberLayers);
+        let n = names(&r);
+        assert_eq!(
+            &n[1..9],
+            [
+                "L1 Top",
+                "Prepreg L1–L2",
+                "L2 GND",
+                "Core L2–L3",
+                "L3 Inner",
+                "L4",
+                "Prepreg L4–L5",
+                "Prepreg L4–L5 2"
+            ]
+            .map(String::from)
+        );
+        assert_eq!(n[9], "L5 Inner");
+        r.project.validate().unwrap();
+        for (rule, at) in r.project.rules.iter().zip(before) {
+            // Two layers went in below L3 Inner (index 5); rules above it keep their index, the others move by two.
+            let want = if at <= 5 { at } else { at + 2 };
+            assert_eq!(
+                r.project.stackup.find(&rule.layer),
+                Some(want),
+                "{}",
+                rule.name
+            );
+        }
+        assert_eq!(r.project.rules[3].layer, "L5 Inner");
+        let u = reduce(r, Action::Undo);
+        assert_eq!(on(&u), on(&s0));
+    }
+
+    #[test]
+    fn renumbering_takes_any_name() {
+        // Names from a file may carry odd spacing, other scripts, or a bare number tag: none may panic, and each
+        // copper ends up with its number first.
+        let mut p = blank_project();
+        let names = ["\u{3000}L3 wide space", "L", "L12", "Ω plane"];
+        p.stackup.layers = names
+            .iter()
+            .flat_map(|n| {
+                [
+                    new_copper(n.to_string()),
+                    Layer::Prepreg(laminate(format!("between {n}"), "fr4", 100e-6)),
+                ]
+            })
+            .collect();
+        p.stackup.layers.pop();
+        let s = reduce(State::new(p), Action::RenumberLayers);
+        let copper: Vec<&str> = s
+            .project
+            .stackup
+            .layers
+            .iter()
+            .filter_map(|l| l.copper())
+            .map(|c| c.name.as_str())
+            .collect();
+        assert_eq!(copper, ["L1 wide space", "L2 L", "L3", "L4 Ω plane"]);
+    }
+
+    #[test]
+    fn a_starter_replaces_the_stack_as_one_undo_step() {
+        let s0 = State::default();
+        let s = reduce(s0.clone(), Action::Starter(8));
+        assert_eq!(s.project.stackup.copper_count(), 8);
+        assert_eq!(s.undo, vec![s0.project.clone()]);
+        s.project.validate().unwrap();
+        let text = &s.notice.as_ref().unwrap().text;
+        assert!(
+            text.contains("moved from") && text.contains("Undo"),
+            "{text}"
+        );
+        assert_eq!(reduce(s, Action::Undo).project, s0.project);
+        // A count without a starter changes nothing.
+        assert_eq!(reduce(s0.clone(), Action::Starter(7)).project, s0.project);
+    }
+
+    #[test]
+    fn target_thickness_is_typed_in_the_unit_and_blank_clears_it() {
+        let f = Field::Process(ProcessField::TargetThickness);
+        let mut s0 = State::default();
+        s0.project.units = LengthUnit::Mm;
+        let s = reduce(s0.clone(), Action::Edit(f, "1.6".into()));
+        assert_eq!(s.project.fab.target_thickness_m, Some(1.6e-3));
+        let s = reduce(s, Action::Edit(f, "".into()));
+        assert_eq!(s.project.fab.target_thickness_m, None);
+        for bad in ["-1", "abc", "20"] {
+            let s = reduce(s0.clone(), Action::Edit(f, bad.into()));
+            let e = s.drafts[&f].error.clone().unwrap();
+            assert!(e.contains("target board thickness"), "{bad}: {e}");
+        }
     }
 
     #[test]

@@ -1,5 +1,6 @@
 //! `cargo xtask test`: the one test command. Installs what the tests need when missing (the wasm target, Debian's
-//! chromium and chromium-driver, a Python venv with the reference libraries), then runs, in order: fmt check,
+//! chromium and chromium-driver, a Python venv with the reference libraries, the pinned axe-core accessibility
+//! checker from the npm registry), then runs, in order: fmt check,
 //! clippy with -D warnings, every workspace test, the one-file build, and the pytest suite (outside references and
 //! real-browser tests in headless Chromium).
 
@@ -32,6 +33,49 @@ fn ensure_chromium() -> Result<()> {
             ])
             .env("DEBIAN_FRONTEND", "noninteractive"),
     )
+}
+
+/// The axe-core release the accessibility tests inject into the page (tests/python/test_browser_a11y.py).
+pub const AXE_CORE_VERSION: &str = "4.14.1";
+
+/// Unpacks the pinned axe-core package into `<target>/axe/<version>/package/` with `npm pack` (installing Debian's
+/// npm when missing and running as root); returns the path of `axe.min.js`.
+fn ensure_axe(target: &Path) -> Result<PathBuf> {
+    let dir = target.join("axe").join(AXE_CORE_VERSION);
+    let script = dir.join("package").join("axe.min.js");
+    if script.exists() {
+        return Ok(script);
+    }
+    if !util::probe(Command::new("npm").arg("--version")) {
+        if !util::is_root() {
+            bail!("the accessibility tests need npm to fetch axe-core; install it with\n  sudo apt-get install -y npm");
+        }
+        util::run(
+            Command::new("apt-get")
+                .args(["install", "-y", "-q", "--no-install-recommends", "npm"])
+                .env("DEBIAN_FRONTEND", "noninteractive"),
+        )?;
+    }
+    std::fs::create_dir_all(&dir)?;
+    util::run(
+        Command::new("npm")
+            .args(["pack", "--silent", &format!("axe-core@{AXE_CORE_VERSION}")])
+            .arg("--pack-destination")
+            .arg(&dir),
+    )?;
+    let tarball = dir.join(format!("axe-core-{AXE_CORE_VERSION}.tgz"));
+    util::run(
+        Command::new("tar")
+            .arg("-xzf")
+            .arg(&tarball)
+            .arg("-C")
+            .arg(&dir)
+            .arg("package/axe.min.js"),
+    )?;
+    if !script.exists() {
+        bail!("npm pack axe-core@{AXE_CORE_VERSION} gave no package/axe.min.js");
+    }
+    Ok(script)
 }
 
 /// Creates target/pyenv and installs tests/python/requirements.txt into it, once per requirements change.
@@ -101,6 +145,7 @@ pub fn run() -> Result<()> {
         .unwrap_or_else(|| root().join("target"));
     let artifacts = target.join("test-artifacts");
     std::fs::create_dir_all(&artifacts)?;
+    let axe = ensure_axe(&target)?;
     util::run(
         Command::new(&python)
             .args([
@@ -115,6 +160,7 @@ pub fn run() -> Result<()> {
             .env("OHMSTACK_BIN", target.join("debug").join("ohmstack"))
             .env("OHMSTACK_DIST", &dist)
             .env("OHMSTACK_ARTIFACTS", &artifacts)
+            .env("OHMSTACK_AXE", &axe)
             .env("CHROMIUM", CHROMIUM)
             .env("CHROMEDRIVER", CHROMEDRIVER),
     )?;

@@ -1,5 +1,5 @@
 //! What the user designs and saves: the project (stackup, rules, fabrication limits), its layers and materials,
-//! the process tolerances the spread varies, the demo, and share links. Plain data with validation; no models.
+//! the process tolerances the spread varies, the demo, the starter stacks, and share links. Plain data with validation; no models.
 
 pub mod demo;
 pub mod dielectric;
@@ -10,3 +10,4 @@ pub mod project;
 pub mod roughness;
 pub mod share;
 pub mod stackup;
+pub mod starter;

@@ -150,6 +150,31 @@ pub struct Fab {
     /// (base foil = finished − plating). `None` says nothing of how the outer copper was made.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub outer_plating_m: Option<f64>,
+    /// The finished board thickness the design aims at, m (prepreg pressed, solder mask included, as the stack's
+    /// total); `None` sets no target. Optional so files and links from before it open unchanged.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub target_thickness_m: Option<f64>,
+}
+
+/// Board thickness tolerance used when the project sets none, ± % (common practice, no source).
+pub const DEFAULT_THICKNESS_TOLERANCE_PCT: f64 = 10.0;
+
+/// The thickest board target accepted, m (a unit slip guard: boards over 10 mm are not built from this tool's stacks).
+pub const MAX_TARGET_THICKNESS_M: f64 = 10e-3;
+
+/// The finished thickness set against the target.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ThicknessCheck {
+    pub target_m: f64,
+    pub finished_m: f64,
+    /// Finished − target, m.
+    pub difference_m: f64,
+    /// Finished − target, % of the target.
+    pub difference_pct: f64,
+    /// The board thickness tolerance it is held to, ± %.
+    pub tolerance_pct: f64,
+    /// Whether the difference is inside the tolerance.
+    pub within: bool,
 }
 
 /// The thickest outer plating accepted, m (a plated-through-hole panel plate is about 25 µm: common practice, no
@@ -165,11 +190,35 @@ impl Default for Fab {
             etch_factor: None,
             thickness_tolerance_pct: None,
             outer_plating_m: None,
+            target_thickness_m: None,
         }
     }
 }
 
 impl Fab {
+    /// The board thickness tolerance, ± % (the project's, or the common default).
+    pub fn thickness_tolerance(&self) -> f64 {
+        self.thickness_tolerance_pct
+            .unwrap_or(DEFAULT_THICKNESS_TOLERANCE_PCT)
+    }
+
+    /// `finished_m` against the target thickness, when one is set.
+    pub fn thickness_check(&self, finished_m: f64) -> Option<ThicknessCheck> {
+        let target_m = self.target_thickness_m?;
+        let difference_m = finished_m - target_m;
+        let difference_pct = 100.0 * difference_m / target_m;
+        let tolerance_pct = self.thickness_tolerance();
+        Some(ThicknessCheck {
+            target_m,
+            finished_m,
+            difference_m,
+            difference_pct,
+            tolerance_pct,
+            // A relative slack of 1e-9 keeps a board exactly at the limit inside it despite rounding.
+            within: difference_pct.abs() <= tolerance_pct * (1.0 + 1e-9),
+        })
+    }
+
     /// The base foil under the plating of an outer copper layer `finished_m` thick, m (the whole thickness when no
     /// plating is given).
     pub fn base_foil_m(&self, finished_m: f64) -> f64 {
@@ -319,6 +368,10 @@ impl Project {
         self.loss.validate()?;
         if let Some(tol) = self.fab.thickness_tolerance_pct {
             error::in_range("fab.thickness_tolerance", tol, 0.0, 50.0, "%")?;
+        }
+        if let Some(t) = self.fab.target_thickness_m {
+            error::length("fab.target_thickness", t)?;
+            error::in_range("fab.target_thickness", t, 0.0, MAX_TARGET_THICKNESS_M, "m")?;
         }
         self.stackup.validate()?;
         if let Some(plating) = self.fab.outer_plating_m {
@@ -509,6 +562,32 @@ mod tests {
         let p = crate::design::demo::project();
         let back = Project::from_json(&p.to_json()).unwrap();
         assert_eq!(p, back);
+    }
+
+    #[test]
+    fn target_thickness_is_optional_and_checked_against_the_tolerance() {
+        // Files and links from before the field open unchanged and write it back without it.
+        let p = crate::design::demo::project();
+        assert_eq!(p.fab.target_thickness_m, None);
+        assert!(!p.to_json().contains("target_thickness"));
+        assert_eq!(p.fab.thickness_check(1.6e-3), None);
+        let mut t = p.clone();
+        t.fab.target_thickness_m = Some(1.6e-3);
+        assert_eq!(Project::from_json(&t.to_json()).unwrap(), t);
+        // 1.5 mm against 1.6 mm is −100 µm, −6.25 % (arithmetic): inside the default ±10 %, outside ±5 %.
+        let c = t.fab.thickness_check(1.5e-3).unwrap();
+        assert!((c.difference_m + 100e-6).abs() < 1e-12, "{c:?}");
+        assert!((c.difference_pct + 6.25).abs() < 1e-9, "{c:?}");
+        assert!(c.within && c.tolerance_pct == DEFAULT_THICKNESS_TOLERANCE_PCT);
+        t.fab.thickness_tolerance_pct = Some(5.0);
+        assert!(!t.fab.thickness_check(1.5e-3).unwrap().within);
+        // Exactly at the limit is inside.
+        assert!(t.fab.thickness_check(1.68e-3).unwrap().within);
+        for bad in [0.0, -1e-3, f64::NAN, 1.0] {
+            t.fab.target_thickness_m = Some(bad);
+            let e = t.validate().unwrap_err().to_string();
+            assert!(e.contains("target_thickness"), "{bad}: {e}");
+        }
     }
 
     #[test]

@@ -13,8 +13,7 @@ use crate::engine::is_field_method;
 use crate::plan::{Plan, RuleOutcome};
 use serde::{Serialize, Serializer};
 
-/// Board thickness tolerance used when the project sets none, ± % (common practice, no source).
-pub const DEFAULT_THICKNESS_TOLERANCE_PCT: f64 = 10.0;
+pub use crate::design::project::DEFAULT_THICKNESS_TOLERANCE_PCT;
 
 /// The date the notes are issued: a valid calendar date, written ISO 8601 (`2026-03-14`).
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -273,6 +272,17 @@ pub fn fab_notes(project: &Project, plan: &Plan, date: Option<IssueDate>) -> Fab
         ),
         "Trace widths are at the trace base; spacings and gaps are edge to edge.".to_string(),
     ];
+    if let Some(c) = project.fab.thickness_check(plan.total_thickness_m) {
+        let sign = if c.difference_m < 0.0 { "−" } else { "+" };
+        notes.push(format!(
+            "Target board thickness {}: the stack as listed is {sign}{} ({sign}{} %) from it, {} the ± {} % tolerance.",
+            format_length(c.target_m, unit),
+            format_length(c.difference_m.abs(), unit),
+            format_sig(c.difference_pct.abs(), 2),
+            if c.within { "inside" } else { "outside" },
+            format_sig(c.tolerance_pct, 3)
+        ));
+    }
     if let Some(ef) = project.fab.etch_factor {
         notes.push(format!(
             "Etch factor {} assumed (trace top narrower than the base by 2 × thickness / etch factor).",
@@ -769,6 +779,25 @@ mod tests {
         assert!(md.contains("± 8 %"), "{md}");
         p.fab.thickness_tolerance_pct = Some(-1.0);
         assert!(p.validate().is_err());
+    }
+
+    #[test]
+    fn a_target_thickness_is_stated_with_its_difference() {
+        let mut p = crate::design::demo::project();
+        let plan = crate::plan(&p).unwrap();
+        assert!(!fab_notes(&p, &plan, None)
+            .to_markdown()
+            .contains("Target board"));
+        // The demo is about 1.54 mm; against 2 mm that is well outside ±10 % (arithmetic).
+        p.fab.target_thickness_m = Some(2e-3);
+        let md = fab_notes(&p, &plan, None).to_markdown();
+        assert!(
+            md.contains("Target board thickness 2000 µm") && md.contains("outside the ± 10 %"),
+            "{md}"
+        );
+        p.fab.target_thickness_m = Some(plan.total_thickness_m);
+        let md = fab_notes(&p, &plan, None).to_markdown();
+        assert!(md.contains("+0 µm (+0 %)") && md.contains("inside"), "{md}");
     }
 
     #[test]

@@ -379,6 +379,7 @@ pub fn project(
             etch_factor,
             thickness_tolerance_pct: None,
             outer_plating_m: None,
+            target_thickness_m: None,
         },
         loss: Default::default(),
         process: None,

@@ -1,11 +1,15 @@
-//! The layer stack as an editable table, top to bottom, with live totals and the symmetry check.
+//! The layer stack as an editable table, top to bottom, with the stack picture beside it, live totals against the
+//! target board thickness, the symmetry check, and the quick builders: a generic starter stack, insert above and
+//! below, renumbering.
 
 use crate::bridge;
-use crate::state::{Action, Draft, Field, LayerField, LayerKind};
+use crate::panels::stack_picture::StackPicture;
+use crate::state::{Action, Draft, Field, LayerField, LayerKind, ProcessField};
 use crate::widgets::{Select, TextField};
 use ohmstack_core::base::units::{format_sig, LengthUnit, OZ_COPPER};
 use ohmstack_core::design::material::{PresetUse, PRESETS, PRESET_CAVEAT};
 use ohmstack_core::design::stackup::CopperRole;
+use ohmstack_core::design::starter;
 use ohmstack_core::{Layer, Plan, Project};
 use std::collections::BTreeMap;
 use std::rc::Rc;
@@ -57,8 +61,33 @@ fn refocus(from: usize, to: usize) {
     .forget();
 }
 
+/// Focuses the element `id` (scrolling it into view) once the page has rendered.
+fn focus_later(id: String) {
+    gloo::timers::callback::Timeout::new(0, move || {
+        if let Some(el) = web_sys::window()
+            .and_then(|w| w.document())
+            .and_then(|d| d.get_element_by_id(&id))
+            .and_then(|e| e.dyn_into::<web_sys::HtmlElement>().ok())
+        {
+            let _ = el.focus();
+        }
+    })
+    .forget();
+}
+
+/// A signed length and percentage: "−13 µm (−0.8 %)".
+fn signed(metres: f64, pct: f64, unit: LengthUnit) -> String {
+    let sign = if metres < 0.0 { "−" } else { "+" };
+    format!(
+        "{sign}{} ({sign}{} %)",
+        bridge::length_label(metres.abs(), unit),
+        format_sig(pct.abs(), 2)
+    )
+}
+
 #[component]
 pub fn Layers(props: &LayersProps) -> Html {
+    let selected = use_state(|| None::<usize>);
     let project = &props.project;
     let unit = project.units;
     let n = project.stackup.layers.len();
@@ -176,7 +205,7 @@ pub fn Layers(props: &LayersProps) -> Html {
             }
         };
         html! {
-            <tr class={classes!("layer", kind.key())} onkeydown={on_key} data-testid={format!("layer-row-{i}")}>
+            <tr class={classes!("layer", kind.key(), (*selected == Some(i)).then_some("picked"))} onkeydown={on_key} data-testid={format!("layer-row-{i}")}>
                 <td class="idx">{ i + 1 }</td>
                 <td><TextField field={Field::Layer(i, LayerField::Name)} label={format!("Layer {} name", i + 1)} hidden_label=true
                     size="medium" value={name.clone()} draft={draft(Field::Layer(i, LayerField::Name))} dispatch={d.clone()} /></td>
@@ -191,16 +220,38 @@ pub fn Layers(props: &LayersProps) -> Html {
                 <td class="actions no-print">
                     { button("up", "↑", format!("Move {name} up (Alt+↑)"), Action::MoveLayer(i, true), i == 0) }
                     { button("down", "↓", format!("Move {name} down (Alt+↓)"), Action::MoveLayer(i, false), i + 1 >= n) }
-                    { button("insert", "+", format!("Insert a layer below {name}"), Action::InsertLayer(i), false) }
+                    { button("insert-above", "+↑", format!("Insert a layer above {name}"), Action::InsertAbove(i), false) }
+                    { button("insert", "+↓", format!("Insert a layer below {name}"), Action::InsertLayer(i), false) }
                     { button("dup", "❐", format!("Duplicate {name}"), Action::DuplicateLayer(i), false) }
                     { button("remove", "×", format!("Remove {name}"), Action::RemoveLayer(i), n <= 1) }
                 </td>
             </tr>
         }
     });
+    let target_field = Field::Process(ProcessField::TargetThickness);
+    let target_input = html! {
+        <TextField field={target_field} label={format!("Target board thickness ({})", unit.symbol())} hidden_label=true size="narrow"
+            value={project.fab.target_thickness_m.map(|t| bridge::length_text(t, unit)).unwrap_or_default()}
+            placeholder={AttrValue::from("none")} draft={draft(target_field)} dispatch={d.clone()} />
+    };
+    let against_target = props
+        .plan
+        .as_ref()
+        .and_then(|plan| project.fab.thickness_check(plan.total_thickness_m))
+        .map(|c| {
+            let diff = signed(c.difference_m, c.difference_pct, unit);
+            let tol = format_sig(c.tolerance_pct, 3);
+            if c.within {
+                html! { <span class="ok" data-testid="target-difference" data-within="true" data-value={c.difference_m.to_string()}>
+                    { format!("{diff} from the target {}, within the ±{tol} % board thickness tolerance", bridge::length_label(c.target_m, unit)) }</span> }
+            } else {
+                html! { <span class="error" data-testid="target-difference" data-within="false" data-value={c.difference_m.to_string()} role="status">
+                    { format!("{diff} from the target {}: outside the ±{tol} % board thickness tolerance", bridge::length_label(c.target_m, unit)) }</span> }
+            }
+        });
     let totals = match &props.plan {
         Some(plan) => html! {
-            <p class="totals" data-testid="stack-totals">
+            <div class="totals" data-testid="stack-totals">
                 <span>{ "Board thickness " }<strong data-testid="board-thickness" data-value={plan.total_thickness_m.to_string()}>{ bridge::length_label(plan.total_thickness_m, unit) }</strong>
                     { " (finished, prepreg pressed)" }</span>
                 <span>{ " · " }<strong data-testid="copper-count">{ plan.copper_count }</strong>{ " copper layers" }</span>
@@ -209,7 +260,13 @@ pub fn Layers(props: &LayersProps) -> Html {
                 } else {
                     <span class="warn" data-testid="symmetry" role="status">{ " · not mirror-symmetric about the centre: an unbalanced stack tends to bow and twist in lamination and reflow (common practice)" }</span>
                 }
-            </p>
+                // Inline with the totals (the label is for screen readers; the words before the box say it), so the
+                // rules stay as high on the page as before.
+                { " · " }
+                <span class="target-row">
+                    <span aria-hidden="true">{ format!("target ({})", unit.symbol()) }</span>{ target_input }{ against_target }
+                </span>
+            </div>
         },
         None => html! {},
     };
@@ -217,10 +274,49 @@ pub fn Layers(props: &LayersProps) -> Html {
         let d = d.clone();
         Callback::from(move |_: MouseEvent| d.emit(Action::AddLayer))
     };
+    let renumber = {
+        let d = d.clone();
+        Callback::from(move |_: MouseEvent| d.emit(Action::RenumberLayers))
+    };
+    let on_starter = {
+        let d = d.clone();
+        Callback::from(move |e: Event| {
+            let select: web_sys::HtmlSelectElement = e.target_unchecked_into();
+            let value = select.value();
+            // The menu is a command, not a setting: it goes back to its prompt once used.
+            select.set_value("");
+            if let Ok(n) = value.parse::<usize>() {
+                d.emit(Action::Starter(n));
+            }
+        })
+    };
+    let starter_menu = html! {
+        <div class="field no-print">
+            <label for="starter-stack">{ "Start from" }</label>
+            <select id="starter-stack" data-testid="starter-stack" onchange={on_starter}>
+                <option value="" selected=true>{ "a generic stack…" }</option>
+                { for starter::STARTER_COPPER_COUNTS.iter().filter_map(|&n| starter::describe(n).map(|text| html! {
+                    <option value={n.to_string()}>{ format!("{text}, 1.6 mm") }</option>
+                })) }
+            </select>
+        </div>
+    };
+    let on_pick = {
+        let selected = selected.clone();
+        Callback::from(move |i: usize| {
+            selected.set(Some(i));
+            focus_later(Field::Layer(i, LayerField::Name).id());
+        })
+    };
     html! {
         <section class="panel" aria-labelledby="stack-title">
-            <h2 id="stack-title">{ "Layer stack" }<span class="sub">{ " top to bottom" }</span></h2>
+            <div class="stack-head">
+                <h2 id="stack-title">{ "Layer stack" }<span class="sub">{ " top to bottom" }</span></h2>
+                { starter_menu }
+            </div>
             { totals }
+            <div class="stack-layout">
+            <StackPicture project={project.clone()} selected={*selected} {on_pick} />
             <div class="scroll">
             <table class="stack">
                 <thead><tr>
@@ -233,8 +329,12 @@ pub fn Layers(props: &LayersProps) -> Html {
                 <tbody>{ for rows }</tbody>
             </table>
             </div>
+            </div>
             <p class="hint">
                 <button type="button" class="no-print" id="add-layer" onclick={add}>{ "Add layer at bottom" }</button>
+                { " " }
+                <button type="button" class="no-print" id="renumber-layers" onclick={renumber}
+                    title="Copper L1, L2, … from the top; cores and prepregs by the copper around them; rules follow">{ "Renumber layers" }</button>
                 { " Presets: " }{ PRESET_CAVEAT }{ ". Thickness accepts a number in " }{ unit_words(unit) }{ ", or 0.1mm, 4mil, 1oz. Alt+↑/↓ moves the focused row." }
             </p>
         </section>

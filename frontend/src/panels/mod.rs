@@ -7,6 +7,7 @@ pub mod pictures;
 pub mod process;
 pub mod rules;
 pub mod share;
+pub mod stack_picture;
 pub mod summary;
 pub mod toolbar;
 

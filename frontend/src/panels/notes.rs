@@ -116,7 +116,7 @@ pub fn NotesPanel(props: &NotesProps) -> Html {
             if !view.issue.is_empty() {
                 <p class="notes-revision" data-testid="notes-issue">{ view.issue.clone() }</p>
             }
-            <h3>{ "Stack" }</h3>
+            <h2 class="notes-part">{ "Stack" }</h2>
             <table class="notes-stack">
                 <thead><tr>{ for view.stack_head.iter().map(|h| html! { <th>{ *h }</th> }) }</tr></thead>
                 <tbody>
@@ -133,7 +133,7 @@ pub fn NotesPanel(props: &NotesProps) -> Html {
             } }
                 <figcaption>{ "Cross-section of the stack (layer heights not to scale)." }</figcaption>
             </figure>
-            <h3>{ "Controlled impedance" }</h3>
+            <h2 class="notes-part">{ "Controlled impedance" }</h2>
             <table class="notes-impedance" data-testid="notes-impedance">
                 <colgroup>{ for view.impedance_head.iter().map(|h| html! { <col class={column_class(h)} /> }) }</colgroup>
                 <thead><tr>{ for view.impedance_head.iter().map(|h| html! { <th>{ *h }</th> }) }</tr></thead>
@@ -145,7 +145,7 @@ pub fn NotesPanel(props: &NotesProps) -> Html {
                 }) }
                 </tbody>
             </table>
-            <h3>{ "Notes" }</h3>
+            <h2 class="notes-part">{ "Notes" }</h2>
             <ol class="notes-list">
                 { for view.notes.iter().map(|n| html! { <li>{ n.clone() }</li> }) }
             </ol>
