@@ -12,7 +12,7 @@ use ohmstack_core::design::material::{self, PresetUse};
 use ohmstack_core::design::process::{Distribution, LayerProcess, Process, Tolerance};
 use ohmstack_core::design::project::{ImpedanceRule, RuleModel, Solve, Structure};
 use ohmstack_core::design::roughness::Foil;
-use ohmstack_core::design::stackup::{Copper, CopperRole, Dielectric};
+use ohmstack_core::design::stackup::{Copper, CopperRole};
 use ohmstack_core::design::starter;
 use ohmstack_core::{Layer, Project};
 use std::collections::BTreeMap;
@@ -432,18 +432,6 @@ fn unique_rule_name(project: &Project, base: &str) -> String {
         .map(|k| format!("{base} {k}"))
         .find(|n| !taken(n))
         .unwrap_or_else(|| base.to_string())
-}
-
-fn laminate(name: String, preset_id: &str, thickness_m: f64) -> Dielectric {
-    let p = material::preset(preset_id).unwrap_or(&material::PRESETS[0]);
-    Dielectric {
-        name,
-        material: p.name.to_string(),
-        thickness_m,
-        dk: p.dk,
-        df: p.df,
-        spec_freq_hz: p.spec_freq_hz,
-    }
 }
 
 fn new_copper(name: String) -> Layer {
@@ -1029,7 +1017,7 @@ impl State {
                 let base = |preset: &str, t: f64| {
                     dielectric
                         .clone()
-                        .unwrap_or_else(|| laminate(name.clone(), preset, t))
+                        .unwrap_or_else(|| starter::laminate(name.clone(), preset, t))
                 };
                 p.stackup.layers[i] = match kind {
                     LayerKind::Copper => new_copper(name.clone()),
@@ -1078,7 +1066,7 @@ impl State {
                 let layer = if copper {
                     new_copper(name)
                 } else {
-                    Layer::Prepreg(laminate(name, "fr4", 100e-6))
+                    Layer::Prepreg(starter::laminate(name, "fr4", 100e-6))
                 };
                 p.stackup.layers.insert(at, layer);
             }
@@ -1092,7 +1080,7 @@ impl State {
                 p.stackup.layers.push(if copper {
                     new_copper(name)
                 } else {
-                    Layer::Prepreg(laminate(name, "fr4", 100e-6))
+                    Layer::Prepreg(starter::laminate(name, "fr4", 100e-6))
                 });
             }
             Action::RemoveLayer(i) => {
@@ -1374,7 +1362,7 @@ pub fn blank_project() -> Project {
     p.rules.clear();
     p.stackup.layers = vec![
         new_copper("Top".into()),
-        Layer::Prepreg(laminate("Dielectric 1".into(), "fr4", 100e-6)),
+        Layer::Prepreg(starter::laminate("Dielectric 1".into(), "fr4", 100e-6)),
         Layer::Copper(Copper {
             name: "Plane".into(),
             thickness_m: OZ_COPPER,
@@ -1829,7 +1817,7 @@ mod tests {
             .flat_map(|n| {
                 [
                     new_copper(n.to_string()),
-                    Layer::Prepreg(laminate(format!("between {n}"), "fr4", 100e-6)),
+                    Layer::Prepreg(starter::laminate(format!("between {n}"), "fr4", 100e-6)),
                 ]
             })
             .collect();

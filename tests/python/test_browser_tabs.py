@@ -175,6 +175,7 @@ def test_status_messages_do_not_linger(driver):
     browser.wait_for(lambda: notice(driver) == "new blank project", what="blank-project note")
     type_into(driver, "project-title", "First board")
     browser.wait_for(lambda: notice(driver) == "", what="note cleared by the edit")
+    browser.screenshot(driver, "finding10-status-cleared")
     driver.find_element(By.ID, "new-demo").click()
     browser.wait_for(lambda: "Undo brings back your previous work" in notice(driver), what="demo note with undo")
     assert browser.console_errors(driver) == []

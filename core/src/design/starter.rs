@@ -83,7 +83,8 @@ pub fn dielectric_name(kind: &str, above: Option<&str>, below: Option<&str>) -> 
     }
 }
 
-fn laminate(name: String, preset_id: &str, thickness_m: f64) -> Dielectric {
+/// A core or prepreg named `name` of the material preset `preset_id` (the first preset if the id is unknown).
+pub fn laminate(name: String, preset_id: &str, thickness_m: f64) -> Dielectric {
     let p = material::preset(preset_id).unwrap_or(&material::PRESETS[0]);
     Dielectric {
         name,
