@@ -1288,22 +1288,6 @@ mod tests {
         }
     }
 
-    fn centred_stripline(b: f64, t: f64, er: f64) -> CrossSection {
-        CrossSection {
-            loss: Default::default(),
-            layering: None,
-            medium: Medium::Stripline {
-                h_below: 0.5 * (b - t),
-                h_above: 0.5 * (b - t),
-                er,
-                dual: false,
-            },
-            t,
-            references: vec![],
-            warnings: vec![],
-        }
-    }
-
     fn inputs(er: f64, df: f64) -> LossInputs {
         LossInputs {
             conductivity_s_per_m: COPPER_CONDUCTIVITY,
@@ -1326,7 +1310,7 @@ mod tests {
         // Cohn's 1954 result is exact, so its derivative is too; the field engine's slope on receding planes (a
         // central difference on one mesh layout) must match it as closely as the engine matches Z itself.
         let (b, w) = (300e-6, 150e-6);
-        let cs = centred_stripline(b, 0.0, 1.0);
+        let cs = CrossSection::centred_stripline(b, 0.0, 1.0);
         let d = Dims {
             w,
             s: None,
@@ -1358,7 +1342,7 @@ mod tests {
         // A line wholly in one dielectric stores all its electric energy there: α_d = π f √εr tanδ / c exactly,
         // whatever the geometry (any EM text; e.g. Pozar, "Microwave Engineering", 4th ed., §2.7, from memory).
         let (er, df, f) = (4.1, 0.012, 5e9);
-        let cs = centred_stripline(400e-6, 35e-6, er);
+        let cs = CrossSection::centred_stripline(400e-6, 35e-6, er);
         let d = Dims {
             w: 150e-6,
             s: None,

@@ -104,6 +104,26 @@ pub struct Layering {
     pub between: Vec<(f64, f64)>,
 }
 
+#[cfg(test)]
+impl CrossSection {
+    /// A trace centred between two planes `b` apart (copper `t` thick, one Dk), for the engines' tests.
+    pub(crate) fn centred_stripline(b: f64, t: f64, er: f64) -> CrossSection {
+        CrossSection {
+            loss: Default::default(),
+            layering: None,
+            medium: Medium::Stripline {
+                h_below: 0.5 * (b - t),
+                h_above: 0.5 * (b - t),
+                er,
+                dual: false,
+            },
+            t,
+            references: vec![],
+            warnings: vec![],
+        }
+    }
+}
+
 impl CrossSection {
     /// The closed form's note when the layers around the trace differ in Dk: it merges them into one Dk (the
     /// field engines model each layer, so their figures carry no such note).

@@ -32,22 +32,6 @@ fn cohn_1955(w: f64, s: f64, b: f64, er: f64) -> (f64, f64) {
     (z(a / c), z(a * c))
 }
 
-fn stripline(b: f64, t: f64, er: f64) -> CrossSection {
-    CrossSection {
-        loss: Default::default(),
-        layering: None,
-        medium: Medium::Stripline {
-            h_below: 0.5 * (b - t),
-            h_above: 0.5 * (b - t),
-            er,
-            dual: false,
-        },
-        t,
-        references: vec![],
-        warnings: vec![],
-    }
-}
-
 fn dims(w: f64, s: Option<f64>, gap: Option<f64>) -> Dims {
     Dims { w, s, gap }
 }
@@ -63,7 +47,7 @@ fn cohn_1954_centred_strip_is_exact() {
     let b = 400e-6;
     for wb in [0.25, 1.0, 3.0] {
         let g = build(
-            &stripline(b, 0.0, 4.0),
+            &CrossSection::centred_stripline(b, 0.0, 4.0),
             Structure::Single,
             &dims(wb * b, None, None),
             None,
@@ -96,7 +80,7 @@ fn cohn_1955_coupled_strips_are_exact() {
     let b = 400e-6;
     for (wb, sb) in [(0.5, 0.1), (1.0, 0.5), (0.3, 1.0)] {
         let g = build(
-            &stripline(b, 0.0, 3.0),
+            &CrossSection::centred_stripline(b, 0.0, 3.0),
             Structure::EdgePair,
             &dims(wb * b, Some(sb * b), None),
             None,
@@ -274,7 +258,7 @@ fn cases() -> Vec<(&'static str, Geometry)> {
         (
             "centred stripline thick",
             build(
-                &stripline(435e-6, 35e-6, 4.0),
+                &CrossSection::centred_stripline(435e-6, 35e-6, 4.0),
                 Structure::Single,
                 &dims(150e-6, None, None),
                 Some(2.5),
@@ -306,7 +290,7 @@ fn cases() -> Vec<(&'static str, Geometry)> {
         (
             "edge-coupled stripline",
             build(
-                &stripline(435e-6, 35e-6, 3.8),
+                &CrossSection::centred_stripline(435e-6, 35e-6, 3.8),
                 Structure::EdgePair,
                 &dims(120e-6, Some(150e-6), None),
                 None,
