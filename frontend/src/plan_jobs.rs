@@ -17,6 +17,10 @@ pub struct Request {
     /// a transient value (the "2" on the way to "210") gets its figures but never feeds the spread (issue 17).
     #[serde(default = "yes")]
     pub spread: bool,
+    /// The rules (by index) this planner plans, when the page shares the plan among several workers
+    /// ([`share_rules`]); every rule when absent.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub rules: Option<Vec<usize>>,
 }
 
 fn yes() -> bool {
@@ -108,16 +112,59 @@ impl RuleCache {
     }
 }
 
-/// The request being worked on.
+/// The request being worked on: first every rule's nominal figures, then the spreads, so that every card shows
+/// field figures before any spread is started.
 #[derive(Debug)]
 struct Job {
     generation: u64,
     project: Project,
+    /// The rules this planner plans, in order.
+    rules: Vec<usize>,
+    /// Position of the next rule in `rules` (first pass) or in `spread_due` (second pass).
     next: usize,
-    /// Rule `next` has posted its nominal figures; its spread is due.
-    spread_due: bool,
+    /// The second pass: spreads.
+    spreads: bool,
+    /// Rules whose nominal figures went out without their spread, in that order.
+    spread_due: Vec<usize>,
     /// The request asks for the spread (see [`Request::spread`]).
     spread: bool,
+}
+
+/// Relative field work of a rule on its structure (the with-spread plan of the 12-layer fixture, natively:
+/// single lines 15–70 ms, edge pairs and coplanar lines 50–140 ms, the broadside pair 180 ms, coplanar pairs
+/// 230–270 ms); a closed-form rule is next to free.
+fn work_of(rule: &ImpedanceRule) -> u32 {
+    use ohmstack_core::design::project::{RuleModel, Structure};
+    if rule.model == RuleModel::ClosedForm {
+        return 1;
+    }
+    match rule.structure {
+        Structure::Single => 10,
+        Structure::EdgePair | Structure::Coplanar => 25,
+        Structure::BroadsidePair => 50,
+        Structure::CoplanarPair => 80,
+    }
+}
+
+/// Splits the rules of `project` among `planners` so that each gets about the same field work: heaviest first,
+/// each to the least loaded so far (Graham's longest-processing-time rule, 1969). It reads only each rule's
+/// structure and model, so editing a value leaves every rule with the planner that has it cached.
+pub fn share_rules(project: &Project, planners: usize) -> Vec<Vec<usize>> {
+    let planners = planners.max(1);
+    let mut order: Vec<usize> = (0..project.rules.len()).collect();
+    // Stable: equal work keeps the page's order.
+    order.sort_by_key(|&i| std::cmp::Reverse(work_of(&project.rules[i])));
+    let mut shares = vec![Vec::new(); planners];
+    let mut load = vec![0u32; planners];
+    for i in order {
+        let least = (0..planners).min_by_key(|&k| (load[k], k)).unwrap_or(0);
+        load[least] += work_of(&project.rules[i]);
+        shares[least].push(i);
+    }
+    for share in &mut shares {
+        share.sort_unstable();
+    }
+    shares
 }
 
 /// The worker's state: the newest request, how far it got, and the cache. Each [`Planner::step`] does one rule, so
@@ -167,11 +214,18 @@ impl Planner {
             .and_then(|p| p.stackup.validate().map(|_| p).map_err(|e| e.to_string()));
         match project {
             Ok(project) => {
+                let count = project.rules.len();
+                let rules = match &request.rules {
+                    Some(share) => share.iter().copied().filter(|&i| i < count).collect(),
+                    None => (0..count).collect(),
+                };
                 self.job = Some(Job {
                     generation: request.generation,
                     project,
+                    rules,
                     next: 0,
-                    spread_due: false,
+                    spreads: false,
+                    spread_due: Vec::new(),
                     spread: request.spread,
                 })
             }
@@ -210,9 +264,9 @@ impl Planner {
         batch
     }
 
-    /// The next piece of the current job: a rule from the cache; or a rule's nominal figures on its engine with
-    /// the field check (milliseconds), then in the next step its tolerance spread (the slow part); or the job's
-    /// end. `None` when idle.
+    /// The next piece of the current job: in the first pass a rule from the cache, or a rule's nominal figures on
+    /// its engine with the field check (milliseconds); in the second pass one rule's tolerance spread (the slow
+    /// part); then the job's end. `None` when idle.
     pub fn step(&mut self) -> Option<Update> {
         if let Some((generation, message)) = self.failure.take() {
             return Some(Update::Failed {
@@ -221,7 +275,16 @@ impl Planner {
             });
         }
         let job = self.job.as_mut()?;
-        let Some(rule) = job.project.rules.get(job.next) else {
+        if !job.spreads && job.next >= job.rules.len() {
+            job.spreads = true;
+            job.next = 0;
+        }
+        let index = if job.spreads {
+            job.spread_due.get(job.next).copied()
+        } else {
+            job.rules.get(job.next).copied()
+        };
+        let Some(index) = index else {
             let generation = job.generation;
             self.job = None;
             return Some(Update::Done {
@@ -229,7 +292,8 @@ impl Planner {
                 computations: self.computations,
             });
         };
-        let index = job.next;
+        job.next += 1;
+        let rule = &job.project.rules[index];
         let key = rule_key(&job.project, rule, &self.options);
         let nominal = PlanOptions {
             spread_samples: 0,
@@ -238,7 +302,7 @@ impl Planner {
         // The nominal figures are cached too, under their own options: a request with the spread after a pause in
         // typing starts from them.
         let nominal_key = rule_key(&job.project, rule, &nominal);
-        let (outcome, complete, computed) = if job.spread_due {
+        let (outcome, complete, computed) = if job.spreads {
             (plan_one_rule(&job.project, rule, &self.options), true, true)
         } else if let Some(hit) = self.cache.get(&key) {
             (hit, true, false)
@@ -254,8 +318,6 @@ impl Planner {
             (outcome, complete, true)
         };
         if complete {
-            job.next += 1;
-            job.spread_due = false;
             if computed {
                 self.computations += 1;
                 self.cache.put(key, outcome.clone());
@@ -265,9 +327,7 @@ impl Planner {
                 self.cache.put(nominal_key, outcome.clone());
             }
             if job.spread {
-                job.spread_due = true;
-            } else {
-                job.next += 1;
+                job.spread_due.push(index);
             }
         }
         Some(Update::Rule {
@@ -278,6 +338,59 @@ impl Planner {
             computed,
             computations: self.computations,
         })
+    }
+}
+
+/// The updates of a pool of planners, each planning its share of one request, joined into what one planner would
+/// send: rule counts summed over the pool, and a generation's end only once every planner has reported it.
+#[derive(Debug, Default)]
+pub struct PoolTally {
+    /// Rules each planner computed in full so far (each counts its own).
+    computed: Vec<u64>,
+    /// Planners done with a generation: (generation, how many).
+    finished: (u64, usize),
+}
+
+impl PoolTally {
+    pub fn new(planners: usize) -> Self {
+        PoolTally {
+            computed: vec![0; planners],
+            finished: (0, 0),
+        }
+    }
+
+    /// Planner `from`'s updates as the page takes them.
+    pub fn merge(&mut self, from: usize, updates: Vec<Update>) -> Vec<Update> {
+        let mut out = Vec::with_capacity(updates.len());
+        for mut update in updates {
+            match &mut update {
+                Update::Rule { computations, .. } => {
+                    if let Some(c) = self.computed.get_mut(from) {
+                        *c = *computations;
+                    }
+                    *computations = self.computed.iter().sum();
+                }
+                Update::Done {
+                    generation,
+                    computations,
+                } => {
+                    if let Some(c) = self.computed.get_mut(from) {
+                        *c = *computations;
+                    }
+                    *computations = self.computed.iter().sum();
+                    self.finished = match self.finished {
+                        (g, n) if g == *generation => (g, n + 1),
+                        _ => (*generation, 1),
+                    };
+                    if self.finished.1 < self.computed.len() {
+                        continue;
+                    }
+                }
+                Update::Failed { .. } => {}
+            }
+            out.push(update);
+        }
+        out
     }
 }
 
@@ -432,6 +545,7 @@ mod tests {
             generation,
             project: serde_json::to_string(project).unwrap(),
             spread: true,
+            rules: None,
         }
     }
 
@@ -481,13 +595,12 @@ mod tests {
                 other => panic!("expected a computed rule, got {other:?}"),
             }
         }
-        let mut expected = Vec::new();
-        for i in 0..p.rules.len() {
-            if i != 1 {
-                expected.push((i, false));
-            }
-            expected.push((i, true));
-        }
+        // Every rule's nominal figures first (the error row is final at once), then the spreads in the same order.
+        let n = p.rules.len();
+        let expected: Vec<(usize, bool)> = (0..n)
+            .map(|i| (i, i == 1))
+            .chain((0..n).filter(|&i| i != 1).map(|i| (i, true)))
+            .collect();
         assert_eq!(seen, expected);
         assert!(
             matches!(updates.last(), Some(Update::Done { generation: 1, computations }) if *computations == p.rules.len() as u64)
@@ -605,6 +718,7 @@ mod tests {
             generation: 2,
             project: "{".into(),
             spread: true,
+            rules: None,
         });
         assert!(
             matches!(planner.step(), Some(Update::Failed { generation: 2, message }) if message.contains("could not be read"))
@@ -640,12 +754,19 @@ mod tests {
             |r: &RuleOutcome| ohmstack_core::engine::is_field_method(&r.ok().unwrap().method);
         assert!(field_made(&shown.rules[0]) && !field_made(&shown.rules[1]));
         assert!(shown.rules[0].ok().unwrap().spread.is_none());
-        assert!(field.apply(updates[1].clone()));
+        // Every rule's nominal figures land before any spread.
+        let n = p.rules.len();
+        for u in updates[1..n].iter().cloned() {
+            assert!(field.apply(u));
+        }
+        let (_, states) = field.merge(&p, &preview);
+        assert!(states.iter().all(|&s| s == RowState::Nominal));
+        assert!(field.apply(updates[n].clone()));
         let (shown, states) = field.merge(&p, &preview);
         assert_eq!(states[0], RowState::Final);
         assert!(shown.rules[0].ok().unwrap().spread.is_some());
         assert!(shown.rules[1].ok().unwrap().spread.is_none());
-        for u in updates[2..].iter().cloned() {
+        for u in updates[n + 1..].iter().cloned() {
             assert!(!field.settled_for(&p));
             assert!(field.apply(u));
         }
@@ -718,6 +839,12 @@ mod tests {
             [
                 Update::Rule {
                     index: 0,
+                    computed: false,
+                    complete: false,
+                    ..
+                },
+                Update::Rule {
+                    index: 1,
                     computed: false,
                     complete: false,
                     ..
@@ -811,5 +938,83 @@ mod tests {
             rule_key(&p, &p.rules[0], &ohmstack_core::PlanOptions::default()),
             k
         );
+    }
+
+    #[test]
+    fn shared_planners_cover_every_rule_once_and_keep_their_rules_through_an_edit() {
+        let fixture: Project = serde_json::from_str(include_str!(
+            "../../tests/fixtures/twelve_layer_sixteen_rules.json"
+        ))
+        .unwrap();
+        for project in [demo::project(), fixture] {
+            let shares = share_rules(&project, 2);
+            let mut all: Vec<usize> = shares.concat();
+            all.sort_unstable();
+            assert_eq!(all, (0..project.rules.len()).collect::<Vec<_>>());
+            // Balanced within the heaviest single rule (the bound of the greedy rule).
+            let load = |share: &Vec<usize>| -> u32 {
+                share.iter().map(|&i| work_of(&project.rules[i])).sum()
+            };
+            let heaviest = project.rules.iter().map(work_of).max().unwrap();
+            assert!(
+                load(&shares[0]).abs_diff(load(&shares[1])) <= heaviest,
+                "{shares:?}"
+            );
+            // An edit of a value keeps every rule on its planner (and its cache).
+            let mut edited = project.clone();
+            edited.rules[0].target_ohm += 3.0;
+            edited.rules[0].width_m *= 1.5;
+            assert_eq!(share_rules(&edited, 2), shares);
+            assert_eq!(share_rules(&project, 1), vec![all.clone()]);
+            assert_eq!(share_rules(&project, 0), vec![all]);
+        }
+    }
+
+    #[test]
+    fn two_shared_planners_together_give_the_whole_plan() {
+        let p = demo::project();
+        let options = ohmstack_core::PlanOptions::default();
+        let whole = ohmstack_core::plan_with(&p, &options).unwrap();
+        let mut landed = vec![None; p.rules.len()];
+        let mut tally = PoolTally::new(2);
+        let mut field = FieldPlan::default();
+        field.submitted(1, p.clone(), false);
+        for (k, share) in share_rules(&p, 2).into_iter().enumerate() {
+            let mut planner = planner();
+            planner.request(&Request {
+                rules: Some(share.clone()),
+                ..request(1, &p)
+            });
+            let updates = run(&mut planner);
+            assert!(matches!(
+                updates.last(),
+                Some(Update::Done { generation: 1, .. })
+            ));
+            for u in &updates {
+                if let Update::Rule { index, outcome, .. } = u {
+                    assert!(share.contains(index), "rule {index} is not in {share:?}");
+                    assert!(
+                        landed[*index].replace(*outcome.clone()).is_none(),
+                        "rule {index} twice"
+                    );
+                }
+            }
+            // The page sees the generation end only when the second planner ends it, with both counts.
+            let joined = tally.merge(k, updates);
+            assert_eq!(
+                joined
+                    .iter()
+                    .filter(|u| matches!(u, Update::Done { .. }))
+                    .count(),
+                k
+            );
+            for u in joined {
+                assert!(field.apply(u));
+            }
+            assert_eq!(field.done, k == 1);
+        }
+        assert_eq!(field.computations, p.rules.len() as u64);
+        let landed: Vec<RuleOutcome> = landed.into_iter().map(Option::unwrap).collect();
+        assert_eq!(landed, whole.rules);
     }
 }
