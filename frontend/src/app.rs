@@ -32,8 +32,11 @@ impl Reducible for FieldState {
             fallback: self.fallback.clone(),
         };
         match event {
-            plan_client::Event::Submitted(generation, project, spread) => {
-                next.plan.submitted(generation, *project, spread)
+            plan_client::Event::Submitted(generation, project, spread, held) => {
+                next.plan.submitted(generation, *project, spread);
+                for update in held {
+                    next.plan.apply(update);
+                }
             }
             plan_client::Event::Updates(updates) => {
                 // Results for an older generation are dropped without a render.
@@ -165,14 +168,18 @@ pub fn App() -> Html {
                     *g += 1;
                     *g
                 };
+                // The workers answer on later tasks, so the request can go out before the page takes it in.
+                let held = planner
+                    .borrow()
+                    .as_ref()
+                    .map(|client| client.submit(g, p, spread))
+                    .unwrap_or_default();
                 field.dispatch(plan_client::Event::Submitted(
                     g,
                     Box::new(p.clone()),
                     spread,
+                    held,
                 ));
-                if let Some(client) = planner.borrow().as_ref() {
-                    client.submit(g, p, spread);
-                }
             });
             // Any earlier pause timer is for an older project.
             pause.borrow_mut().take();

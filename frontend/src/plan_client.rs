@@ -4,7 +4,7 @@
 //! When no worker can be made, or the first ones fail, the same planner runs on this thread in per-rule slices (one
 //! rule per task), slower to finish but never one long freeze.
 
-use crate::plan_jobs::{share_rules, Planner, PoolTally, Request, Update};
+use crate::plan_jobs::{share_rules, Landed, Planner, PoolTally, Request, Update};
 use ohmstack_core::Project;
 use std::cell::{Cell, RefCell};
 use std::rc::{Rc, Weak};
@@ -38,8 +38,9 @@ impl Runner {
 #[derive(Debug, Clone, PartialEq)]
 pub enum Event {
     Started(Runner),
-    /// A request went out for the project, with the tolerance spread or (while typing) without.
-    Submitted(u64, Box<Project>, bool),
+    /// A request went out for the project, with the tolerance spread or (while typing) without, and the rules
+    /// whose outcome the page already held (landed with it, in one render).
+    Submitted(u64, Box<Project>, bool, Vec<Update>),
     /// Updates that arrived together (rendered at once).
     Updates(Vec<Update>),
     Fallback(String),
@@ -83,6 +84,8 @@ struct Inner {
     last: Option<(Request, Vec<Vec<usize>>)>,
     /// The pool's updates joined into one planner's.
     tally: PoolTally,
+    /// Every outcome that landed, so that a request asks only for what the page does not hold.
+    landed: Landed,
     on_event: Rc<dyn Fn(Event)>,
 }
 
@@ -130,6 +133,7 @@ impl PlanClient {
                 pool: 0,
                 last: None,
                 tally: PoolTally::new(0),
+                landed: Landed::default(),
                 on_event: Rc::new(on_event),
             })),
         };
@@ -197,6 +201,7 @@ impl PlanClient {
                 if inner.pool != pool {
                     return;
                 }
+                updates.iter().for_each(|u| inner.landed.keep(u));
                 (inner.tally.merge(k, updates), inner.on_event.clone())
             };
             if !updates.is_empty() {
@@ -262,7 +267,14 @@ impl PlanClient {
     /// Moves planning onto this thread and re-sends the last request there.
     fn fall_back(&self, why: &str) {
         let on_event = self.inner.borrow().on_event.clone();
-        let local = start_local(on_event.clone());
+        let weak = Rc::downgrade(&self.inner);
+        let forward = on_event.clone();
+        let local = start_local(Rc::new(move |batch: Vec<Update>| {
+            if let Some(inner) = weak.upgrade() {
+                batch.iter().for_each(|u| inner.borrow_mut().landed.keep(u));
+            }
+            forward(Event::Updates(batch));
+        }));
         let last = {
             let mut inner = self.inner.borrow_mut();
             if let Backend::Workers(slots) = &inner.backend {
@@ -279,16 +291,26 @@ impl PlanClient {
     }
 
     /// Asks for the field plan of `project` under `generation` (higher than every earlier one), with the
-    /// tolerance spread when `spread`.
-    pub fn submit(&self, generation: u64, project: &Project, spread: bool) {
+    /// tolerance spread when `spread`. Returns the outcomes the page already holds (from earlier requests), to be
+    /// shown with the request; the workers get the other rules, each its share.
+    pub fn submit(&self, generation: u64, project: &Project, spread: bool) -> Vec<Update> {
+        let (held, needed, workers) = {
+            let mut inner = self.inner.borrow_mut();
+            let (held, needed) = inner.landed.prepare(generation, project, spread);
+            (held, needed, inner.workers())
+        };
+        let shares = share_rules(project, workers)
+            .into_iter()
+            .map(|share| share.into_iter().filter(|i| needed.contains(i)).collect())
+            .collect();
         let request = Request {
             generation,
             project: serde_json::to_string(project).unwrap_or_default(),
             spread,
-            rules: None,
+            rules: Some(needed),
         };
-        let workers = self.inner.borrow().workers();
-        self.send(request, share_rules(project, workers));
+        self.send(request, shares);
+        held
     }
 
     /// Sends `request` to every worker with its share of the rules (all of it to the page's planner).
@@ -340,7 +362,8 @@ impl Drop for Inner {
     }
 }
 
-fn start_local(on_event: Rc<dyn Fn(Event)>) -> Option<Local> {
+/// The page's own planner; `on_updates` takes each batch it reports.
+fn start_local(on_updates: Rc<dyn Fn(Vec<Update>)>) -> Option<Local> {
     let channel = MessageChannel::new().ok()?;
     let planner = Rc::new(RefCell::new(Planner::default()));
     let queued = Rc::new(RefCell::new(false));
@@ -356,7 +379,7 @@ fn start_local(on_event: Rc<dyn Fn(Event)>) -> Option<Local> {
                 let _ = port.post_message(&JsValue::NULL);
             }
             if !batch.is_empty() {
-                on_event(Event::Updates(batch));
+                on_updates(batch);
             }
         })
     };

@@ -341,6 +341,117 @@ impl Planner {
     }
 }
 
+/// A rule's key (see [`rule_key`]) as a number: the page keeps many landed outcomes, and a key is the size of the
+/// project. The hash (SipHash with fixed keys) is the same in every worker and on the page.
+fn key_hash(project: &Project, rule: &ImpedanceRule, options: &PlanOptions) -> u64 {
+    use std::hash::{Hash, Hasher};
+    let mut h = std::collections::hash_map::DefaultHasher::new();
+    rule_key(project, rule, options).hash(&mut h);
+    h.finish()
+}
+
+/// Outcomes the page holds, by key: 16 rules with a few variants of each edited back and forth.
+const LANDED_ENTRIES: usize = 256;
+
+/// The page's copy of every rule outcome that landed, so that a new request asks the workers only for the rules
+/// whose outcome the page does not already hold: after a one-rule edit only that rule is pending on screen (the
+/// others keep their figures), and nothing else crosses from the workers.
+#[derive(Debug, Default)]
+pub struct Landed {
+    /// (key hash, outcome, complete), least recently used first.
+    entries: Vec<(u64, RuleOutcome, bool)>,
+    /// The request out: its generation and each rule's key hashes (with the options asked, nominal only).
+    current: u64,
+    keys: Vec<(u64, u64)>,
+}
+
+impl Landed {
+    fn get(&mut self, key: u64) -> Option<(RuleOutcome, bool)> {
+        let at = self.entries.iter().position(|(k, ..)| *k == key)?;
+        let entry = self.entries.remove(at);
+        let found = (entry.1.clone(), entry.2);
+        self.entries.push(entry);
+        Some(found)
+    }
+
+    /// For a request about to go out: the updates the page can take at once (the rules whose outcome it holds)
+    /// and the rules still to plan.
+    pub fn prepare(
+        &mut self,
+        generation: u64,
+        project: &Project,
+        spread: bool,
+    ) -> (Vec<Update>, Vec<usize>) {
+        // Outcomes are kept under the key of what they carry: with the spread (complete) or without.
+        let full = options();
+        let nominal = PlanOptions {
+            spread_samples: 0,
+            ..full
+        };
+        self.current = generation;
+        self.keys = project
+            .rules
+            .iter()
+            .map(|r| (key_hash(project, r, &full), key_hash(project, r, &nominal)))
+            .collect();
+        let (mut held, mut needed) = (Vec::new(), Vec::new());
+        for (index, &(full_key, nominal_key)) in self.keys.clone().iter().enumerate() {
+            let found = match self.get(full_key) {
+                Some((outcome, true)) => Some((outcome, true)),
+                // A rule that cannot be computed has no spread to follow.
+                _ => self.get(nominal_key).map(|(outcome, _)| {
+                    let error = matches!(outcome, RuleOutcome::Error { .. });
+                    (outcome, error)
+                }),
+            };
+            let enough = match &found {
+                Some((_, complete)) => *complete || !spread,
+                None => false,
+            };
+            if !enough {
+                needed.push(index);
+            }
+            if let Some((outcome, complete)) = found {
+                held.push(Update::Rule {
+                    generation,
+                    index,
+                    outcome: Box::new(outcome),
+                    complete,
+                    computed: false,
+                    computations: 0,
+                });
+            }
+        }
+        (held, needed)
+    }
+
+    /// Keeps the outcomes of the request out as they land.
+    pub fn keep(&mut self, update: &Update) {
+        let Update::Rule {
+            generation,
+            index,
+            outcome,
+            complete,
+            ..
+        } = update
+        else {
+            return;
+        };
+        let Some(&(full_key, nominal_key)) = self.keys.get(*index) else {
+            return;
+        };
+        if *generation != self.current {
+            return;
+        }
+        let key = if *complete { full_key } else { nominal_key };
+        self.entries.retain(|(k, ..)| *k != key);
+        if self.entries.len() >= LANDED_ENTRIES {
+            self.entries.remove(0);
+        }
+        self.entries.push((key, (**outcome).clone(), *complete));
+    }
+}
+
 /// The updates of a pool of planners, each planning its share of one request, joined into what one planner would
 /// send: rule counts summed over the pool, and a generation's end only once every planner has reported it.
 #[derive(Debug, Default)]
@@ -499,7 +610,9 @@ impl FieldPlan {
 
     /// The plan to show for `project`: `preview` (the closed form, computed on the page) with every rule whose
     /// field outcome has landed replaced by it, and where each row stands. When the field plan is for another
-    /// project, every row is the preview's; after a failed request the preview is final (nothing is coming).
+    /// project, a rule that is the same in both on the same board keeps its landed figures (the render after a
+    /// keystroke comes before the request for it), every other row is the preview's; after a failed request the
+    /// preview is final (nothing is coming).
     pub fn merge(
         &self,
         project: &Project,
@@ -507,15 +620,31 @@ impl FieldPlan {
     ) -> (ohmstack_core::Plan, Vec<RowState>) {
         let mut plan = preview.clone();
         let current = self.project.as_ref() == Some(project);
+        // The board without its rules, name and revision: what every rule's outcome depends on besides the rule.
+        let board = |p: &Project| Project {
+            title: String::new(),
+            revision: String::new(),
+            rules: Vec::new(),
+            ..p.clone()
+        };
+        let unchanged: Vec<bool> = match &self.project {
+            Some(old) if !current && board(old) == board(project) => project
+                .rules
+                .iter()
+                .enumerate()
+                .map(|(i, r)| old.rules.get(i) == Some(r))
+                .collect(),
+            _ => vec![current; project.rules.len()],
+        };
         let states = plan
             .rules
             .iter_mut()
             .enumerate()
             .map(
                 |(i, row)| match self.rules.get(i).and_then(|r| r.as_ref()) {
-                    Some((field, complete)) if current => {
+                    Some((field, complete)) if unchanged.get(i) == Some(&true) => {
                         *row = field.clone();
-                        if *complete || (self.done && self.spread) {
+                        if *complete || (current && self.done && self.spread) {
                             RowState::Final
                         } else {
                             RowState::Nominal
@@ -774,10 +903,19 @@ mod tests {
         let (shown, states) = field.merge(&p, &preview);
         assert!(states.iter().all(|&s| s == RowState::Final));
         assert_eq!(shown, ohmstack_core::plan_with(&p, &options()).unwrap());
-        // Another project on screen: the figures are not merged over it.
+        // Another project on screen (the render after a keystroke, before its request): the edited rule shows
+        // its preview, the others keep their figures; on another board nothing is merged.
         let mut q = p.clone();
         q.rules[0].target_ohm += 1.0;
         assert!(!field.settled_for(&q));
+        let (shown, states) = field.merge(&q, &preview);
+        assert_eq!(states[0], RowState::Preview);
+        assert!(states[1..].iter().all(|&s| s == RowState::Final));
+        assert_eq!(
+            shown.rules[1..],
+            ohmstack_core::plan_with(&p, &options()).unwrap().rules[1..]
+        );
+        q.fab.etch_factor = Some(q.fab.etch_factor.unwrap_or(2.0) + 1.0);
         assert!(field
             .merge(&q, &preview)
             .1
@@ -1016,5 +1154,96 @@ mod tests {
         assert_eq!(field.computations, p.rules.len() as u64);
         let landed: Vec<RuleOutcome> = landed.into_iter().map(Option::unwrap).collect();
         assert_eq!(landed, whole.rules);
+    }
+
+    #[test]
+    fn the_page_asks_only_for_the_rules_whose_outcome_it_does_not_hold() {
+        let mut p = demo::project();
+        p.rules.truncate(3);
+        let mut planner = Planner::default();
+        let mut landed = Landed::default();
+        let mut ask = |landed: &mut Landed, generation: u64, p: &Project, spread: bool| {
+            let (held, needed) = landed.prepare(generation, p, spread);
+            planner.request(&Request {
+                rules: Some(needed.clone()),
+                spread,
+                ..request(generation, p)
+            });
+            let updates = run(&mut planner);
+            updates.iter().for_each(|u| landed.keep(u));
+            (held, needed, updates)
+        };
+        let (held, needed, first) = ask(&mut landed, 1, &p, true);
+        assert!(held.is_empty());
+        assert_eq!(needed, vec![0, 1, 2]);
+        // The same project again: everything is held, complete, and equal to what the planner sent.
+        let (held, needed, _) = ask(&mut landed, 2, &p, true);
+        assert!(needed.is_empty());
+        let complete_of = |updates: &[Update], index: usize| {
+            updates.iter().find_map(|u| match u {
+                Update::Rule {
+                    index: i,
+                    outcome,
+                    complete: true,
+                    ..
+                } if *i == index => Some(outcome.clone()),
+                _ => None,
+            })
+        };
+        for i in 0..3 {
+            assert_eq!(complete_of(&held, i), complete_of(&first, i), "rule {i}");
+        }
+        // Typing into rule 1: only rule 1 goes out, for its nominal figures; the others stay on screen complete.
+        let mut typed = p.clone();
+        typed.rules[1].target_ohm += 1.0;
+        let (held, needed, updates) = ask(&mut landed, 3, &typed, false);
+        assert_eq!(needed, vec![1]);
+        assert_eq!(held.len(), 2);
+        assert!(held
+            .iter()
+            .all(|u| matches!(u, Update::Rule { complete: true, .. })));
+        assert!(matches!(
+            updates[..],
+            [
+                Update::Rule {
+                    index: 1,
+                    complete: false,
+                    computed: true,
+                    ..
+                },
+                Update::Done { .. }
+            ]
+        ));
+        // The pause: rule 1's nominal figures are held (shown at once), its spread is still asked for.
+        let (held, needed, _) = ask(&mut landed, 4, &typed, true);
+        assert_eq!(needed, vec![1]);
+        assert!(held.iter().any(|u| matches!(
+            u,
+            Update::Rule {
+                index: 1,
+                complete: false,
+                ..
+            }
+        )));
+        // Undoing the edit needs nothing from the planner.
+        let (held, needed, _) = ask(&mut landed, 5, &p, true);
+        assert!(needed.is_empty() && held.len() == 3);
+        // An outcome of an older generation landing late is not kept under the current keys.
+        let mut other = p.clone();
+        other.rules[0].target_ohm += 2.0;
+        let stale = Update::Rule {
+            generation: 5,
+            index: 0,
+            outcome: Box::new(RuleOutcome::Error {
+                name: "stale".into(),
+                message: "stale".into(),
+            }),
+            complete: true,
+            computed: true,
+            computations: 0,
+        };
+        landed.prepare(6, &other, true);
+        landed.keep(&stale);
+        assert_eq!(landed.prepare(7, &other, true).1, vec![0]);
     }
 }
