@@ -4,8 +4,9 @@ tests/python/browser.py). Prints one JSON object.
   python bench/browser_bench.py wasm PAGE.html REPEATS ROUNDS
       the whole-project recompute timed inside the page by performance.now (best of REPEATS, ROUNDS times)
   python bench/browser_bench.py bundle dist/ohmstack.html LOADS
-      size raw and gzip, and time to first results: navigation start → main#app[data-ready='true'] present
-      (best and median of LOADS fresh loads)
+      size raw and gzip, and from navigation start of LOADS fresh loads of the demo: first results
+      (main#app[data-ready='true'] present, the closed-form preview), every rule card on field figures (none
+      pending), and every figure final with its spread (main#app[data-settled='true'])
   python bench/browser_bench.py worker dist/ohmstack.html PROJECT.json EDITS [field]
       the plan worker on PROJECT (with `field`: every rule's model set to the field solver): the whole plan with
       spread (project opened → every rule's field row in, cold cache); after each of EDITS one-rule edits, the time
@@ -41,23 +42,35 @@ def wasm(page: str, repeats: int, rounds: int):
 
 def bundle(path: str, loads: int):
     raw = Path(path).read_bytes()
-    times = []
+    times, field, settled = [], [], []
     for _ in range(loads):
         d = browser.start()
         try:
-            # Record the moment the results appear from inside the page, before any of its scripts run, so the
-            # figure is navigation start → ready however late the driver gets to look.
+            # Record the moments from inside the page, before any of its scripts run, so each figure is navigation
+            # start → that moment however late the driver gets to look: the first results (the closed-form
+            # preview), every rule card on its field figures (none pending), and every figure final (the spread).
             d.execute_cdp_cmd("Page.addScriptToEvaluateOnNewDocument", {"source": """
                 new MutationObserver((_, obs) => {
-                  if (document.querySelector("main#app[data-ready='true']")) {
-                    window.__ohmReady = performance.now(); obs.disconnect();
+                  const app = document.querySelector("main#app[data-ready='true']");
+                  if (!app) return;
+                  const now = performance.now();
+                  window.__ohmReady = window.__ohmReady || now;
+                  const cards = document.querySelectorAll("[data-field]");
+                  if (!window.__ohmField && cards.length && !document.querySelector("[data-field='pending']")) {
+                    window.__ohmField = now;
                   }
+                  if (app.dataset.settled === "true") { window.__ohmSettled = now; obs.disconnect(); }
                 }).observe(document, {subtree: true, childList: true, attributes: true});
             """})
             d.get(Path(path).resolve().as_uri())
             t = browser.wait_for(lambda: d.execute_script(
                 "return window.__ohmReady || (document.body && document.body.dataset.loadError ? -1 : 0)"),
                 120, "the app to show results")
+            if t >= 0:
+                browser.wait_for(lambda: d.execute_script("return window.__ohmSettled"), 120,
+                                 "every figure of the demo to settle")
+                field.append(d.execute_script("return window.__ohmField"))
+                settled.append(d.execute_script("return window.__ohmSettled"))
         finally:
             d.quit()
         if t < 0:
@@ -65,6 +78,8 @@ def bundle(path: str, loads: int):
         times.append(t)
     return {"dist_bytes": len(raw), "dist_gzip_bytes": len(gzip.compress(raw, 9)),
             "first_results_best_ms": min(times), "first_results_median_ms": statistics.median(times),
+            "demo_field_figures_median_ms": statistics.median(field), "demo_field_figures_max_ms": max(field),
+            "demo_settled_median_ms": statistics.median(settled), "demo_settled_max_ms": max(settled),
             "loads": loads}
 
 
