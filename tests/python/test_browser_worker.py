@@ -121,11 +121,22 @@ def test_an_edit_recomputes_only_the_rule_it_touched(driver):
     before = computations(driver)
     assert before >= rules > 1
     generation = int(app(driver).get_attribute("data-field-generation"))
+    # Every change of a card's field state from here on: only the edited card may leave its landed figures (the
+    # page keeps every other rule's outcome, even in the render between the keystroke and its request).
+    driver.execute_script("""
+        window.changes = [];
+        new MutationObserver(ms => ms.forEach(m => window.changes.push(
+            [m.target.dataset.testid, m.target.getAttribute('data-field')])))
+          .observe(document, {subtree: true, attributes: true, attributeFilter: ['data-field']});
+    """)
     type_value(driver, "rule-1-target-input", "93")
     browser.wait_for(lambda: int(app(driver).get_attribute("data-field-generation")) > generation,
                      what="a new generation")
     wait_settled(driver, "field plan after the edit")
     assert computations(driver) == before + 1
+    changes = driver.execute_script("return window.changes")
+    assert ["rule-card-1", "pending"] in changes, changes
+    assert all(card == "rule-card-1" for card, state in changes if state != "landed"), changes
     # Undoing the edit brings back figures the worker already has: nothing is computed.
     type_value(driver, "rule-1-target-input", repr(float(w.demo()["rules"][1]["target_ohm"])))
     browser.wait_for(lambda: int(app(driver).get_attribute("data-field-generation")) > generation + 1,
