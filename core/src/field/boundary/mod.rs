@@ -14,7 +14,8 @@
 //! and junction ([`mesh`]); closed-form panel integrals of ln r and of its gradient ([`kernel`]); dense LU
 //! ([`lu`]). The vacuum problem is the conductor-only sub-block of the same matrix.
 //! The interaction matrices and vacuum capacitances of the last few meshes are kept (per thread): a solve that
-//! changes only a Dk (the spread's Dk limits, the loss probe's dielectric share) refactorises and nothing else.
+//! changes only a Dk (the spread's Dk limits, the loss probe's dielectric share) refactorises and nothing else, and
+//! one repeated with the same Dk (a synthesis's last iterate, then the final solve) costs nothing.
 //!
 //! Error estimate: the solve runs on two meshes (the finer one has about 1.7× the panels); the estimate is twice the
 //! largest relative change of each mode's Z and εeff between them plus [`ESTIMATE_FLOOR`] (0.05 %) for what both
@@ -360,6 +361,9 @@ pub fn vacuum_capacitances(g: &Geometry, params: MeshParams) -> Result<BemLevel>
     level(g, params, false)
 }
 
+/// Half-domain capacitances per symmetry, [odd, even], as far as computed.
+type BySymmetry = [Option<Vec<Vec<f64>>>; 2];
+
 /// What a solve shares with every other solve on the same panels: the interaction matrices (which depend on where
 /// the panels are and which rows are potentials or normal fields, not on any Dk) and the vacuum capacitances
 /// (no Dk at all). A Dk-only change — the spread's Dk limits, the loss probe's dielectric share — then costs one
@@ -368,8 +372,15 @@ struct Shared {
     key: Vec<u64>,
     ints: Interactions,
     /// Half-domain vacuum capacitance per symmetry: [odd, even].
-    vacuum: std::cell::RefCell<[Option<Vec<Vec<f64>>>; 2]>,
+    vacuum: std::cell::RefCell<BySymmetry>,
+    /// Half-domain capacitances with the dielectrics, per symmetry, for the last few sets of Dk (keyed by every
+    /// panel's permittivities): a synthesis's last iterate and the final solve with the estimate are the same
+    /// solve, as are a loss probe's and the spread's at the nominal.
+    dielectric: std::cell::RefCell<Vec<(Vec<u64>, BySymmetry)>>,
 }
+
+/// Sets of Dk kept per mesh (the nominal, and the spread's or the loss probe's Dk variations).
+const DIELECTRIC_KEPT: usize = 4;
 
 /// Meshes kept: the nominal and a few Dk variations of it come in a row; four pairs of 300 panels are ~6 MB.
 const SHARED_KEPT: usize = 4;
@@ -424,6 +435,7 @@ fn shared(mesh: &Mesh) -> std::rc::Rc<Shared> {
             key,
             ints: interactions(mesh),
             vacuum: Default::default(),
+            dielectric: Default::default(),
         });
         if recent.len() >= SHARED_KEPT {
             recent.remove(0);
@@ -450,6 +462,51 @@ fn vacuum_half(mesh: &Mesh, sh: &Shared, n_signals: usize, sign: f64) -> Result<
     Ok(c)
 }
 
+/// The permittivities of every panel, as exact bits: with [`mesh_key`], what a solve with dielectrics depends on.
+fn dk_key(mesh: &Mesh) -> Vec<u64> {
+    mesh.panels
+        .iter()
+        .flat_map(|p| match p.kind {
+            Kind::Interface {
+                eps_plus,
+                eps_minus,
+            } => [eps_plus.to_bits(), eps_minus.to_bits()],
+            Kind::Conductor { eps, eps_minus, .. } => {
+                [eps.to_bits(), eps_minus.map_or(u64::MAX, f64::to_bits)]
+            }
+        })
+        .collect()
+}
+
+/// The half capacitance of one symmetry with the dielectrics, kept per mesh and set of Dk.
+fn dielectric_half(mesh: &Mesh, sh: &Shared, n_signals: usize, sign: f64) -> Result<Vec<Vec<f64>>> {
+    let slot = usize::from(sign > 0.0);
+    let key = dk_key(mesh);
+    if let Some(c) = sh
+        .dielectric
+        .borrow()
+        .iter()
+        .find(|(k, _)| *k == key)
+        .and_then(|(_, c)| c[slot].clone())
+    {
+        return Ok(c);
+    }
+    let c = half_capacitance(mesh, &sh.ints, n_signals, sign, false)?;
+    let mut kept = sh.dielectric.borrow_mut();
+    match kept.iter_mut().find(|(k, _)| *k == key) {
+        Some((_, slots)) => slots[slot] = Some(c.clone()),
+        None => {
+            if kept.len() >= DIELECTRIC_KEPT {
+                kept.remove(0);
+            }
+            let mut slots = [None, None];
+            slots[slot] = Some(c.clone());
+            kept.push((key, slots));
+        }
+    }
+    Ok(c)
+}
+
 fn level(g: &Geometry, params: MeshParams, with_dielectrics: bool) -> Result<BemLevel> {
     let mesh = mesh::build(g, params);
     for k in 0..g.n_signals {
@@ -465,7 +522,6 @@ fn level(g: &Geometry, params: MeshParams, with_dielectrics: bool) -> Result<Bem
     }
     let pair = g.layout == Layout::MirroredPair;
     let sh = shared(&mesh);
-    let ints = &sh.ints;
     let ns = g.n_signals;
     let sym = |m: Vec<Vec<f64>>| -> Vec<Vec<f64>> {
         let n = m.len();
@@ -489,8 +545,8 @@ fn level(g: &Geometry, params: MeshParams, with_dielectrics: bool) -> Result<Bem
         if !with_dielectrics {
             (c0.clone(), c0)
         } else {
-            let co = half_capacitance(&mesh, ints, 1, -1.0, false)?[0][0];
-            let ce = half_capacitance(&mesh, ints, 1, 1.0, false)?[0][0];
+            let co = dielectric_half(&mesh, &sh, 1, -1.0)?[0][0];
+            let ce = dielectric_half(&mesh, &sh, 1, 1.0)?[0][0];
             (maxwell(co, ce), c0)
         }
     } else {
@@ -504,7 +560,7 @@ fn level(g: &Geometry, params: MeshParams, with_dielectrics: bool) -> Result<Bem
         if !with_dielectrics {
             (c0.clone(), c0)
         } else {
-            (double(half_capacitance(&mesh, ints, ns, 1.0, false)?), c0)
+            (double(dielectric_half(&mesh, &sh, ns, 1.0)?), c0)
         }
     };
     Ok(BemLevel {

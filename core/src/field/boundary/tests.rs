@@ -489,7 +489,7 @@ fn a_solve_without_the_estimate_gives_the_same_figures() {
 fn a_dk_change_reuses_the_fill_and_gives_the_figures_of_a_fresh_solve() {
     // The kept interaction matrices and vacuum capacitances (`Shared`) are Dk-independent: a solve after the
     // nominal one (every Dk scaled by 1.07, the same panels) equals a solve from nothing to the last bit, for a
-    // single line and for a pair (both symmetries).
+    // single line and for a pair (both symmetries). The capacitances with dielectrics are kept per set of Dk.
     for (name, g) in cases()
         .into_iter()
         .filter(|(n, _)| *n == "microstrip masked" || *n == "edge-coupled microstrip masked etched")
@@ -507,6 +507,18 @@ fn a_dk_change_reuses_the_fill_and_gives_the_figures_of_a_fresh_solve() {
         assert!(
             reused.c[0][0] > nominal.c[0][0],
             "{name}: a higher Dk raises C"
+        );
+        // Back to the nominal Dk: its kept capacitances, equal to a fresh solve's; a Dk seen on no panel is not
+        // answered from them.
+        let again = capacitances(&g, p).unwrap();
+        forget_kept();
+        let fresh_nominal = capacitances(&g, p).unwrap();
+        assert_eq!(again.c, fresh_nominal.c, "{name}");
+        assert_eq!(nominal.c, fresh_nominal.c, "{name}");
+        let other = capacitances(&g.with_dielectrics_scaled(0.93), p).unwrap();
+        assert!(
+            other.c[0][0] < nominal.c[0][0],
+            "{name}: a lower Dk lowers C"
         );
     }
 }
