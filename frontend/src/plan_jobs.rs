@@ -89,26 +89,36 @@ pub fn rule_key(project: &Project, rule: &ImpedanceRule, options: &PlanOptions) 
 /// Outcomes kept: a 16-rule board with a few variants of each rule edited back and forth.
 const CACHE_ENTRIES: usize = 256;
 
-/// Rule outcomes by [`rule_key`], least recently used dropped first.
-#[derive(Debug, Default)]
-struct RuleCache {
-    entries: Vec<(String, RuleOutcome)>,
+/// Values by key, at most [`CACHE_ENTRIES`], least recently used dropped first: the planners' rule outcomes by
+/// [`rule_key`] and the page's landed outcomes by its hash.
+#[derive(Debug)]
+struct RuleCache<K, V> {
+    entries: Vec<(K, V)>,
 }
 
-impl RuleCache {
-    fn get(&mut self, key: &str) -> Option<RuleOutcome> {
+impl<K, V> Default for RuleCache<K, V> {
+    fn default() -> Self {
+        RuleCache {
+            entries: Vec::new(),
+        }
+    }
+}
+
+impl<K: PartialEq, V: Clone> RuleCache<K, V> {
+    fn get(&mut self, key: &K) -> Option<V> {
         let at = self.entries.iter().position(|(k, _)| k == key)?;
         let entry = self.entries.remove(at);
-        let outcome = entry.1.clone();
+        let value = entry.1.clone();
         self.entries.push(entry);
-        Some(outcome)
+        Some(value)
     }
 
-    fn put(&mut self, key: String, outcome: RuleOutcome) {
+    fn put(&mut self, key: K, value: V) {
+        self.entries.retain(|(k, _)| *k != key);
         if self.entries.len() >= CACHE_ENTRIES {
             self.entries.remove(0);
         }
-        self.entries.push((key, outcome));
+        self.entries.push((key, value));
     }
 }
 
@@ -173,7 +183,7 @@ pub fn share_rules(project: &Project, planners: usize) -> Vec<Vec<usize>> {
 #[derive(Debug)]
 pub struct Planner {
     options: PlanOptions,
-    cache: RuleCache,
+    cache: RuleCache<String, RuleOutcome>,
     job: Option<Job>,
     /// The newest generation seen; older requests arriving late are ignored.
     latest: u64,
@@ -350,30 +360,19 @@ fn key_hash(project: &Project, rule: &ImpedanceRule, options: &PlanOptions) -> u
     h.finish()
 }
 
-/// Outcomes the page holds, by key: 16 rules with a few variants of each edited back and forth.
-const LANDED_ENTRIES: usize = 256;
-
 /// The page's copy of every rule outcome that landed, so that a new request asks the workers only for the rules
 /// whose outcome the page does not already hold: after a one-rule edit only that rule is pending on screen (the
 /// others keep their figures), and nothing else crosses from the workers.
 #[derive(Debug, Default)]
 pub struct Landed {
-    /// (key hash, outcome, complete), least recently used first.
-    entries: Vec<(u64, RuleOutcome, bool)>,
+    /// (outcome, complete) by key hash.
+    entries: RuleCache<u64, (RuleOutcome, bool)>,
     /// The request out: its generation and each rule's key hashes (with the options asked, nominal only).
     current: u64,
     keys: Vec<(u64, u64)>,
 }
 
 impl Landed {
-    fn get(&mut self, key: u64) -> Option<(RuleOutcome, bool)> {
-        let at = self.entries.iter().position(|(k, ..)| *k == key)?;
-        let entry = self.entries.remove(at);
-        let found = (entry.1.clone(), entry.2);
-        self.entries.push(entry);
-        Some(found)
-    }
-
     /// For a request about to go out: the updates the page can take at once (the rules whose outcome it holds)
     /// and the rules still to plan.
     pub fn prepare(
@@ -395,11 +394,11 @@ impl Landed {
             .map(|r| (key_hash(project, r, &full), key_hash(project, r, &nominal)))
             .collect();
         let (mut held, mut needed) = (Vec::new(), Vec::new());
-        for (index, &(full_key, nominal_key)) in self.keys.clone().iter().enumerate() {
-            let found = match self.get(full_key) {
+        for (index, &(full_key, nominal_key)) in self.keys.iter().enumerate() {
+            let found = match self.entries.get(&full_key) {
                 Some((outcome, true)) => Some((outcome, true)),
                 // A rule that cannot be computed has no spread to follow.
-                _ => self.get(nominal_key).map(|(outcome, _)| {
+                _ => self.entries.get(&nominal_key).map(|(outcome, _)| {
                     let error = matches!(outcome, RuleOutcome::Error { .. });
                     (outcome, error)
                 }),
@@ -444,11 +443,7 @@ impl Landed {
             return;
         }
         let key = if *complete { full_key } else { nominal_key };
-        self.entries.retain(|(k, ..)| *k != key);
-        if self.entries.len() >= LANDED_ENTRIES {
-            self.entries.remove(0);
-        }
-        self.entries.push((key, (**outcome).clone(), *complete));
+        self.entries.put(key, ((**outcome).clone(), *complete));
     }
 }
 
@@ -474,30 +469,22 @@ impl PoolTally {
     pub fn merge(&mut self, from: usize, updates: Vec<Update>) -> Vec<Update> {
         let mut out = Vec::with_capacity(updates.len());
         for mut update in updates {
-            match &mut update {
-                Update::Rule { computations, .. } => {
-                    if let Some(c) = self.computed.get_mut(from) {
-                        *c = *computations;
-                    }
-                    *computations = self.computed.iter().sum();
+            if let Update::Rule { computations, .. } | Update::Done { computations, .. } =
+                &mut update
+            {
+                if let Some(c) = self.computed.get_mut(from) {
+                    *c = *computations;
                 }
-                Update::Done {
-                    generation,
-                    computations,
-                } => {
-                    if let Some(c) = self.computed.get_mut(from) {
-                        *c = *computations;
-                    }
-                    *computations = self.computed.iter().sum();
-                    self.finished = match self.finished {
-                        (g, n) if g == *generation => (g, n + 1),
-                        _ => (*generation, 1),
-                    };
-                    if self.finished.1 < self.computed.len() {
-                        continue;
-                    }
+                *computations = self.computed.iter().sum();
+            }
+            if let Update::Done { generation, .. } = update {
+                self.finished = match self.finished {
+                    (g, n) if g == generation => (g, n + 1),
+                    _ => (generation, 1),
+                };
+                if self.finished.1 < self.computed.len() {
+                    continue;
                 }
-                Update::Failed { .. } => {}
             }
             out.push(update);
         }
@@ -509,7 +496,7 @@ impl PoolTally {
 /// preview only (a closed form of a broadside or coupled stripline takes milliseconds, sixteen of them a frame).
 #[derive(Debug, Default)]
 pub struct Previewer {
-    cache: RuleCache,
+    cache: RuleCache<String, RuleOutcome>,
 }
 
 impl Previewer {
