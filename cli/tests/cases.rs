@@ -94,14 +94,28 @@ fn assert_calc_is_analyze(case: &[&str], project: &str) {
         let calc = run_json(&args);
         let rule = analyze_rule(project, project_engine);
         let (z_calc, z_rule) = (controlled(&calc), rule["impedance_ohm"].as_f64().unwrap());
+        // Lengths typed with units (`120um`) and written in metres (1.2e-4) may differ in the last bit, and the field
+        // engine's fill switches from closed forms to a Gauss rule at four panel lengths (≤ 5e-6 per entry), so the
+        // two can differ by ~1e-9 in Z and a width solve by its own tolerance; a wrongly mapped option moves Z by
+        // far more (≥ 1e-4).
         assert!(
-            rel(z_calc, z_rule) < 1e-12,
+            rel(z_calc, z_rule) < 1e-7,
             "{case:?} on {engine}: calc {z_calc} Ω, analyze {z_rule} Ω"
         );
         assert_eq!(calc["method"], rule["method"], "{case:?}");
-        // Lengths typed with units (`120um`) and written in metres (1.2e-4) may differ in the last bit.
-        for key in ["width_m", "error_estimate_pct"] {
-            assert_close(&calc[key], &rule[key], &format!("{case:?} {engine} {key}"));
+        // Width relative, the estimate (a percentage made of a difference of two solves) absolute.
+        for (key, relative) in [("width_m", true), ("error_estimate_pct", false)] {
+            match (calc[key].as_f64(), rule[key].as_f64()) {
+                (Some(x), Some(y)) => {
+                    let close = if relative {
+                        rel(x, y) < 1e-6
+                    } else {
+                        (x - y).abs() < 1e-5
+                    };
+                    assert!(close, "{case:?} {engine} {key}: {x} vs {y}")
+                }
+                _ => assert_eq!(calc[key], rule[key], "{case:?} {engine} {key}"),
+            }
         }
         // The resolved section (layer names aside: the project's are its own).
         for key in ["medium", "t", "warnings"] {

@@ -57,6 +57,80 @@ impl Seg {
     }
 }
 
+/// How the charge density varies along a panel.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Shape {
+    /// Constant.
+    Flat,
+    /// (1 + β)·(r/L)^β at distance r from the conductor corner at `a` (or at `b` when `at_a` is false), mean 1:
+    /// the corner's own singularity (β = π/(2π − α) − 1 for a conductor of interior angle α, −1/3 at a right
+    /// angle, −1/2 at a thin edge; Van Bladel 1991). One such panel stands for a whole geometric run of flat ones.
+    Corner { at_a: bool, beta: f64 },
+}
+
+impl Shape {
+    /// The density at the panel's midpoint per unit mean density.
+    pub fn at_middle(&self) -> f64 {
+        match *self {
+            Shape::Flat => 1.0,
+            Shape::Corner { beta, .. } => (1.0 + beta) * 0.5f64.powf(beta),
+        }
+    }
+}
+
+/// Sub-panels standing for a corner panel's density in the panel integrals: geometric from the corner (the first
+/// [`CORNER_INNER`] of the length, growing by [`CORNER_GROWTH`]), each with the mean of (1 + β)(r/L)^β over it,
+/// so that their constant-density integrals (closed forms) sum to the corner panel's; a flat panel is itself with
+/// weight 1.
+pub fn sub_panels(seg: &Seg, shape: Shape) -> Vec<(Seg, f64)> {
+    let Shape::Corner { at_a, beta } = shape else {
+        return vec![(*seg, 1.0)];
+    };
+    let (corner, other) = if at_a { (seg.a, seg.b) } else { (seg.b, seg.a) };
+    let l = seg.len();
+    let mut cuts = vec![0.0];
+    let mut h = CORNER_INNER;
+    let mut x = 0.0;
+    while x + h < 1.0 - 0.5 * h {
+        x += h;
+        cuts.push(x);
+        h *= CORNER_GROWTH;
+    }
+    cuts.push(1.0);
+    let at = |t: f64| {
+        [
+            corner[0] + t * (other[0] - corner[0]),
+            corner[1] + t * (other[1] - corner[1]),
+        ]
+    };
+    cuts.windows(2)
+        .map(|w| {
+            // Mean of (1 + β)·t^β over [t0, t1] = (t1^(1+β) − t0^(1+β)) / (t1 − t0).
+            let mean = (w[1].powf(1.0 + beta) - w[0].powf(1.0 + beta)) / (w[1] - w[0]);
+            // Oriented as the panel (its normal is the panel's).
+            let seg = if at_a {
+                Seg {
+                    a: at(w[0]),
+                    b: at(w[1]),
+                }
+            } else {
+                Seg {
+                    a: at(w[1]),
+                    b: at(w[0]),
+                }
+            };
+            debug_assert!(seg.len() <= l * (1.0 + 1e-12));
+            (seg, mean)
+        })
+        .collect()
+}
+
+/// First sub-panel of a corner panel, as a fraction of its length (it carries CORNER_INNER^(1+β), about 1 %, of the
+/// panel's charge).
+const CORNER_INNER: f64 = 1e-3;
+/// Growth of the sub-panels of a corner panel.
+const CORNER_GROWTH: f64 = 2.0;
+
 /// The grounded planes of a cross-section.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub enum Planes {
@@ -408,7 +482,7 @@ impl PlateFrame {
 /// quadrature points of the smooth rest (sub-panels ≤ b/4) and of the whole function far away (≤ b/2) — the rules
 /// of [`with_planes`], which the tests hold it to.
 pub struct PlateSource {
-    near: [Src; 3],
+    near: [Source; 3],
     xlo: f64,
     xhi: f64,
     rest: Vec<PlatePoint>,
@@ -416,17 +490,18 @@ pub struct PlateSource {
 }
 
 impl PlateSource {
-    pub fn new(frame: &PlateFrame, s: &Seg) -> PlateSource {
+    pub fn new(frame: &PlateFrame, s: &Seg, shape: Shape) -> PlateSource {
+        let own = Source::new(s, shape);
         let points = |hmax: f64| {
             let mut v = Vec::new();
-            gauss_points(s, hmax, |p, w| v.push(frame.point(p, w)));
+            own.points(s, hmax, |p, w| v.push(frame.point(p, w)));
             v
         };
         PlateSource {
             near: [
-                Src::new(s),
-                Src::new(&s.mirror_y(frame.y0)),
-                Src::new(&s.mirror_y(frame.y0 + frame.b)),
+                own.clone(),
+                Source::new(&s.mirror_y(frame.y0), shape),
+                Source::new(&s.mirror_y(frame.y0 + frame.b), shape),
             ],
             xlo: s.a[0].min(s.b[0]),
             xhi: s.a[0].max(s.b[0]),
@@ -575,9 +650,172 @@ impl Src {
     }
 }
 
+/// Three Gauss points of a corner panel's density for targets far from it: Gauss–Legendre in u = (r/L)^(1+β), where
+/// the density times dr is L·du (so the weights are plain), mapped back to r = L·u^(1/(1+β)).
+fn corner_points(seg: &Seg, at_a: bool, beta: f64) -> [([f64; 2], f64); 3] {
+    let (corner, other) = if at_a { (seg.a, seg.b) } else { (seg.b, seg.a) };
+    let l = seg.len();
+    let g = 0.5 * (0.6f64).sqrt();
+    let p = 1.0 / (1.0 + beta);
+    [
+        (0.5 - g, 5.0 / 18.0),
+        (0.5, 8.0 / 18.0),
+        (0.5 + g, 5.0 / 18.0),
+    ]
+    .map(|(u, w)| {
+        let t = f64::powf(u, p);
+        (
+            [
+                corner[0] + t * (other[0] - corner[0]),
+                corner[1] + t * (other[1] - corner[1]),
+            ],
+            w * l,
+        )
+    })
+}
+
+/// A corner panel ([`Shape::Corner`]) for the fill: its flat sub-panels with their weights near it, three points
+/// far from it (the same [`FAR`] rule as a flat panel).
+#[derive(Debug, Clone)]
+pub struct CornerSrc {
+    whole: Src,
+    subs: Vec<(Src, f64)>,
+    points: [([f64; 2], f64); 3],
+}
+
+impl CornerSrc {
+    // Out of line: a few columns of the fill, which keeps the flat panels' calls inlined.
+    #[inline(never)]
+    fn potential(&self, c: [f64; 2], self_panel: bool) -> f64 {
+        if !self_panel && self.whole.far(c) {
+            return self
+                .points
+                .iter()
+                .map(|(p, w)| -0.5 * w * ((c[0] - p[0]).powi(2) + (c[1] - p[1]).powi(2)).ln())
+                .sum();
+        }
+        self.subs
+            .iter()
+            .map(|(s, w)| w * s.potential(c, self_panel))
+            .sum()
+    }
+
+    #[inline(never)]
+    fn field(&self, c: [f64; 2], self_panel: bool) -> [f64; 2] {
+        if self_panel {
+            return [0.0, 0.0];
+        }
+        let mut f = [0.0, 0.0];
+        if self.whole.far(c) {
+            for (p, w) in &self.points {
+                let d = [c[0] - p[0], c[1] - p[1]];
+                let q = d[0] * d[0] + d[1] * d[1];
+                f[0] += w * d[0] / q;
+                f[1] += w * d[1] / q;
+            }
+            return f;
+        }
+        for (s, w) in &self.subs {
+            let g = s.field(c, false);
+            f[0] += w * g[0];
+            f[1] += w * g[1];
+        }
+        f
+    }
+}
+
+/// A panel's source in the fill: flat (closed forms) or a corner panel.
+#[derive(Debug, Clone)]
+pub enum Source {
+    Flat(Src),
+    Corner(CornerSrc),
+}
+
+impl Source {
+    pub fn new(s: &Seg, shape: Shape) -> Source {
+        match shape {
+            Shape::Flat => Source::Flat(Src::new(s)),
+            Shape::Corner { at_a, beta } => Source::Corner(CornerSrc {
+                whole: Src::new(s),
+                subs: sub_panels(s, shape)
+                    .iter()
+                    .map(|(q, w)| (Src::new(q), *w))
+                    .collect(),
+                points: corner_points(s, at_a, beta),
+            }),
+        }
+    }
+
+    /// P at `c` (see [`Src::potential`]); `self_panel`: `c` is this panel's midpoint (on every sub-panel's line).
+    #[inline(always)]
+    pub fn potential(&self, c: [f64; 2], self_panel: bool) -> f64 {
+        match self {
+            Source::Flat(s) => s.potential(c, self_panel),
+            Source::Corner(k) => k.potential(c, self_panel),
+        }
+    }
+
+    /// Field vector at `c` (see [`Src::field`]; principal value on the panel itself).
+    #[inline(always)]
+    pub fn field(&self, c: [f64; 2], self_panel: bool) -> [f64; 2] {
+        match self {
+            Source::Flat(s) => s.field(c, self_panel),
+            Source::Corner(k) => k.field(c, self_panel),
+        }
+    }
+
+    /// Quadrature points (point, weight) of the density for a smooth integrand: two Gauss points per piece of at
+    /// most `hmax` on a flat panel, the three far points on a corner panel (which is much shorter than `hmax`).
+    fn points(&self, seg: &Seg, hmax: f64, mut f: impl FnMut([f64; 2], f64)) {
+        match self {
+            Source::Flat(_) => gauss_points(seg, hmax, f),
+            Source::Corner(k) => {
+                for (p, w) in k.points {
+                    f(p, w)
+                }
+            }
+        }
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn a_corner_panel_carries_its_charge_and_looks_the_same_near_and_far() {
+        // Sub-panel weights × lengths = the panel's charge at mean density 1 (exact by construction); the three far
+        // points and the sub-panel sum (closed forms) agree where the rule switches (4 panel lengths) to the size of
+        // the two-point Gauss rule's own error there, and both differ from a flat panel's potential by the dipole
+        // of the corner-heavy density (the test fails if the weights or the far points lose the shape).
+        let seg = Seg {
+            a: [0.0, 0.0],
+            b: [0.3, 0.4],
+        };
+        for (at_a, beta) in [(true, -1.0 / 3.0), (false, -0.45), (true, -0.5)] {
+            let shape = Shape::Corner { at_a, beta };
+            let subs = sub_panels(&seg, shape);
+            let charge: f64 = subs.iter().map(|(q, w)| q.len() * w).sum();
+            assert!((charge - seg.len()).abs() < 1e-12, "{charge}");
+            let src = Source::new(&seg, shape);
+            let Source::Corner(k) = &src else { panic!() };
+            let flat = Src::new(&seg);
+            for d in [4.0001, 6.0, 20.0] {
+                let c = [0.15 + d * 0.5 * 0.8, 0.2 - d * 0.5 * 0.6];
+                let near: f64 = k.subs.iter().map(|(s, w)| w * s.potential(c, false)).sum();
+                let far = src.potential(c, false);
+                assert!(
+                    (near - far).abs() < 2e-4 * near.abs(),
+                    "{d}: {near} vs {far}"
+                );
+                let fl = flat.potential(c, false);
+                assert!(
+                    (near - fl).abs() > 10.0 * (near - far).abs(),
+                    "{d}: flat {fl}"
+                );
+            }
+        }
+    }
 
     #[test]
     fn closed_form_matches_fine_quadrature() {
@@ -693,7 +931,7 @@ mod tests {
             },
         ];
         for s in &panels {
-            let src = PlateSource::new(&frame, s);
+            let src = PlateSource::new(&frame, s, Shape::Flat);
             for (c, me) in [
                 (s.mid(), true),
                 ([0.33, 0.99], false),

@@ -10,14 +10,17 @@
 //! field). Grounded planes are in the Green's function (image for one plane; the closed-form two-plate function
 //! for two, see [`kernel`]), the x = 0 mirror of the half domain by image charges of sign ±1 (even/odd mode).
 //! Plane-less lines add the potential at infinity as an unknown with zero total charge (Harrington, "Field
-//! Computation by Moment Methods", 1968, §2.4). Piecewise-constant panels graded geometrically toward every corner
-//! and junction ([`mesh`]); closed-form panel integrals of ln r and of its gradient ([`kernel`]); dense LU
-//! ([`lu`]). The vacuum problem is the conductor-only sub-block of the same matrix.
+//! Computation by Moment Methods", 1968, §2.4). Piecewise-constant panels graded geometrically toward every
+//! junction, and at every conductor corner (or thin edge) one corner panel whose density carries the corner's own
+//! singularity r^(ν−1), ν found from the dielectric wedges around it ([`mesh::corner_exponent`]); it stands for the
+//! dozen ever smaller flat panels a corner needed before, so a masked pair has about 190 unknowns instead of 240
+//! and a stripline a third of its former count ([`mesh`]); closed-form panel integrals of ln r and of its gradient
+//! ([`kernel`]); dense LU ([`lu`]). The vacuum problem is the conductor-only sub-block of the same matrix.
 //! The interaction matrices and vacuum capacitances of the last few meshes are kept (per thread): a solve that
 //! changes only a Dk (the spread's Dk limits, the loss probe's dielectric share) refactorises and nothing else, and
 //! one repeated with the same Dk (a synthesis's last iterate, then the final solve) costs nothing.
 //!
-//! Error estimate: the solve runs on two meshes (the finer one has about 1.7× the panels); the estimate is twice the
+//! Error estimate: the solve runs on two meshes (the finer one has about 1.4× the panels); the estimate is twice the
 //! largest relative change of each mode's Z and εeff between them plus [`ESTIMATE_FLOOR`] (0.05 %) for what both
 //! meshes share (factor and floor set from the scikit-fem checks, see [`ESTIMATE_FLOOR`]). The tests check that it covers the true error against the exact results, a much finer mesh, and (together
 //! with the reference's own estimate) the finite-volume solver.
@@ -27,12 +30,13 @@
 //! the effect is far below the accuracy target.
 //!
 //! Measured accuracy (tests in `tests.rs`, default options; η0 = µ0·c throughout): Cohn 1954 centred strip
-//! ≤ 0.022 %, Cohn 1955 coupled strips ≤ 0.030 %, Wen 1969 coplanar line ≤ 0.060 % on Z0 with εeff = (εr + 1)/2 to
+//! ≤ 0.008 %, Cohn 1955 coupled strips ≤ 0.031 %, Wen 1969 coplanar line ≤ 0.049 % on Z0 with εeff = (εr + 1)/2 to
 //! 1e-6, and every structure × cover case (microstrip bare/masked/embedded/etched, centred/offset/layered stripline
 //! with thick etched copper, edge-coupled microstrip and stripline pairs, broadside pair, grounded coplanar single
-//! and pair, plane-less coplanar) ≤ 0.064 % from the finite-volume solver at 0.01 % tolerance. Cost: 55–340 panels
-//! on the finer mesh; natively (release, shared 2-core machine) about 0.8 ms for bare microstrip, 1.2 ms for an
-//! etched microstrip under mask and 4.9 ms for an etched edge-coupled pair under mask (`benches/field_engines.rs`).
+//! and pair, plane-less coplanar) ≤ 0.037 % from the finite-volume solver at 0.01 % tolerance. Cost: 25–300 panels
+//! on the finer mesh; natively (release, shared 2-core machine) about 1.5 ms for an etched microstrip under mask and
+//! 4.2 ms for an etched edge-coupled pair under mask, the coarse mesh of the estimate not included
+//! (`benches/field_engines.rs`).
 
 pub mod kernel;
 pub mod lu;
@@ -44,7 +48,7 @@ use crate::field::extract;
 use crate::field::geometry::{Geometry, Layout, Net};
 use crate::field::{FieldResult, Level};
 use crate::section::Analysis;
-use kernel::{Planes, PlateFrame, PlateSource, Src};
+use kernel::{Planes, PlateFrame, PlateSource, Source};
 use lu::Lu;
 use mesh::{Kind, Mesh, MeshParams};
 use std::f64::consts::PI;
@@ -81,19 +85,22 @@ impl Default for BemOptions {
         BemOptions {
             // Dielectric interfaces (mask, cover, layer boundaries) graded finely far out: an embedded pair on the
             // 12-layer fixture was 0.35 % low against the reference with 1.25 / 2.0 here, 0.05 % with 1.1 / 1.3.
+            // Corner panels (0.05 of the smallest feature) at conductor corners: see `mesh`.
             fine: MeshParams {
                 first: 1e-3,
-                growth: 1.6,
+                growth: 1.5,
                 growth_interface: 1.1,
                 growth_far: 1.3,
                 far: 5.0,
+                corner: 5e-2,
             },
             coarse: MeshParams {
                 first: 2e-3,
                 growth: 1.8,
                 growth_interface: 1.25,
-                growth_far: 2.0,
+                growth_far: 1.6,
                 far: 4.0,
+                corner: 1e-1,
             },
             tolerance: 3e-3,
             estimate: true,
@@ -139,7 +146,7 @@ fn interactions(mesh: &Mesh) -> Interactions {
     // Every source is precomputed once: with no plane or one plane the panel, its mirror in x = 0 and (with a
     // plane) their images; with two planes the same pair with the two-plate function's factors.
     enum Sources {
-        Images(Vec<[Src; 4]>, bool),
+        Images(Vec<[Source; 4]>, bool),
         Plates(PlateFrame, Vec<[PlateSource; 2]>),
     }
     let sources = match mesh.planes {
@@ -150,8 +157,8 @@ fn interactions(mesh: &Mesh) -> Interactions {
                 .iter()
                 .map(|p| {
                     [
-                        PlateSource::new(&frame, &p.seg),
-                        PlateSource::new(&frame, &p.seg.mirror_x()),
+                        PlateSource::new(&frame, &p.seg, p.shape),
+                        PlateSource::new(&frame, &p.seg.mirror_x(), p.shape),
                     ]
                 })
                 .collect();
@@ -170,10 +177,10 @@ fn interactions(mesh: &Mesh) -> Interactions {
                 .map(|p| {
                     let m = p.seg.mirror_x();
                     [
-                        Src::new(&p.seg),
-                        Src::new(&p.seg.mirror_y(y0)),
-                        Src::new(&m),
-                        Src::new(&m.mirror_y(y0)),
+                        Source::new(&p.seg, p.shape),
+                        Source::new(&p.seg.mirror_y(y0), p.shape),
+                        Source::new(&m, p.shape),
+                        Source::new(&m.mirror_y(y0), p.shape),
                     ]
                 })
                 .collect();
@@ -276,7 +283,10 @@ fn half_capacitance(
                 eps_plus,
                 eps_minus,
             } => {
-                a[r * m + r] += PI * (eps_plus + eps_minus) / (eps_plus - eps_minus);
+                // The jump of the normal field is the density at the collocation point (the midpoint), which on a
+                // corner panel is its shape's value there times the unknown (the mean).
+                a[r * m + r] += PI * (eps_plus + eps_minus) / (eps_plus - eps_minus)
+                    * mesh.panels[i].shape.at_middle();
             }
             Kind::Conductor { .. } => {
                 if floating {
@@ -391,7 +401,7 @@ thread_local! {
 
 /// The panels as exact bits: positions, row kind (interface, conductor of a net, two-sided strip) and the planes.
 fn mesh_key(mesh: &Mesh) -> Vec<u64> {
-    let mut key = Vec::with_capacity(5 * mesh.panels.len() + 3);
+    let mut key = Vec::with_capacity(6 * mesh.panels.len() + 3);
     let (tag, a, b) = match mesh.planes {
         Planes::None => (0, 0.0, 0.0),
         Planes::Below(y) => (1, y, 0.0),
@@ -410,7 +420,12 @@ fn mesh_key(mesh: &Mesh) -> Vec<u64> {
                 net << 1 | u64::from(eps_minus.is_some())
             }
         };
+        let shape = match p.shape {
+            mesh::Shape::Flat => u64::MAX,
+            mesh::Shape::Corner { at_a, beta } => beta.to_bits() ^ u64::from(at_a),
+        };
         key.extend([
+            shape,
             p.seg.a[0].to_bits(),
             p.seg.a[1].to_bits(),
             p.seg.b[0].to_bits(),

@@ -436,6 +436,7 @@ fn estimate_covers_the_error_against_a_finer_mesh() {
         growth_interface: 1.05,
         growth_far: 1.05,
         far: 1e9,
+        corner: 0.0,
     };
     for k in [0, 1, 3] {
         let (name, g) = &cases()[k];
