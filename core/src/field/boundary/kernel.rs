@@ -87,7 +87,34 @@ pub fn sub_panels(seg: &Seg, shape: Shape) -> Vec<(Seg, f64)> {
         return vec![(*seg, 1.0)];
     };
     let (corner, other) = if at_a { (seg.a, seg.b) } else { (seg.b, seg.a) };
-    let l = seg.len();
+    let at = |t: f64| {
+        [
+            corner[0] + t * (other[0] - corner[0]),
+            corner[1] + t * (other[1] - corner[1]),
+        ]
+    };
+    corner_cuts(beta)
+        .into_iter()
+        .map(|(t0, t1, mean)| {
+            // Oriented as the panel (its normal is the panel's).
+            let sub = if at_a {
+                Seg {
+                    a: at(t0),
+                    b: at(t1),
+                }
+            } else {
+                Seg {
+                    a: at(t1),
+                    b: at(t0),
+                }
+            };
+            (sub, mean)
+        })
+        .collect()
+}
+
+/// The sub-panels of a corner panel as fractions of its length from the corner, (t0, t1, mean density on it).
+fn corner_cuts(beta: f64) -> Vec<(f64, f64, f64)> {
     let mut cuts = vec![0.0];
     let mut h = CORNER_INNER;
     let mut x = 0.0;
@@ -97,30 +124,14 @@ pub fn sub_panels(seg: &Seg, shape: Shape) -> Vec<(Seg, f64)> {
         h *= CORNER_GROWTH;
     }
     cuts.push(1.0);
-    let at = |t: f64| {
-        [
-            corner[0] + t * (other[0] - corner[0]),
-            corner[1] + t * (other[1] - corner[1]),
-        ]
-    };
     cuts.windows(2)
+        // Mean of (1 + β)·t^β over [t0, t1] = (t1^(1+β) − t0^(1+β)) / (t1 − t0).
         .map(|w| {
-            // Mean of (1 + β)·t^β over [t0, t1] = (t1^(1+β) − t0^(1+β)) / (t1 − t0).
-            let mean = (w[1].powf(1.0 + beta) - w[0].powf(1.0 + beta)) / (w[1] - w[0]);
-            // Oriented as the panel (its normal is the panel's).
-            let seg = if at_a {
-                Seg {
-                    a: at(w[0]),
-                    b: at(w[1]),
-                }
-            } else {
-                Seg {
-                    a: at(w[1]),
-                    b: at(w[0]),
-                }
-            };
-            debug_assert!(seg.len() <= l * (1.0 + 1e-12));
-            (seg, mean)
+            (
+                w[0],
+                w[1],
+                (w[1].powf(1.0 + beta) - w[0].powf(1.0 + beta)) / (w[1] - w[0]),
+            )
         })
         .collect()
 }
@@ -593,6 +604,12 @@ impl Src {
             let q2 = d2[0] * d2[0] + d2[1] * d2[1];
             return -0.25 * self.len * (q1 * q2).ln();
         }
+        self.potential_exact(c, self_panel)
+    }
+
+    /// [`Src::potential`] by the closed form at any distance.
+    #[inline]
+    fn potential_exact(&self, c: [f64; 2], self_panel: bool) -> f64 {
         let l = self.len;
         let d = [c[0] - self.a[0], c[1] - self.a[1]];
         let u = d[0] * self.t[0] + d[1] * self.t[1];
@@ -631,6 +648,12 @@ impl Src {
             let w = 0.5 * self.len;
             return [w * (d1[0] / q1 + d2[0] / q2), w * (d1[1] / q1 + d2[1] / q2)];
         }
+        self.field_exact(c)
+    }
+
+    /// [`Src::field`] by the closed form at any distance (not on the panel itself).
+    #[inline]
+    fn field_exact(&self, c: [f64; 2]) -> [f64; 2] {
         let l = self.len;
         let d = [c[0] - self.a[0], c[1] - self.a[1]];
         let u = d[0] * self.t[0] + d[1] * self.t[1];
@@ -650,20 +673,33 @@ impl Src {
     }
 }
 
-/// Three Gauss points of a corner panel's density for targets far from it: Gauss–Legendre in u = (r/L)^(1+β), where
-/// the density times dr is L·du (so the weights are plain), mapped back to r = L·u^(1/(1+β)).
-fn corner_points(seg: &Seg, at_a: bool, beta: f64) -> [([f64; 2], f64); 3] {
+/// Two points of a corner panel's density for targets far from it: the Gauss rule of the sub-panels' own staircase
+/// density (nodes the roots of its second orthogonal polynomial, from the moments m0…m3 on [0, 1]), so that it
+/// integrates exactly what the sub-panels integrate up to cubics, as the two-point rule of a flat panel does. Where
+/// a target crosses [`FAR`] the two then differ by what a flat panel's do (a rule of other moments, e.g. Gauss in
+/// (r/L)^(1+β), differed at first order there and made loss derivatives along receding walls jump).
+fn corner_points(seg: &Seg, shape: Shape) -> [([f64; 2], f64); 2] {
+    let Shape::Corner { at_a, beta } = shape else {
+        unreachable!("corner points of a flat panel")
+    };
     let (corner, other) = if at_a { (seg.a, seg.b) } else { (seg.b, seg.a) };
     let l = seg.len();
-    let g = 0.5 * (0.6f64).sqrt();
-    let p = 1.0 / (1.0 + beta);
-    [
-        (0.5 - g, 5.0 / 18.0),
-        (0.5, 8.0 / 18.0),
-        (0.5 + g, 5.0 / 18.0),
-    ]
-    .map(|(u, w)| {
-        let t = f64::powf(u, p);
+    let mut m = [0.0f64; 4];
+    for (t0, t1, mean) in corner_cuts(beta) {
+        for (k, mk) in m.iter_mut().enumerate() {
+            let e = (k + 1) as i32;
+            *mk += mean * (t1.powi(e) - t0.powi(e)) / e as f64;
+        }
+    }
+    // x² + a·x + b orthogonal to 1 and x under the staircase.
+    let det = m[1] * m[1] - m[0] * m[2];
+    let a = (m[0] * m[3] - m[1] * m[2]) / det;
+    let b = (m[2] * m[2] - m[1] * m[3]) / det;
+    let root = (0.25 * a * a - b).max(0.0).sqrt();
+    let (x1, x2) = (-0.5 * a - root, -0.5 * a + root);
+    let w1 = (m[1] - m[0] * x2) / (x1 - x2);
+    let w2 = m[0] - w1;
+    [(x1, w1), (x2, w2)].map(|(t, w)| {
         (
             [
                 corner[0] + t * (other[0] - corner[0]),
@@ -680,7 +716,7 @@ fn corner_points(seg: &Seg, at_a: bool, beta: f64) -> [([f64; 2], f64); 3] {
 pub struct CornerSrc {
     whole: Src,
     subs: Vec<(Src, f64)>,
-    points: [([f64; 2], f64); 3],
+    points: [([f64; 2], f64); 2],
 }
 
 impl CornerSrc {
@@ -694,9 +730,12 @@ impl CornerSrc {
                 .map(|(p, w)| -0.5 * w * ((c[0] - p[0]).powi(2) + (c[1] - p[1]).powi(2)).ln())
                 .sum();
         }
+        // Closed forms on every sub-panel, however far: their own two-point switch, crossed somewhere by any
+        // target near a corner as the geometry moves, made the loss probes' derivatives along receding walls jitter
+        // by 0.2 %.
         self.subs
             .iter()
-            .map(|(s, w)| w * s.potential(c, self_panel))
+            .map(|(s, w)| w * s.potential_exact(c, self_panel))
             .sum()
     }
 
@@ -716,7 +755,7 @@ impl CornerSrc {
             return f;
         }
         for (s, w) in &self.subs {
-            let g = s.field(c, false);
+            let g = s.field_exact(c);
             f[0] += w * g[0];
             f[1] += w * g[1];
         }
@@ -735,13 +774,13 @@ impl Source {
     pub fn new(s: &Seg, shape: Shape) -> Source {
         match shape {
             Shape::Flat => Source::Flat(Src::new(s)),
-            Shape::Corner { at_a, beta } => Source::Corner(CornerSrc {
+            Shape::Corner { .. } => Source::Corner(CornerSrc {
                 whole: Src::new(s),
                 subs: sub_panels(s, shape)
                     .iter()
                     .map(|(q, w)| (Src::new(q), *w))
                     .collect(),
-                points: corner_points(s, at_a, beta),
+                points: corner_points(s, shape),
             }),
         }
     }

@@ -13,7 +13,7 @@
 //! Computation by Moment Methods", 1968, §2.4). Piecewise-constant panels graded geometrically toward every
 //! junction, and at every conductor corner (or thin edge) one corner panel whose density carries the corner's own
 //! singularity r^(ν−1), ν found from the dielectric wedges around it ([`mesh::corner_exponent`]); it stands for the
-//! dozen ever smaller flat panels a corner needed before, so a masked pair has about 190 unknowns instead of 240
+//! dozen ever smaller flat panels a corner needed before, so a masked pair has about 180 unknowns instead of 240
 //! and a stripline a third of its former count ([`mesh`]); closed-form panel integrals of ln r and of its gradient
 //! ([`kernel`]); dense LU ([`lu`]). The vacuum problem is the conductor-only sub-block of the same matrix.
 //! The interaction matrices and vacuum capacitances of the last few meshes are kept (per thread): a solve that
@@ -30,13 +30,12 @@
 //! the effect is far below the accuracy target.
 //!
 //! Measured accuracy (tests in `tests.rs`, default options; η0 = µ0·c throughout): Cohn 1954 centred strip
-//! ≤ 0.008 %, Cohn 1955 coupled strips ≤ 0.031 %, Wen 1969 coplanar line ≤ 0.049 % on Z0 with εeff = (εr + 1)/2 to
+//! ≤ 0.016 %, Cohn 1955 coupled strips ≤ 0.037 %, Wen 1969 coplanar line ≤ 0.063 % on Z0 with εeff = (εr + 1)/2 to
 //! 1e-6, and every structure × cover case (microstrip bare/masked/embedded/etched, centred/offset/layered stripline
 //! with thick etched copper, edge-coupled microstrip and stripline pairs, broadside pair, grounded coplanar single
-//! and pair, plane-less coplanar) ≤ 0.037 % from the finite-volume solver at 0.01 % tolerance. Cost: 25–300 panels
-//! on the finer mesh; natively (release, shared 2-core machine) about 1.5 ms for an etched microstrip under mask and
-//! 4.2 ms for an etched edge-coupled pair under mask, the coarse mesh of the estimate not included
-//! (`benches/field_engines.rs`).
+//! and pair, plane-less coplanar) ≤ 0.034 % from the finite-volume solver at 0.01 % tolerance. Cost: 25–300 panels
+//! on the finer mesh; natively (release, shared 2-core machine) about 1.5–2.3 ms for an etched microstrip under mask
+//! and 3.8–5.6 ms for an etched edge-coupled pair under mask with both meshes (`benches/field_engines.rs`).
 
 pub mod kernel;
 pub mod lu;
@@ -62,6 +61,9 @@ use std::f64::consts::PI;
 /// grounded coplanar (0.08 % against an estimate of 0.02 %) and on the plane-less line's εeff (0.28 % against
 /// 0.23 %): both meshes share the grading near the thick copper's corners.
 pub const ESTIMATE_FLOOR: f64 = 5e-4;
+/// The coarse mesh's far growth along interfaces for a line without a plane (see [`solve`]).
+const PLANELESS_COARSE_FAR: f64 = 1.8;
+
 /// Safety factor on the two-mesh change of every mode's Z and εeff (see [`ESTIMATE_FLOOR`]).
 pub const ESTIMATE_FACTOR: f64 = 2.0;
 
@@ -85,14 +87,14 @@ impl Default for BemOptions {
         BemOptions {
             // Dielectric interfaces (mask, cover, layer boundaries) graded finely far out: an embedded pair on the
             // 12-layer fixture was 0.35 % low against the reference with 1.25 / 2.0 here, 0.05 % with 1.1 / 1.3.
-            // Corner panels (0.05 of the smallest feature) at conductor corners: see `mesh`.
+            // Corner panels (0.03 of the smallest feature) at conductor corners: see `mesh`.
             fine: MeshParams {
                 first: 1e-3,
-                growth: 1.5,
+                growth: 1.6,
                 growth_interface: 1.1,
                 growth_far: 1.3,
                 far: 5.0,
-                corner: 5e-2,
+                corner: 3e-2,
             },
             coarse: MeshParams {
                 first: 2e-3,
@@ -597,8 +599,20 @@ fn impedances(a: &Analysis) -> Vec<f64> {
 /// Solves `g` by the boundary-element method on two meshes; the result is the finer one's, with the relative change
 /// between them as the error estimate.
 pub fn solve(g: &Geometry, options: &BemOptions) -> Result<FieldResult> {
+    // Without a plane the field reaches the far wall (it falls off as a dipole's, not exponentially), and the
+    // lateral truncation the two meshes share is a larger part of the error: the coarse mesh grades the far
+    // interfaces more coarsely there, so that the estimate sees it (scikit-fem, thick plane-less line: εeff 0.17 %
+    // off, estimate 0.08 % with the common 1.6, 0.25 % with 1.8).
+    let coarse_params = if mesh::planes_of(g) == Planes::None {
+        MeshParams {
+            growth_far: options.coarse.growth_far.max(PLANELESS_COARSE_FAR),
+            ..options.coarse
+        }
+    } else {
+        options.coarse
+    };
     let coarse = if options.estimate {
-        Some(capacitances(g, options.coarse)?)
+        Some(capacitances(g, coarse_params)?)
     } else {
         None
     };
@@ -653,7 +667,7 @@ pub fn solve(g: &Geometry, options: &BemOptions) -> Result<FieldResult> {
         l_matrix: extract::inductance(&fine.c0).unwrap_or_default(),
         levels: coarse
             .iter()
-            .map(|c| level(c, &options.coarse))
+            .map(|c| level(c, &coarse_params))
             .chain([level(&fine, &options.fine)])
             .collect(),
         c_matrix: fine.c,
