@@ -258,6 +258,10 @@ def check_against_fem(name, engine, estimate_cap):
     assert dz <= bound, f"{name}: {dz:.3f} % > {bound:.3f} %"
     assert de <= bound, f"{name}: εeff {de:.3f} % > {bound:.3f} %"
     assert err_rs < estimate_cap and err_fem < 0.3, (err_rs, err_fem)
+    if engine == "field":
+        # The fast engine's accuracy target against an independent solve (the plane-less line's εeff was 0.17 %
+        # off while the substrate's faces were graded as coarsely as the copper).
+        assert dz <= 0.1 and de <= 0.1, f"{name}: Z {dz:.3f} %, εeff {de:.3f} % against the 0.1 % target"
 
 
 @pytest.mark.parametrize("name", list(CASES))
@@ -267,8 +271,8 @@ def test_field_solver_agrees_with_scikit_fem(name):
 
 @pytest.mark.parametrize("name", list(CASES))
 def test_fast_field_engine_agrees_with_scikit_fem(name):
-    """The boundary-element engine (the field figure of a rule) against the same solves; its estimate stays under
-    1.1 % (the weak case is the plane-less line's εeff, about 0.3 % off; docs/accuracy.md)."""
+    """The boundary-element engine (the field figure of a rule) against the same solves: within 0.1 % on Z and εeff,
+    and its estimate stays under 1.1 % (docs/accuracy.md)."""
     check_against_fem(name, "field", 1.1)
 
 

@@ -61,9 +61,6 @@ use std::f64::consts::PI;
 /// grounded coplanar (0.08 % against an estimate of 0.02 %) and on the plane-less line's εeff (0.28 % against
 /// 0.23 %): both meshes share the grading near the thick copper's corners.
 pub const ESTIMATE_FLOOR: f64 = 5e-4;
-/// The coarse mesh's far growth along interfaces for a line without a plane (see [`solve`]).
-const PLANELESS_COARSE_FAR: f64 = 1.8;
-
 /// Safety factor on the two-mesh change of every mode's Z and εeff (see [`ESTIMATE_FLOOR`]).
 pub const ESTIMATE_FACTOR: f64 = 2.0;
 
@@ -599,20 +596,8 @@ fn impedances(a: &Analysis) -> Vec<f64> {
 /// Solves `g` by the boundary-element method on two meshes; the result is the finer one's, with the relative change
 /// between them as the error estimate.
 pub fn solve(g: &Geometry, options: &BemOptions) -> Result<FieldResult> {
-    // Without a plane the field reaches the far wall (it falls off as a dipole's, not exponentially), and the
-    // lateral truncation the two meshes share is a larger part of the error: the coarse mesh grades the far
-    // interfaces more coarsely there, so that the estimate sees it (scikit-fem, thick plane-less line: εeff 0.17 %
-    // off, estimate 0.08 % with the common 1.6, 0.25 % with 1.8).
-    let coarse_params = if mesh::planes_of(g) == Planes::None {
-        MeshParams {
-            growth_far: options.coarse.growth_far.max(PLANELESS_COARSE_FAR),
-            ..options.coarse
-        }
-    } else {
-        options.coarse
-    };
     let coarse = if options.estimate {
-        Some(capacitances(g, coarse_params)?)
+        Some(capacitances(g, options.coarse)?)
     } else {
         None
     };
@@ -667,7 +652,7 @@ pub fn solve(g: &Geometry, options: &BemOptions) -> Result<FieldResult> {
         l_matrix: extract::inductance(&fine.c0).unwrap_or_default(),
         levels: coarse
             .iter()
-            .map(|c| level(c, &coarse_params))
+            .map(|c| level(c, &options.coarse))
             .chain([level(&fine, &options.fine)])
             .collect(),
         c_matrix: fine.c,
