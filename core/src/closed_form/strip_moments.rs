@@ -52,10 +52,7 @@ fn kernel_block(
     let half_w = 0.5 * si.w;
     let n = xj.len();
     for (k, &x) in xi.iter().enumerate() {
-        // The self kernel depends on |x − x′| only (sinh is odd, the rest even): fill the upper triangle and mirror
-        // it, which is bitwise the same as evaluating every entry.
-        let first = if same { k } else { 0 };
-        for (l, &xp) in xj.iter().enumerate().skip(first) {
+        for (l, &xp) in xj.iter().enumerate() {
             let d = scale * (x - xp);
             let value = if same {
                 // ln(sinh²Δ + sin²θ) − 2·ln|sinh Δ| + 2·ln|u − u′|; the −2·ln|u − u′| is integrated analytically.
@@ -74,8 +71,59 @@ fn kernel_block(
                 0.0
             };
             out[k * n + l] = value;
-            if same {
-                out[l * n + k] = value;
+        }
+    }
+}
+
+/// Σ_k Σ_l T_p(u_k)·K(k, l)·T_n(u_l) of a strip's self kernel into `out` (`n_basis` × `n_basis`, row p), by its
+/// mirror symmetry: the nodes come in pairs u, −u, T_n(−u) = (−1)ⁿ·T_n(u), and the self kernel depends on |x − x′|
+/// only, so K(m−1−k, m−1−l) = K(k, l). Entries with p + n odd vanish exactly, and the rest need the kernel's rows
+/// k < m/2 only, folded over l: a quarter of the products of the plain double sum, with the same value to rounding.
+fn self_block(
+    b: f64,
+    s: &Strip,
+    xs: &[f64],
+    cheb_flat: &[f64],
+    n_basis: usize,
+    kmat: &mut [f64],
+    out: &mut [f64],
+) {
+    let m = xs.len();
+    let pairs = m / 2;
+    // The rows k ≤ the middle node (when m is odd) of the kernel, each over every l.
+    let rows = m - pairs;
+    kernel_block(b, s, &xs[..rows], s, xs, true, &mut kmat[..rows * m]);
+    // half[k][n] = Σ_l K(k, l)·T_n(u_l), folded: (K(k, l) ± K(k, m−1−l))·T_n(u_l) over l < m/2, + for n even, − for
+    // n odd, plus the middle node of an odd m.
+    let mut half = vec![0.0; rows * n_basis];
+    for k in 0..rows {
+        let krow = &kmat[k * m..(k + 1) * m];
+        let hrow = &mut half[k * n_basis..(k + 1) * n_basis];
+        for l in 0..pairs {
+            let (a, c) = (krow[l], krow[m - 1 - l]);
+            let (sum, diff) = (a + c, a - c);
+            let crow = &cheb_flat[l * n_basis..(l + 1) * n_basis];
+            for (n, (h, &t)) in hrow.iter_mut().zip(crow).enumerate() {
+                *h += if n % 2 == 0 { sum } else { diff } * t;
+            }
+        }
+        if rows > pairs {
+            let crow = &cheb_flat[pairs * n_basis..(pairs + 1) * n_basis];
+            for (h, &t) in hrow.iter_mut().zip(crow) {
+                *h += krow[pairs] * t;
+            }
+        }
+    }
+    // out[p][n] = Σ_k T_p(u_k)·half[k][n] over all k = 2·Σ_{k < m/2} (p + n even) + the middle row of an odd m.
+    out.iter_mut().for_each(|v| *v = 0.0);
+    for k in 0..rows {
+        let factor = if k < pairs { 2.0 } else { 1.0 };
+        let hrow = &half[k * n_basis..(k + 1) * n_basis];
+        let crow = &cheb_flat[k * n_basis..(k + 1) * n_basis];
+        for (p, &tp) in crow.iter().enumerate() {
+            let orow = &mut out[p * n_basis..(p + 1) * n_basis];
+            for n in (p % 2..n_basis).step_by(2) {
+                orow[n] += factor * tp * hrow[n];
             }
         }
     }
@@ -170,25 +218,35 @@ fn capacitance_resolved(
                 continue;
             }
             let same = i == j;
-            kernel_block(b, si, &xs[i], sj, &xs[j], same, &mut kmat);
-            // half[k][n] = Σ_l w·K(k, l)·T_n(v_l); then A[m][n] = Σ_k w·T_m(u_k)·half[k][n].
-            half.iter_mut().for_each(|h| *h = 0.0);
-            for k in 0..m {
-                let hrow = &mut half[k * n_basis..(k + 1) * n_basis];
-                for (l, &kv) in kmat[k * m..(k + 1) * m].iter().enumerate() {
-                    let crow = &cheb_flat[l * n_basis..(l + 1) * n_basis];
-                    for (h, &c) in hrow.iter_mut().zip(crow) {
-                        *h += kv * c;
+            if same {
+                self_block(b, si, &xs[i], &cheb_flat, n_basis, &mut kmat, &mut half);
+                for (mm, row) in half[..n_basis * n_basis].chunks_exact(n_basis).enumerate() {
+                    let arow = &mut a[i * n_basis + mm][j * n_basis..(j + 1) * n_basis];
+                    for (av, &hv) in arow.iter_mut().zip(row) {
+                        *av += weight * weight * hv;
                     }
                 }
-            }
-            for k in 0..m {
-                let hrow = &half[k * n_basis..(k + 1) * n_basis];
-                let crow = &cheb_flat[k * n_basis..(k + 1) * n_basis];
-                for (mm, &cm) in crow.iter().enumerate() {
-                    let arow = &mut a[i * n_basis + mm][j * n_basis..(j + 1) * n_basis];
-                    for (av, &hv) in arow.iter_mut().zip(hrow) {
-                        *av += weight * weight * cm * hv;
+            } else {
+                kernel_block(b, si, &xs[i], sj, &xs[j], false, &mut kmat);
+                // half[k][n] = Σ_l w·K(k, l)·T_n(v_l); then A[m][n] = Σ_k w·T_m(u_k)·half[k][n].
+                half.iter_mut().for_each(|h| *h = 0.0);
+                for k in 0..m {
+                    let hrow = &mut half[k * n_basis..(k + 1) * n_basis];
+                    for (l, &kv) in kmat[k * m..(k + 1) * m].iter().enumerate() {
+                        let crow = &cheb_flat[l * n_basis..(l + 1) * n_basis];
+                        for (h, &c) in hrow.iter_mut().zip(crow) {
+                            *h += kv * c;
+                        }
+                    }
+                }
+                for k in 0..m {
+                    let hrow = &half[k * n_basis..(k + 1) * n_basis];
+                    let crow = &cheb_flat[k * n_basis..(k + 1) * n_basis];
+                    for (mm, &cm) in crow.iter().enumerate() {
+                        let arow = &mut a[i * n_basis + mm][j * n_basis..(j + 1) * n_basis];
+                        for (av, &hv) in arow.iter_mut().zip(hrow) {
+                            *av += weight * weight * cm * hv;
+                        }
                     }
                 }
             }
@@ -349,6 +407,43 @@ mod tests {
             for i in 0..strips.len() {
                 for j in 0..strips.len() {
                     assert!(rel(a[i][j], c[i][j]) < 1e-9, "{strips:?}: {a:?} vs {c:?}");
+                }
+            }
+        }
+    }
+
+    #[test]
+    fn the_folded_self_block_is_the_plain_double_sum() {
+        // Reference: the unfolded Σ_k Σ_l T_p(u_k)·K(k, l)·T_n(u_l) over every node, for an even and an odd node
+        // count (the odd one has a middle node at u = 0).
+        let s = Strip {
+            x: 0.2,
+            w: 0.7,
+            y: 0.3,
+        };
+        let nb = 6;
+        for m in [64usize, 65] {
+            let phi = |k: usize| (2 * k + 1) as f64 * PI / (2 * m) as f64;
+            let xs: Vec<f64> = (0..m).map(|k| s.x + 0.5 * s.w * phi(k).cos()).collect();
+            let cheb: Vec<f64> = (0..m)
+                .flat_map(|k| (0..nb).map(move |n| (n as f64 * phi(k)).cos()))
+                .collect();
+            let mut full = vec![0.0; m * m];
+            kernel_block(1.0, &s, &xs, &s, &xs, true, &mut full);
+            let mut kmat = vec![0.0; m * m];
+            let mut folded = vec![0.0; nb * nb];
+            self_block(1.0, &s, &xs, &cheb, nb, &mut kmat, &mut folded);
+            for p in 0..nb {
+                for n in 0..nb {
+                    let plain: f64 = (0..m)
+                        .flat_map(|k| (0..m).map(move |l| (k, l)))
+                        .map(|(k, l)| cheb[k * nb + p] * full[k * m + l] * cheb[l * nb + n])
+                        .sum();
+                    let got = folded[p * nb + n];
+                    assert!(
+                        (got - plain).abs() < 1e-11 * (1.0 + plain.abs()),
+                        "m {m} ({p}, {n}): {got} vs {plain}"
+                    );
                 }
             }
         }
