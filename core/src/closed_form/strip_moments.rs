@@ -31,8 +31,56 @@ pub const N_BASIS: usize = 16;
 /// another strip); it bounds the work of one solve to a few million kernel evaluations.
 pub const MAX_NODES: usize = 800;
 
-/// The smooth part of the log kernel between strips `si` and `sj` at the node abscissae `xi`, `xj` (m), into
-/// `out` (row-major, `xi.len()` × `xj.len()`).
+/// The smooth part of the log kernel between strips `si` and `sj` (the same strip when `same`), per pair of
+/// abscissae.
+struct Kernel {
+    same: bool,
+    sp: f64,
+    sm: f64,
+    scale: f64,
+    ln_alpha: f64,
+    half_w: f64,
+}
+
+impl Kernel {
+    fn new(b: f64, si: &Strip, sj: &Strip, same: bool) -> Kernel {
+        let ti = PI * si.y / b;
+        let tj = PI * sj.y / b;
+        // The plane images enter only through these two constants per pair of strips.
+        Kernel {
+            same,
+            sp: (0.5 * (ti + tj)).sin().powi(2),
+            sm: (0.5 * (ti - tj)).sin().powi(2),
+            scale: PI / (2.0 * b),
+            ln_alpha: (PI * si.w / (4.0 * b)).ln(),
+            half_w: 0.5 * si.w,
+        }
+    }
+
+    /// The kernel at abscissae `x`, `xp` (m); even in x − x′.
+    fn at(&self, x: f64, xp: f64) -> f64 {
+        let d = self.scale * (x - xp);
+        if self.same {
+            // ln(sinh²Δ + sin²θ) − 2·ln|sinh Δ| + 2·ln|u − u′|; the −2·ln|u − u′| is integrated analytically.
+            if d.abs() < 1.0 {
+                let sh = d.sinh();
+                let sinhc = if d == 0.0 { 1.0 } else { sh / d };
+                (sh * sh + self.sp).ln() - 2.0 * sinhc.ln() - 2.0 * self.ln_alpha
+            } else {
+                let du = (x - xp).abs() / self.half_w;
+                (self.sp / d.sinh().powi(2)).ln_1p() + 2.0 * du.ln()
+            }
+        } else if d.abs() < 300.0 {
+            let sh = d.sinh().powi(2);
+            ((self.sp - self.sm) / (sh + self.sm)).ln_1p()
+        } else {
+            0.0
+        }
+    }
+}
+
+/// The kernel between strips `si` and `sj` at the node abscissae `xi`, `xj` (m), into `out` (row-major,
+/// `xi.len()` × `xj.len()`).
 fn kernel_block(
     b: f64,
     si: &Strip,
@@ -42,46 +90,26 @@ fn kernel_block(
     same: bool,
     out: &mut [f64],
 ) {
-    let ti = PI * si.y / b;
-    let tj = PI * sj.y / b;
-    // The plane images enter only through these two constants per pair of strips.
-    let sp = (0.5 * (ti + tj)).sin().powi(2);
-    let sm = (0.5 * (ti - tj)).sin().powi(2);
-    let scale = PI / (2.0 * b);
-    let ln_alpha = (PI * si.w / (4.0 * b)).ln();
-    let half_w = 0.5 * si.w;
+    let kernel = Kernel::new(b, si, sj, same);
     let n = xj.len();
     for (k, &x) in xi.iter().enumerate() {
         for (l, &xp) in xj.iter().enumerate() {
-            let d = scale * (x - xp);
-            let value = if same {
-                // ln(sinh²Δ + sin²θ) − 2·ln|sinh Δ| + 2·ln|u − u′|; the −2·ln|u − u′| is integrated analytically.
-                if d.abs() < 1.0 {
-                    let sh = d.sinh();
-                    let sinhc = if d == 0.0 { 1.0 } else { sh / d };
-                    (sh * sh + sp).ln() - 2.0 * sinhc.ln() - 2.0 * ln_alpha
-                } else {
-                    let du = (x - xp).abs() / half_w;
-                    (sp / d.sinh().powi(2)).ln_1p() + 2.0 * du.ln()
-                }
-            } else if d.abs() < 300.0 {
-                let sh = d.sinh().powi(2);
-                ((sp - sm) / (sh + sm)).ln_1p()
-            } else {
-                0.0
-            };
-            out[k * n + l] = value;
+            out[k * n + l] = kernel.at(x, xp);
         }
     }
 }
 
-/// Σ_k Σ_l T_p(u_k)·K(k, l)·T_n(u_l) of a strip's self kernel into `out` (`n_basis` × `n_basis`, row p), by its
-/// mirror symmetry: the nodes come in pairs u, −u, T_n(−u) = (−1)ⁿ·T_n(u), and the self kernel depends on |x − x′|
-/// only, so K(m−1−k, m−1−l) = K(k, l). Entries with p + n odd vanish exactly, and the rest need the kernel's rows
-/// k < m/2 only, folded over l: a quarter of the products of the plain double sum, with the same value to rounding.
-fn self_block(
+/// Σ_k Σ_l T_p(u_k)·K(k, l)·T_n(u_l) of the kernel between two strips of the same centre and width (a strip with
+/// itself, or the two strips of a broadside pair) into `out` (`n_basis` × `n_basis`, row p), by their mirror
+/// symmetry: the nodes come in pairs u, −u, T_n(−u) = (−1)ⁿ·T_n(u), and the kernel depends on |x − x′| only, so
+/// K(m−1−k, m−1−l) = K(k, l). Entries with p + n odd vanish exactly, and the rest need the kernel's rows k < m/2
+/// only, folded over l: a quarter of the products of the plain double sum, with the same value to rounding.
+#[allow(clippy::too_many_arguments)]
+fn mirror_block(
     b: f64,
     s: &Strip,
+    t: &Strip,
+    same: bool,
     xs: &[f64],
     cheb_flat: &[f64],
     n_basis: usize,
@@ -92,7 +120,25 @@ fn self_block(
     let pairs = m / 2;
     // The rows k ≤ the middle node (when m is odd) of the kernel, each over every l.
     let rows = m - pairs;
-    kernel_block(b, s, &xs[..rows], s, xs, true, &mut kmat[..rows * m]);
+    // The kernel's rows k < `rows`, each over every l. It is symmetric, K(k, l) = K(l, k), on the left half
+    // (l < `rows`), and K(k, m−1−l) = K(l, m−1−k) on the right (both k, l < m/2; u_(m−1−l) = −u_l): each half is
+    // evaluated on and above its diagonal and mirrored, a quarter of the m² kernel values in all.
+    let kernel = Kernel::new(b, s, t, same);
+    for k in 0..rows {
+        for l in k..rows {
+            let v = kernel.at(xs[k], xs[l]);
+            kmat[k * m + l] = v;
+            kmat[l * m + k] = v;
+        }
+        let from = if k < pairs { k } else { 0 };
+        for l in from..pairs {
+            let v = kernel.at(xs[k], xs[m - 1 - l]);
+            kmat[k * m + m - 1 - l] = v;
+            if k < pairs {
+                kmat[l * m + m - 1 - k] = v;
+            }
+        }
+    }
     // half[k][n] = Σ_l K(k, l)·T_n(u_l), folded: (K(k, l) ± K(k, m−1−l))·T_n(u_l) over l < m/2, + for n even, − for
     // n odd, plus the middle node of an odd m.
     let mut half = vec![0.0; rows * n_basis];
@@ -218,8 +264,10 @@ fn capacitance_resolved(
                 continue;
             }
             let same = i == j;
-            if same {
-                self_block(b, si, &xs[i], &cheb_flat, n_basis, &mut kmat, &mut half);
+            if same || (si.x == sj.x && si.w == sj.w) {
+                mirror_block(
+                    b, si, sj, same, &xs[i], &cheb_flat, n_basis, &mut kmat, &mut half,
+                );
                 for (mm, row) in half[..n_basis * n_basis].chunks_exact(n_basis).enumerate() {
                     let arow = &mut a[i * n_basis + mm][j * n_basis..(j + 1) * n_basis];
                     for (av, &hv) in arow.iter_mut().zip(row) {
@@ -413,26 +461,32 @@ mod tests {
     }
 
     #[test]
-    fn the_folded_self_block_is_the_plain_double_sum() {
+    fn a_folded_mirror_block_is_the_plain_double_sum() {
         // Reference: the unfolded Σ_k Σ_l T_p(u_k)·K(k, l)·T_n(u_l) over every node, for an even and an odd node
-        // count (the odd one has a middle node at u = 0).
+        // count (the odd one has a middle node at u = 0), for a strip with itself and with its broadside partner.
         let s = Strip {
             x: 0.2,
             w: 0.7,
             y: 0.3,
         };
+        let above = Strip { y: 0.55, ..s };
         let nb = 6;
-        for m in [64usize, 65] {
+        for (m, t, same) in [
+            (64usize, s, true),
+            (65, s, true),
+            (64, above, false),
+            (65, above, false),
+        ] {
             let phi = |k: usize| (2 * k + 1) as f64 * PI / (2 * m) as f64;
             let xs: Vec<f64> = (0..m).map(|k| s.x + 0.5 * s.w * phi(k).cos()).collect();
             let cheb: Vec<f64> = (0..m)
                 .flat_map(|k| (0..nb).map(move |n| (n as f64 * phi(k)).cos()))
                 .collect();
             let mut full = vec![0.0; m * m];
-            kernel_block(1.0, &s, &xs, &s, &xs, true, &mut full);
+            kernel_block(1.0, &s, &xs, &t, &xs, same, &mut full);
             let mut kmat = vec![0.0; m * m];
             let mut folded = vec![0.0; nb * nb];
-            self_block(1.0, &s, &xs, &cheb, nb, &mut kmat, &mut folded);
+            mirror_block(1.0, &s, &t, same, &xs, &cheb, nb, &mut kmat, &mut folded);
             for p in 0..nb {
                 for n in 0..nb {
                     let plain: f64 = (0..m)
@@ -442,7 +496,7 @@ mod tests {
                     let got = folded[p * nb + n];
                     assert!(
                         (got - plain).abs() < 1e-11 * (1.0 + plain.abs()),
-                        "m {m} ({p}, {n}): {got} vs {plain}"
+                        "m {m}, same {same} ({p}, {n}): {got} vs {plain}"
                     );
                 }
             }
