@@ -576,6 +576,10 @@ mod tests {
         #[test]
         fn edge_pair_modes_bracket_the_single_line(w in 1e-5f64..5e-4, s in 2e-5f64..5e-4,
                                                   h1 in 5e-5f64..5e-4, h2 in 5e-5f64..5e-4, t in 0.0f64..3e-5) {
+            // Inside the thickness corrections' range: a trace thicker than it is wide is warned as rough, and there
+            // the pair's and the single line's corrections disagree (w 10 µm, t 30 µm, s 363 µm, h 50 / 451 µm: Zodd
+            // 0.44 % above the single line).
+            prop_assume!(t <= w);
             let p = EdgeCoupledStripline { w, s, h_below: h1, h_above: h2, t, er: 4.0 }.analyze().unwrap();
             let single = crate::closed_form::stripline::Stripline { w, h_below: h1, h_above: h2, t, er: 4.0 }.analyze().unwrap().z0;
             prop_assert!(p.z_odd > 0.0 && p.z_odd.is_finite());

@@ -168,15 +168,19 @@ fn wen_geometry(w: f64, gap: f64, er: f64) -> Geometry {
     }
 }
 
-fn microstrip(h: f64, t: f64, er: f64, cover: Cover) -> CrossSection {
+fn section(medium: Medium, t: f64) -> CrossSection {
     CrossSection {
         loss: Default::default(),
         layering: None,
-        medium: Medium::Microstrip { h, er, cover },
+        medium,
         t,
         references: vec![],
         warnings: vec![],
     }
+}
+
+fn microstrip(h: f64, t: f64, er: f64, cover: Cover) -> CrossSection {
+    section(Medium::Microstrip { h, er, cover }, t)
 }
 
 fn mask() -> Cover {
@@ -192,40 +196,25 @@ fn cases() -> Vec<(&'static str, Geometry)> {
     let ms = |cover| microstrip(170e-6, 35e-6, 4.2, cover);
     let d1 = dims(300e-6, None, None);
     let pair = dims(150e-6, Some(150e-6), None);
-    let offset = CrossSection {
-        loss: Default::default(),
-        layering: None,
-        medium: Medium::Stripline {
+    let offset = section(
+        Medium::Stripline {
             h_below: 150e-6,
             h_above: 300e-6,
             er: 3.8,
             dual: false,
         },
-        t: 35e-6,
-        references: vec![],
-        warnings: vec![],
-    };
-    let broadside = CrossSection {
-        loss: Default::default(),
-        layering: None,
-        medium: Medium::Broadside {
+        35e-6,
+    );
+    let broadside = section(
+        Medium::Broadside {
             h_above: 200e-6,
             separation: 150e-6,
             h_below: 200e-6,
             er: 4.0,
         },
-        t: 18e-6,
-        references: vec![],
-        warnings: vec![],
-    };
-    let noplane = CrossSection {
-        loss: Default::default(),
-        layering: None,
-        medium: Medium::NoPlane { h: 800e-6, er: 4.4 },
-        t: 35e-6,
-        references: vec![],
-        warnings: vec![],
-    };
+        18e-6,
+    );
+    let noplane = section(Medium::NoPlane { h: 800e-6, er: 4.4 }, 35e-6);
     let layered = LayerStack {
         below: vec![Slab { h: 100e-6, er: 4.3 }, Slab { h: 80e-6, er: 3.5 }],
         above: vec![Slab { h: 120e-6, er: 3.3 }, Slab { h: 100e-6, er: 4.3 }],
@@ -442,14 +431,7 @@ fn estimate_covers_the_error_against_a_finer_mesh() {
     };
     // The thick plane-less line of the scikit-fem checks (`tests/python/test_field.py`): a thinner substrate than
     // `cases()`'s, so more of its field crosses the substrate's lower face.
-    let thin_noplane = CrossSection {
-        loss: Default::default(),
-        layering: None,
-        medium: Medium::NoPlane { h: 200e-6, er: 4.0 },
-        t: 35e-6,
-        references: vec![],
-        warnings: vec![],
-    };
+    let thin_noplane = section(Medium::NoPlane { h: 200e-6, er: 4.0 }, 35e-6);
     let thin = (
         "plane-less coplanar on a thin substrate",
         build(
