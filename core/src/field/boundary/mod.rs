@@ -33,9 +33,9 @@
 //! ≤ 0.016 %, Cohn 1955 coupled strips ≤ 0.037 %, Wen 1969 coplanar line ≤ 0.063 % on Z0 with εeff = (εr + 1)/2 to
 //! 1e-6, and every structure × cover case (microstrip bare/masked/embedded/etched, centred/offset/layered stripline
 //! with thick etched copper, edge-coupled microstrip and stripline pairs, broadside pair, grounded coplanar single
-//! and pair, plane-less coplanar) ≤ 0.034 % from the finite-volume solver at 0.01 % tolerance. Cost: 25–300 panels
-//! on the finer mesh; natively (release, shared 2-core machine) about 1.5–2.3 ms for an etched microstrip under mask
-//! and 3.8–5.6 ms for an etched edge-coupled pair under mask with both meshes (`benches/field_engines.rs`).
+//! and pair, plane-less coplanar) ≤ 0.036 % from the finite-volume solver at 0.01 % tolerance. Cost: 25–300 panels
+//! on the finer mesh; natively (release, quiet 2-core machine) about 1.6 ms for an etched microstrip under mask and
+//! 3.6 ms for an etched edge-coupled pair under mask with both meshes (`benches/field_engines.rs`).
 
 pub mod kernel;
 pub mod lu;
