@@ -234,10 +234,7 @@ mod tests {
             max_nodes: 4_000_000,
             ..FieldOptions::default()
         };
-        let figures = |c: &RuleCheck| match &c.field.analysis {
-            section::Analysis::Single(s) => vec![s.z0, s.eps_eff],
-            section::Analysis::Pair(p) => vec![p.z_odd, p.z_even, p.eps_eff_odd, p.eps_eff_even],
-        };
+        let figures = |c: &RuleCheck| boundary::impedances(&c.field.analysis);
         for p in [fixture, crate::design::demo::project()] {
             for rule in &p.rules {
                 let fast = check_rule_fast(&p, rule, &BemOptions::default()).unwrap();

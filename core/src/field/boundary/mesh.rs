@@ -16,9 +16,10 @@
 //! instead ([`Shape::Corner`], `MeshParams::corner` long), its density r^(ν−1) with ν from the wedges of dielectric
 //! around the corner ([`corner_exponent`]): against a mesh graded from 1e-5 on the 21 rules of the demo and the
 //! 12-layer fixture, a 0.03 corner panel with growth 1.6 is within 0.045 % on every mode's Z (0.10 % on εeff, a
-//! masked grounded coplanar line), as the flat grading from 1e-3 was, with 31 % fewer panels. (Growth 1.5 with a 0.05 corner panel was within 0.038 %, but growth 1.5 moves Z in steps of
-//! about 2e-8 as walls recede by nanometres, with or without corner panels, which the loss probes' derivatives
-//! along receding walls turned into 0.2–2 % errors; 1.6 is smooth.) An interface row's jump term reads the corner density at its midpoint
+//! masked grounded coplanar line), as the flat grading from 1e-3 was, with 31 % fewer panels. (Growth 1.5 with a
+//! 0.05 corner panel was within 0.038 %, but growth 1.5 moves Z in steps of about 2e-8 as walls recede by
+//! nanometres, with or without corner panels, which the loss probes' derivatives along receding walls turned into
+//! 0.2–2 % errors; 1.6 is smooth.) An interface row's jump term reads the corner density at its midpoint
 //! ([`Shape::at_middle`]); with the mean there instead, the bare bottom-layer rules were 0.2 % off.
 
 pub use super::kernel::Shape;

@@ -586,7 +586,7 @@ fn level(g: &Geometry, params: MeshParams, with_dielectrics: bool) -> Result<Bem
 
 /// Impedances of an analysis (Z0, or Zodd and Zeven), for the error estimate.
 /// The figures the error estimate watches: each mode's impedance and effective Dk.
-fn impedances(a: &Analysis) -> Vec<f64> {
+pub(crate) fn impedances(a: &Analysis) -> Vec<f64> {
     match a {
         Analysis::Single(s) => vec![s.z0, s.eps_eff],
         Analysis::Pair(p) => vec![p.z_odd, p.z_even, p.eps_eff_odd, p.eps_eff_even],
