@@ -188,9 +188,10 @@ pub struct ModeFill {
     pub dielectric_share: f64,
 }
 
-/// Relative step of the Dk scaling that gives each mode's dielectric share (a forward difference from the nominal
-/// on one mesh: its truncation error is about ½·d²ln C/d(ln λ)²·step, some 1e-5, its rounding 1e-13 / this).
-const SHARE_STEP: f64 = 1e-4;
+/// Step along the exact dC/dλ (every Dk scaled by λ) that reads each mode's dielectric share off the mode
+/// formulas by a central difference of C ± step·dC/dλ: truncation ~step²/3 (3e-7), and the last-bit differences of
+/// two platforms' solves grow only 1/(2·step) = 500-fold (a browser's Touchstone equals the CLI's to 1e-9).
+const SHARE_STEP: f64 = 1e-3;
 
 fn mode_list(a: &Analysis) -> Vec<(f64, f64)> {
     match a {
@@ -244,11 +245,10 @@ impl Engine {
     }
 
     /// Field engines: each mode's Z, εeff and the share of its energy in the dielectrics, `None` for the closed
-    /// forms (whose loss uses the filling factor of their εeff). The share is a forward difference of ln εeff over
-    /// ln λ between the stack's Dk and every Dk scaled by 1 + [`SHARE_STEP`], on one mesh: the first of the two is
-    /// the solve the engine has just made at these dimensions and keeps, so this costs one factorisation per
-    /// symmetry. Z and εeff are `nominal`'s, the engine's own answer at these dimensions when the caller has it,
-    /// else that first solve's.
+    /// forms (whose loss uses the filling factor of their εeff). The share is d ln εeff / d ln λ with every Dk
+    /// scaled by λ, from the boundary-element solve's adjoint derivative dC/dλ ([`boundary::BemLevel::dc_dscale`])
+    /// on the solve the engine has just made at these dimensions and keeps: no further solve. Z and εeff are
+    /// `nominal`'s, the engine's own answer at these dimensions when the caller has it, else that solve's.
     pub fn mode_fills(
         &self,
         cs: &CrossSection,
@@ -264,26 +264,32 @@ impl Engine {
             field: "geometry".into(),
             reason: reason.into(),
         };
-        let solve = |factor: f64| -> Result<(Vec<(f64, f64)>, usize)> {
-            let level = boundary::capacitances(&g.with_dielectrics_scaled(factor), options.fine)?;
-            let a = field::extract::analysis(&level.c, &level.c0)
+        // The solve the engine has just made at these dimensions (kept), with dC/dλ from its adjoint.
+        let level = boundary::capacitances(&g, options.fine)?;
+        let modes = |c: &[Vec<f64>]| -> Result<Vec<(f64, f64)>> {
+            let a = field::extract::analysis(c, &level.c0)
                 .ok_or_else(|| bad("the field solve gave a non-positive capacitance"))?;
-            Ok((mode_list(&a), level.panels))
+            Ok(mode_list(&a))
         };
-        let (here, here_panels) = solve(1.0)?;
-        let (up, up_panels) = solve(1.0 + SHARE_STEP)?;
-        if up_panels != here_panels {
-            return Err(bad(
-                "the dielectric share could not be found (the mesh changed with the Dk)",
-            ));
-        }
+        let here = modes(&level.c)?;
+        // C moves along dC/dλ: each mode's ln εeff then moves by its share times the step (C0 has no Dk in it).
+        let along = |step: f64| -> Result<Vec<(f64, f64)>> {
+            let c: Vec<Vec<f64>> = level
+                .c
+                .iter()
+                .zip(&level.dc_dscale)
+                .map(|(row, drow)| row.iter().zip(drow).map(|(c, d)| c + step * d).collect())
+                .collect();
+            modes(&c)
+        };
+        let (up, down) = (along(SHARE_STEP)?, along(-SHARE_STEP)?);
         let given = nominal.map(mode_list);
-        let span = (1.0 + SHARE_STEP).ln();
         let fills = up
             .iter()
+            .zip(&down)
             .zip(&here)
             .enumerate()
-            .map(|(i, (&(_, e_up), &(z_here, e_here)))| {
+            .map(|(i, ((&(_, e_up), &(_, e_down)), &(z_here, e_here)))| {
                 let (z0, eps_eff) = given
                     .as_ref()
                     .and_then(|g| g.get(i).copied())
@@ -292,7 +298,7 @@ impl Engine {
                     z0,
                     eps_eff,
                     // C0 does not depend on the Dk, so C moves as εeff does.
-                    dielectric_share: ((e_up / e_here).ln() / span).clamp(0.0, 1.0),
+                    dielectric_share: ((e_up / e_down).ln() / (2.0 * SHARE_STEP)).clamp(0.0, 1.0),
                 }
             })
             .collect::<Vec<_>>();

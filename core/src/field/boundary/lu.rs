@@ -117,6 +117,33 @@ impl Lu {
         }
         x
     }
+
+    /// Solves Aᵀ·y = w with the same factors (the adjoint system of a sensitivity): Uᵀ·z = w forward, Lᵀ·u = z
+    /// backward, then y = Pᵀ·u.
+    pub fn solve_transpose(&self, w: &[f64]) -> Vec<f64> {
+        let n = self.n;
+        let mut z = w.to_vec();
+        for i in 0..n {
+            let zi = z[i] / self.a[i * n + i];
+            z[i] = zi;
+            let row = &self.a[i * n + i + 1..(i + 1) * n];
+            for (zj, &u) in z[i + 1..].iter_mut().zip(row) {
+                *zj -= u * zi;
+            }
+        }
+        for i in (0..n).rev() {
+            let ui = z[i];
+            let row = &self.a[i * n..i * n + i];
+            for (zj, &l) in z[..i].iter_mut().zip(row) {
+                *zj -= l * ui;
+            }
+        }
+        let mut y = vec![0.0; n];
+        for (i, &p) in self.perm.iter().enumerate() {
+            y[p] = z[i];
+        }
+        y
+    }
 }
 
 #[cfg(test)]
@@ -158,6 +185,33 @@ mod tests {
             for (g, w) in x.iter().zip(&x_true) {
                 assert!((g - w).abs() < 1e-9 * w, "n {n}: {g} vs {w}");
             }
+        }
+    }
+
+    #[test]
+    fn transposed_solve_inverts_the_transpose() {
+        // Aᵀ·y = w on a matrix that pivots (non-identity permutation): check the residual against Aᵀ directly.
+        let n = 9;
+        let a: Vec<f64> = (0..n * n)
+            .map(|k| {
+                let (i, j) = (k / n, k % n);
+                ((i * 7 + j * 3) % 11) as f64 - 5.0 + if i == (j + 4) % n { 9.0 } else { 0.0 }
+            })
+            .collect();
+        let w: Vec<f64> = (0..n).map(|i| 1.0 + (i * i) as f64).collect();
+        let lu = Lu::new(n, a.clone()).unwrap();
+        assert!(
+            lu.perm.iter().enumerate().any(|(i, &p)| i != p),
+            "the case must pivot"
+        );
+        let y = lu.solve_transpose(&w);
+        for j in 0..n {
+            let back: f64 = (0..n).map(|i| a[i * n + j] * y[i]).sum();
+            assert!(
+                (back - w[j]).abs() < 1e-10 * w[j].abs().max(1.0),
+                "row {j}: {back} vs {}",
+                w[j]
+            );
         }
     }
 

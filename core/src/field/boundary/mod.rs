@@ -17,8 +17,9 @@
 //! and a stripline a third of its former count ([`mesh`]); closed-form panel integrals of ln r and of its gradient
 //! ([`kernel`]); dense LU ([`lu`]). The vacuum problem is the conductor-only sub-block of the same matrix.
 //! The interaction matrices and vacuum capacitances of the last few meshes are kept (per thread): a solve that
-//! changes only a Dk (the spread's Dk limits, the loss probe's dielectric share) refactorises and nothing else, and
-//! one repeated with the same Dk (a synthesis's last iterate, then the final solve) costs nothing.
+//! changes only a Dk (the spread's Dk limits) refactorises and nothing else, and one repeated with the same Dk (a
+//! synthesis's last iterate, then the final solve) costs nothing. Each solve with dielectrics also gives dC/dλ with
+//! every Dk scaled by λ, by its adjoint on the same factors (the loss model's dielectric share).
 //!
 //! Error estimate: the solve runs on two meshes (the finer one has about 1.4× the panels); the estimate is twice the
 //! largest relative change of each mode's Z and εeff between them plus [`ESTIMATE_FLOOR`] (0.05 %) for what both
@@ -113,6 +114,9 @@ pub struct BemLevel {
     pub panels: usize,
     pub c: Vec<Vec<f64>>,
     pub c0: Vec<Vec<f64>>,
+    /// dC/dλ with every Dk but air's scaled by λ, at λ = 1, on the same panels (F/m; zeros for a vacuum-only
+    /// solve): the share of each mode's energy in the dielectrics without a second solve.
+    pub dc_dscale: Vec<Vec<f64>>,
 }
 
 /// Matrices of the direct and the mirror-image (x → −x) interactions: potential rows for conductor panels, normal
@@ -255,15 +259,39 @@ fn invalid(reason: &str) -> Error {
     }
 }
 
-/// Half-domain capacitance matrix (F/m) of one symmetry (`sign` +1: even/magnetic wall at x = 0, −1: odd), with
-/// dielectrics (`vacuum` false) or without.
+/// One symmetry's half-domain capacitance matrix (F/m) and its derivative dC/dλ when every Dk but air's is scaled
+/// by λ, at λ = 1 (zero for the vacuum solve).
+#[derive(Debug, Clone)]
+struct Half {
+    c: Vec<Vec<f64>>,
+    dc: Vec<Vec<f64>>,
+}
+
+/// d(λ·ε)/dλ of a permittivity under the dielectric scaling: ε for a dielectric, 0 for air (which stays 1, as in
+/// [`Geometry::with_dielectrics_scaled`]).
+fn scaled(eps: f64) -> f64 {
+    if eps != 1.0 {
+        eps
+    } else {
+        0.0
+    }
+}
+
+/// Half-domain capacitances of one symmetry (`sign` +1: even/magnetic wall at x = 0, −1: odd), with dielectrics
+/// (`vacuum` false) or without.
+///
+/// With dielectrics it also gives dC/dλ (every Dk scaled by λ) by the adjoint-variable method (Nikolova, Bandler &
+/// Bakr, "Adjoint techniques for sensitivity analysis in high-frequency structure CAD", IEEE T-MTT 52(1), 2004):
+/// C = wᵀq with A·q = b, so dC/dλ = (dw/dλ)ᵀq − yᵀ(dA/dλ)q with Aᵀy = w. The scaling moves only the interface
+/// rows' jump coefficients (dA is diagonal) and the free-charge weights, so it costs one transposed solve per signal
+/// on the factors already made: the loss model's dielectric share needs no second solve.
 fn half_capacitance(
     mesh: &Mesh,
     ints: &Interactions,
     n_signals: usize,
     sign: f64,
     vacuum: bool,
-) -> Result<Vec<Vec<f64>>> {
+) -> Result<Half> {
     let n = mesh.panels.len();
     let active: Vec<usize> = (0..n)
         .filter(|&i| !vacuum || matches!(mesh.panels[i].kind, Kind::Conductor { .. }))
@@ -273,6 +301,8 @@ fn half_capacitance(
     let floating = mesh.planes == Planes::None && sign > 0.0;
     let m = active.len() + usize::from(floating);
     let mut a = vec![0.0; m * m];
+    // dA/dλ: the diagonal of the interface rows.
+    let mut da = vec![0.0; m];
     for (r, &i) in active.iter().enumerate() {
         for (col, &j) in active.iter().enumerate() {
             a[r * m + col] = ints.direct[i * n + j] + sign * ints.mirror[i * n + j];
@@ -284,8 +314,11 @@ fn half_capacitance(
             } => {
                 // The jump of the normal field is the density at the collocation point (the midpoint), which on a
                 // corner panel is its shape's value there times the unknown (the mean).
-                a[r * m + r] += PI * (eps_plus + eps_minus) / (eps_plus - eps_minus)
-                    * mesh.panels[i].shape.at_middle();
+                let (ep, em) = (eps_plus, eps_minus);
+                let at = mesh.panels[i].shape.at_middle();
+                a[r * m + r] += PI * (ep + em) / (ep - em) * at;
+                da[r] =
+                    2.0 * PI * (ep * scaled(em) - em * scaled(ep)) / ((ep - em) * (ep - em)) * at;
             }
             Kind::Conductor { .. } => {
                 if floating {
@@ -299,8 +332,63 @@ fn half_capacitance(
             a[(m - 1) * m + col] = mesh.panels[j].seg.len();
         }
     }
+    // Signal k's free charge per unit length is w_k·q (2πε0·length·εr·σ per panel; a two-sided strip adds its
+    // principal-value normal field), and dw_k its derivative under the scaling.
+    let mut w = vec![vec![0.0; m]; n_signals];
+    let mut dw = vec![vec![0.0; m]; n_signals];
+    let mut position = vec![None; n];
+    for (r, &i) in active.iter().enumerate() {
+        position[i] = Some(r);
+    }
+    for (r, &i) in active.iter().enumerate() {
+        let Kind::Conductor {
+            net,
+            eps,
+            eps_minus,
+        } = mesh.panels[i].kind
+        else {
+            continue;
+        };
+        let Net::Signal(k) = net else { continue };
+        if k >= n_signals {
+            return Err(invalid("a signal conductor number is out of range"));
+        }
+        let scale = 2.0 * PI * EPS0 * mesh.panels[i].seg.len();
+        if vacuum {
+            w[k][r] += scale;
+            continue;
+        }
+        match eps_minus {
+            None => {
+                w[k][r] += scale * eps;
+                dw[k][r] += scale * scaled(eps);
+            }
+            Some(em) => {
+                w[k][r] += scale * 0.5 * (eps + em);
+                dw[k][r] += scale * 0.5 * (scaled(eps) + scaled(em));
+                let s = ints.strips.iter().position(|&x| x == i).unwrap_or(0);
+                let (jump, djump) = (
+                    scale * (eps - em) / (2.0 * PI),
+                    scale * (scaled(eps) - scaled(em)) / (2.0 * PI),
+                );
+                for j in 0..n {
+                    let Some(col) = position[j] else { continue };
+                    let f = ints.field_direct[s][j] + sign * ints.field_mirror[s][j];
+                    w[k][col] += jump * f;
+                    dw[k][col] += djump * f;
+                }
+            }
+        }
+    }
     let lu = Lu::new(m, a).ok_or_else(|| invalid("the boundary-element system is singular"))?;
-    let mut cap = vec![vec![0.0; n_signals]; n_signals];
+    let adjoint: Vec<Vec<f64>> = if vacuum {
+        Vec::new()
+    } else {
+        w.iter().map(|wk| lu.solve_transpose(wk)).collect()
+    };
+    let dot = |x: &[f64], y: &[f64]| x.iter().zip(y).map(|(a, b)| a * b).sum::<f64>();
+    let mut c = vec![vec![0.0; n_signals]; n_signals];
+    let mut dc = vec![vec![0.0; n_signals]; n_signals];
     for drive in 0..n_signals {
         let rhs: Vec<f64> = active
             .iter()
@@ -319,44 +407,15 @@ fn half_capacitance(
                 "the boundary-element solve gave a non-finite charge",
             ));
         }
-        // Full-length charge vector (zero on inactive panels) for the strip field sums.
-        let mut full = vec![0.0; n];
-        for (r, &i) in active.iter().enumerate() {
-            full[i] = q[r];
-        }
-        for (r, &i) in active.iter().enumerate() {
-            let Kind::Conductor {
-                net,
-                eps,
-                eps_minus,
-            } = mesh.panels[i].kind
-            else {
-                continue;
-            };
-            let Net::Signal(k) = net else { continue };
-            if k >= n_signals {
-                return Err(invalid("a signal conductor number is out of range"));
+        let da_q: Vec<f64> = da.iter().zip(&q).map(|(d, v)| d * v).collect();
+        for k in 0..n_signals {
+            c[k][drive] = dot(&w[k], &q);
+            if !vacuum {
+                dc[k][drive] = dot(&dw[k], &q) - dot(&adjoint[k], &da_q);
             }
-            let free = if vacuum {
-                q[r]
-            } else {
-                match eps_minus {
-                    None => eps * q[r],
-                    Some(em) => {
-                        let s = ints.strips.iter().position(|&x| x == i).unwrap_or(0);
-                        let e_pv: f64 = (0..n)
-                            .map(|j| {
-                                (ints.field_direct[s][j] + sign * ints.field_mirror[s][j]) * full[j]
-                            })
-                            .sum();
-                        0.5 * (eps + em) * q[r] + (eps - em) / (2.0 * PI) * e_pv
-                    }
-                }
-            };
-            cap[k][drive] += 2.0 * PI * EPS0 * free * mesh.panels[i].seg.len();
         }
     }
-    Ok(cap)
+    Ok(Half { c, dc })
 }
 
 /// Whole-structure C and C0 of `g` on one mesh.
@@ -371,11 +430,11 @@ pub fn vacuum_capacitances(g: &Geometry, params: MeshParams) -> Result<BemLevel>
 }
 
 /// Half-domain capacitances per symmetry, [odd, even], as far as computed.
-type BySymmetry = [Option<Vec<Vec<f64>>>; 2];
+type BySymmetry = [Option<Half>; 2];
 
 /// What a solve shares with every other solve on the same panels: the interaction matrices (which depend on where
 /// the panels are and which rows are potentials or normal fields, not on any Dk) and the vacuum capacitances
-/// (no Dk at all). A Dk-only change — the spread's Dk limits, the loss probe's dielectric share — then costs one
+/// (no Dk at all). A Dk-only change — the spread's Dk limits — then costs one
 /// factorisation per symmetry instead of the fill and two.
 struct Shared {
     key: Vec<u64>,
@@ -388,7 +447,7 @@ struct Shared {
     dielectric: std::cell::RefCell<Vec<(Vec<u64>, BySymmetry)>>,
 }
 
-/// Sets of Dk kept per mesh (the nominal, and the spread's or the loss probe's Dk variations).
+/// Sets of Dk kept per mesh (the nominal, and the spread's Dk variations).
 const DIELECTRIC_KEPT: usize = 4;
 
 /// Meshes kept: the nominal and a few Dk variations of it come in a row; four pairs of 300 panels are ~6 MB.
@@ -466,7 +525,7 @@ pub fn forget_kept() {
 }
 
 /// The vacuum half capacitance of one symmetry, computed once per mesh.
-fn vacuum_half(mesh: &Mesh, sh: &Shared, n_signals: usize, sign: f64) -> Result<Vec<Vec<f64>>> {
+fn vacuum_half(mesh: &Mesh, sh: &Shared, n_signals: usize, sign: f64) -> Result<Half> {
     let slot = usize::from(sign > 0.0);
     if let Some(c) = &sh.vacuum.borrow()[slot] {
         return Ok(c.clone());
@@ -493,7 +552,7 @@ fn dk_key(mesh: &Mesh) -> Vec<u64> {
 }
 
 /// The half capacitance of one symmetry with the dielectrics, kept per mesh and set of Dk.
-fn dielectric_half(mesh: &Mesh, sh: &Shared, n_signals: usize, sign: f64) -> Result<Vec<Vec<f64>>> {
+fn dielectric_half(mesh: &Mesh, sh: &Shared, n_signals: usize, sign: f64) -> Result<Half> {
     let slot = usize::from(sign > 0.0);
     let key = dk_key(mesh);
     if let Some(c) = sh
@@ -537,50 +596,39 @@ fn level(g: &Geometry, params: MeshParams, with_dielectrics: bool) -> Result<Bem
     let pair = g.layout == Layout::MirroredPair;
     let sh = shared(&mesh);
     let ns = g.n_signals;
-    let sym = |m: Vec<Vec<f64>>| -> Vec<Vec<f64>> {
-        let n = m.len();
-        (0..n)
-            .map(|i| (0..n).map(|j| 0.5 * (m[i][j] + m[j][i])).collect())
-            .collect()
-    };
-    let (c, c0) = if pair {
-        if ns != 1 {
-            return Err(invalid(
-                "an edge-coupled pair has one signal in the half domain",
-            ));
-        }
-        let maxwell = |odd: f64, even: f64| -> Vec<Vec<f64>> {
+    if pair && ns != 1 {
+        return Err(invalid(
+            "an edge-coupled pair has one signal in the half domain",
+        ));
+    }
+    // Whole-structure matrices from the halves (a linear map, so dC/dλ assembles as C does): a mirrored pair's
+    // odd and even halves make the 2×2 Maxwell matrix; otherwise the even half, symmetrised, counts twice.
+    let whole = |half: &dyn Fn(f64) -> Result<Half>, derivative: bool| -> Result<Vec<Vec<f64>>> {
+        let pick = |h: Half| if derivative { h.dc } else { h.c };
+        if pair {
+            let (odd, even) = (pick(half(-1.0)?)[0][0], pick(half(1.0)?)[0][0]);
             let (s, m) = (0.5 * (odd + even), 0.5 * (even - odd));
-            vec![vec![s, m], vec![m, s]]
-        };
-        let vo = vacuum_half(&mesh, &sh, 1, -1.0)?[0][0];
-        let ve = vacuum_half(&mesh, &sh, 1, 1.0)?[0][0];
-        let c0 = maxwell(vo, ve);
-        if !with_dielectrics {
-            (c0.clone(), c0)
-        } else {
-            let co = dielectric_half(&mesh, &sh, 1, -1.0)?[0][0];
-            let ce = dielectric_half(&mesh, &sh, 1, 1.0)?[0][0];
-            (maxwell(co, ce), c0)
+            return Ok(vec![vec![s, m], vec![m, s]]);
         }
+        let m = pick(half(1.0)?);
+        let n = m.len();
+        Ok((0..n)
+            .map(|i| (0..n).map(|j| m[i][j] + m[j][i]).collect())
+            .collect())
+    };
+    let vacuum = |sign: f64| vacuum_half(&mesh, &sh, if pair { 1 } else { ns }, sign);
+    let dielectric = |sign: f64| dielectric_half(&mesh, &sh, if pair { 1 } else { ns }, sign);
+    let c0 = whole(&vacuum, false)?;
+    let (c, dc_dscale) = if with_dielectrics {
+        (whole(&dielectric, false)?, whole(&dielectric, true)?)
     } else {
-        let double = |m: Vec<Vec<f64>>| -> Vec<Vec<f64>> {
-            sym(m)
-                .into_iter()
-                .map(|r| r.into_iter().map(|v| 2.0 * v).collect())
-                .collect()
-        };
-        let c0 = double(vacuum_half(&mesh, &sh, ns, 1.0)?);
-        if !with_dielectrics {
-            (c0.clone(), c0)
-        } else {
-            (double(dielectric_half(&mesh, &sh, ns, 1.0)?), c0)
-        }
+        (c0.clone(), vec![vec![0.0; c0.len()]; c0.len()])
     };
     Ok(BemLevel {
         panels: mesh.panels.len(),
         c,
         c0,
+        dc_dscale,
     })
 }
 
