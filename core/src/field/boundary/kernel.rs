@@ -592,19 +592,34 @@ impl Src {
     #[inline]
     pub fn potential(&self, c: [f64; 2], self_panel: bool) -> f64 {
         if !self_panel && self.far(c) {
-            let d1 = [
-                c[0] - self.mid[0] + self.hg[0],
-                c[1] - self.mid[1] + self.hg[1],
-            ];
-            let d2 = [
-                c[0] - self.mid[0] - self.hg[0],
-                c[1] - self.mid[1] - self.hg[1],
-            ];
-            let q1 = d1[0] * d1[0] + d1[1] * d1[1];
-            let q2 = d2[0] * d2[0] + d2[1] * d2[1];
-            return -0.25 * self.len * (q1 * q2).ln();
+            return -0.25 * self.len * self.gauss_product(c).ln();
         }
         self.potential_exact(c, self_panel)
+    }
+
+    /// The product of the squared distances from `c` to the two Gauss points.
+    #[inline]
+    fn gauss_product(&self, c: [f64; 2]) -> f64 {
+        let d1 = [
+            c[0] - self.mid[0] + self.hg[0],
+            c[1] - self.mid[1] + self.hg[1],
+        ];
+        let d2 = [
+            c[0] - self.mid[0] - self.hg[0],
+            c[1] - self.mid[1] - self.hg[1],
+        ];
+        (d1[0] * d1[0] + d1[1] * d1[1]) * (d2[0] * d2[0] + d2[1] * d2[1])
+    }
+
+    /// [`Src::potential`] of this panel less that of `image`, its mirror in a plane (the same length): where both
+    /// are far from `c`, one logarithm of the ratio instead of two. The potential rows of a line over a plane are
+    /// most of the fill's logarithms.
+    #[inline]
+    pub fn potential_less(&self, image: &Src, c: [f64; 2], self_panel: bool) -> f64 {
+        if !self_panel && self.far(c) && image.far(c) {
+            return -0.25 * self.len * (self.gauss_product(c) / image.gauss_product(c)).ln();
+        }
+        self.potential(c, self_panel) - image.potential(c, false)
     }
 
     /// [`Src::potential`] by the closed form at any distance.
@@ -794,6 +809,15 @@ impl Source {
         }
     }
 
+    /// P at `c` less that of `image`, this source's mirror in a plane (see [`Src::potential_less`]).
+    #[inline(always)]
+    pub fn potential_less(&self, image: &Source, c: [f64; 2], self_panel: bool) -> f64 {
+        match (self, image) {
+            (Source::Flat(s), Source::Flat(i)) => s.potential_less(i, c, self_panel),
+            _ => self.potential(c, self_panel) - image.potential(c, false),
+        }
+    }
+
     /// Field vector at `c` (see [`Src::field`]; principal value on the panel itself).
     #[inline(always)]
     pub fn field(&self, c: [f64; 2], self_panel: bool) -> [f64; 2] {
@@ -820,6 +844,41 @@ impl Source {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn a_panel_less_its_image_is_the_difference_of_the_two_potentials() {
+        // One logarithm of the ratio where both are far, the two potentials otherwise: the same value to rounding
+        // of the larger term, at targets near the panel, past the far switch, near the plane and far away.
+        let seg = Seg {
+            a: [0.2, 0.5],
+            b: [0.5, 0.9],
+        };
+        let image_seg = seg.mirror_y(0.1);
+        let (own, image) = (
+            Source::new(&seg, Shape::Flat),
+            Source::new(&image_seg, Shape::Flat),
+        );
+        for c in [
+            [0.35, 0.7],
+            [0.9, 1.0],
+            [1.9, 2.1],
+            [3.0, 0.1],
+            [-4.0, 0.3],
+            [0.3, 40.0],
+        ] {
+            let self_panel = c == [0.35, 0.7];
+            let want = own.potential(c, self_panel) - image.potential(c, false);
+            let got = own.potential_less(&image, c, self_panel);
+            let scale = own
+                .potential(c, self_panel)
+                .abs()
+                .max(image.potential(c, false).abs());
+            assert!(
+                (got - want).abs() <= 1e-13 * scale,
+                "{c:?}: {got} vs {want}"
+            );
+        }
+    }
 
     #[test]
     fn a_corner_panel_carries_its_charge_and_looks_the_same_near_and_far() {

@@ -223,11 +223,12 @@ fn interactions(mesh: &Mesh) -> Interactions {
                     }
                     let (mut pd, mut pm) = (0.0, 0.0);
                     if !interface {
-                        pd = s[0].potential(c, me);
-                        pm = s[2].potential(c, false);
                         if *imaged {
-                            pd -= s[1].potential(c, false);
-                            pm -= s[3].potential(c, false);
+                            pd = s[0].potential_less(&s[1], c, me);
+                            pm = s[2].potential_less(&s[3], c, false);
+                        } else {
+                            pd = s[0].potential(c, me);
+                            pm = s[2].potential(c, false);
                         }
                     }
                     put(j, (pd, fd), (pm, fm));
