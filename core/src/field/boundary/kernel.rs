@@ -597,17 +597,25 @@ impl Src {
         self.potential_exact(c, self_panel)
     }
 
+    /// The vectors from the two Gauss points to `c`.
+    #[inline]
+    fn gauss_offsets(&self, c: [f64; 2]) -> [[f64; 2]; 2] {
+        [
+            [
+                c[0] - self.mid[0] + self.hg[0],
+                c[1] - self.mid[1] + self.hg[1],
+            ],
+            [
+                c[0] - self.mid[0] - self.hg[0],
+                c[1] - self.mid[1] - self.hg[1],
+            ],
+        ]
+    }
+
     /// The product of the squared distances from `c` to the two Gauss points.
     #[inline]
     fn gauss_product(&self, c: [f64; 2]) -> f64 {
-        let d1 = [
-            c[0] - self.mid[0] + self.hg[0],
-            c[1] - self.mid[1] + self.hg[1],
-        ];
-        let d2 = [
-            c[0] - self.mid[0] - self.hg[0],
-            c[1] - self.mid[1] - self.hg[1],
-        ];
+        let [d1, d2] = self.gauss_offsets(c);
         (d1[0] * d1[0] + d1[1] * d1[1]) * (d2[0] * d2[0] + d2[1] * d2[1])
     }
 
@@ -650,14 +658,7 @@ impl Src {
             return [0.0, 0.0];
         }
         if self.far(c) {
-            let d1 = [
-                c[0] - self.mid[0] + self.hg[0],
-                c[1] - self.mid[1] + self.hg[1],
-            ];
-            let d2 = [
-                c[0] - self.mid[0] - self.hg[0],
-                c[1] - self.mid[1] - self.hg[1],
-            ];
+            let [d1, d2] = self.gauss_offsets(c);
             let q1 = d1[0] * d1[0] + d1[1] * d1[1];
             let q2 = d2[0] * d2[0] + d2[1] * d2[1];
             let w = 0.5 * self.len;
