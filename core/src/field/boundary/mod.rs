@@ -604,26 +604,37 @@ fn level(g: &Geometry, params: MeshParams, with_dielectrics: bool) -> Result<Bem
     }
     // Whole-structure matrices from the halves (a linear map, so dC/dλ assembles as C does): a mirrored pair's
     // odd and even halves make the 2×2 Maxwell matrix; otherwise the even half, symmetrised, counts twice.
-    let whole = |half: &dyn Fn(f64) -> Result<Half>, derivative: bool| -> Result<Vec<Vec<f64>>> {
-        let pick = |h: Half| if derivative { h.dc } else { h.c };
-        if pair {
-            let (odd, even) = (pick(half(-1.0)?)[0][0], pick(half(1.0)?)[0][0]);
-            let (s, m) = (0.5 * (odd + even), 0.5 * (even - odd));
-            return Ok(vec![vec![s, m], vec![m, s]]);
-        }
-        let m = pick(half(1.0)?);
-        let n = m.len();
-        Ok((0..n)
-            .map(|i| (0..n).map(|j| m[i][j] + m[j][i]).collect())
-            .collect())
+    // [C, dC/dλ] of the whole structure from its halves, each half solved (or read from what is kept) once.
+    let whole = |half: &dyn Fn(f64) -> Result<Half>| -> Result<[Vec<Vec<f64>>; 2]> {
+        let assemble = |odd: Option<&Vec<Vec<f64>>>, even: &Vec<Vec<f64>>| -> Vec<Vec<f64>> {
+            match odd {
+                Some(odd) => {
+                    let (o, e) = (odd[0][0], even[0][0]);
+                    let (s, m) = (0.5 * (o + e), 0.5 * (e - o));
+                    vec![vec![s, m], vec![m, s]]
+                }
+                None => {
+                    let n = even.len();
+                    (0..n)
+                        .map(|i| (0..n).map(|j| even[i][j] + even[j][i]).collect())
+                        .collect()
+                }
+            }
+        };
+        let even = half(1.0)?;
+        let odd = if pair { Some(half(-1.0)?) } else { None };
+        Ok([
+            assemble(odd.as_ref().map(|h| &h.c), &even.c),
+            assemble(odd.as_ref().map(|h| &h.dc), &even.dc),
+        ])
     };
-    let vacuum = |sign: f64| vacuum_half(&mesh, &sh, if pair { 1 } else { ns }, sign);
-    let dielectric = |sign: f64| dielectric_half(&mesh, &sh, if pair { 1 } else { ns }, sign);
-    let c0 = whole(&vacuum, false)?;
-    let (c, dc_dscale) = if with_dielectrics {
-        (whole(&dielectric, false)?, whole(&dielectric, true)?)
+    let signals = if pair { 1 } else { ns };
+    // The vacuum halves' dC/dλ is zero.
+    let [c0, zero] = whole(&|sign| vacuum_half(&mesh, &sh, signals, sign))?;
+    let [c, dc_dscale] = if with_dielectrics {
+        whole(&|sign| dielectric_half(&mesh, &sh, signals, sign))?
     } else {
-        (c0.clone(), vec![vec![0.0; c0.len()]; c0.len()])
+        [c0.clone(), zero]
     };
     Ok(BemLevel {
         panels: mesh.panels.len(),
