@@ -1,6 +1,7 @@
 //! Workspace integration tests: exact analytic references and regressions, against the public core API.
 
 mod closed_form;
+mod crosstalk;
 mod field_sweep;
 mod physical_bounds;
 mod properties;

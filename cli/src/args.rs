@@ -2,7 +2,7 @@
 //! value is reported by the option it came in), the structure KIND, and the option groups of a line case, a
 //! frequency sweep and the foil what-if.
 
-use ohmstack_core::base::units::{parse_frequency, parse_length, parse_number};
+use ohmstack_core::base::units::{parse_frequency, parse_length, parse_number, parse_time};
 use ohmstack_core::design::roughness::Foil;
 use ohmstack_core::line::loss::Sweep;
 use ohmstack_core::plan::case;
@@ -79,6 +79,10 @@ core_parser!(
 core_parser!(
     /// A frequency (`5GHz`, `100MHz`, `1e9`), in hertz.
     Frequency -> f64 = parse_frequency
+);
+core_parser!(
+    /// A time (`50ps`, `0.1ns`), in seconds.
+    Time -> f64 = parse_time
 );
 core_parser!(
     /// An impedance in ohms (`50`, `50ohm`, `50Ω`).

@@ -57,6 +57,8 @@ enum Command {
     Plot(plot::Args),
     /// Loss, complex Z0 and delay of one rule's line at one frequency or over a sweep
     Loss(loss::Args),
+    /// Crosstalk to a neighbour against spacing, and the least spacing inside a budget, per rule
+    Crosstalk(crosstalk::Args),
     /// Touchstone 1.1 S-parameters of a line segment (2-port, or 4-port for a pair)
     Touchstone(touchstone::Args),
     /// Shell completion script for bash, zsh, fish, elvish or PowerShell
@@ -95,6 +97,7 @@ fn run(cli: Cli) -> anyhow::Result<()> {
         Command::Draw(a) => draw::run(a),
         Command::Plot(a) => plot::run(a),
         Command::Loss(a) => loss::run(a),
+        Command::Crosstalk(a) => crosstalk::run(a),
         Command::Touchstone(a) => touchstone::run(a),
         Command::Completions(a) => completions::run(a),
     }

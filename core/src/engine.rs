@@ -312,6 +312,80 @@ impl Engine {
     }
 }
 
+/// The Maxwell capacitance matrices of a line (or pair) beside an identical neighbour: conductors ordered as the
+/// line's signals, nearest the neighbour first, then the neighbour's in the same order (two for single lines, four
+/// for pairs), F/m.
+#[derive(Debug, Clone, PartialEq)]
+pub struct NeighbourMatrices {
+    pub c: Vec<Vec<f64>>,
+    pub c0: Vec<Vec<f64>>,
+    /// The method that made them.
+    pub method: &'static str,
+}
+
+impl Engine {
+    /// The rule's line and an identical neighbour `spacing` m away (edge to edge) on the same layer, for crosstalk.
+    /// The field engines solve the whole cross-section of both (four signals for two pairs); the closed forms give
+    /// two single lines from their coupled-line model (its even and odd modes) and nothing for two pairs.
+    pub fn neighbour_matrices(
+        &self,
+        cs: &CrossSection,
+        structure: Structure,
+        dims: &Dims,
+        spacing: f64,
+    ) -> Result<NeighbourMatrices> {
+        match self.probe() {
+            Some((options, etch_factor)) => {
+                let g =
+                    field::geometry::build_neighbours(cs, structure, dims, spacing, etch_factor)?;
+                let level = boundary::capacitances(&g, options.fine)?;
+                Ok(NeighbourMatrices {
+                    c: level.c,
+                    c0: level.c0,
+                    method: BOUNDARY_METHOD,
+                })
+            }
+            None => {
+                if structure != Structure::Single {
+                    return Err(crate::base::error::Error::Invalid {
+                        field: "model".into(),
+                        reason: "crosstalk between two pairs needs the field engine (the closed forms model one pair)"
+                            .into(),
+                    });
+                }
+                let pair = Dims {
+                    s: Some(spacing),
+                    ..*dims
+                };
+                let e = closed_form::evaluate(cs, Structure::EdgePair, &pair)?;
+                let Analysis::Pair(p) = e.analysis else {
+                    return Err(crate::base::error::Error::Invalid {
+                        field: "structure".into(),
+                        reason: "the coupled-line model gave no pair".into(),
+                    });
+                };
+                // Per-line mode capacitances C = √εeff/(c·Z) and C0 = C/εeff, then the Maxwell terms
+                // C11 = (Codd + Ceven)/2, C12 = (Ceven − Codd)/2.
+                let mode = |z: f64, e: f64| {
+                    let c = e.sqrt() / (crate::base::units::C0 * z);
+                    (c, c / e)
+                };
+                let (co, c0o) = mode(p.z_odd, p.eps_eff_odd);
+                let (ce, c0e) = mode(p.z_even, p.eps_eff_even);
+                let maxwell = |o: f64, e: f64| {
+                    let (s, m) = (0.5 * (o + e), 0.5 * (e - o));
+                    vec![vec![s, m], vec![m, s]]
+                };
+                Ok(NeighbourMatrices {
+                    c: maxwell(co, ce),
+                    c0: maxwell(c0o, c0e),
+                    method: e.method,
+                })
+            }
+        }
+    }
+}
+
 impl Answer {
     /// The answer of a finished reference (finite-volume) field solve.
     pub fn from_field(r: FieldResult) -> Answer {

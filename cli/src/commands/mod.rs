@@ -5,6 +5,7 @@ pub mod analyze;
 pub mod batch;
 pub mod calc;
 pub mod completions;
+pub mod crosstalk;
 pub mod demo;
 pub mod draw;
 pub mod field;

@@ -131,6 +131,26 @@ pub fn parse_frequency(field: &str, text: &str) -> Result<f64, Error> {
     crate::base::error::finite(field, value * scale)
 }
 
+/// Parses a time such as `50ps`, `0.1ns`, `2e-11` (seconds).
+pub fn parse_time(field: &str, text: &str) -> Result<f64, Error> {
+    let bad = || Error::BadQuantity {
+        field: field.to_string(),
+        text: text.to_string(),
+        expected: "a time such as 50ps, 0.1ns or 5e-11",
+    };
+    let (value, unit) = split_number(text).ok_or_else(bad)?;
+    let scale = match unit.to_ascii_lowercase().as_str() {
+        "" | "s" => 1.0,
+        "ms" => 1e-3,
+        "us" | "µs" | "μs" => 1e-6,
+        "ns" => 1e-9,
+        "ps" => 1e-12,
+        "fs" => 1e-15,
+        _ => return Err(bad()),
+    };
+    crate::base::error::finite(field, value * scale)
+}
+
 /// Parses a plain number (Dk, ohms, percent) with an optional unit word the caller allows.
 pub fn parse_number(field: &str, text: &str, allowed_suffixes: &[&str]) -> Result<f64, Error> {
     let bad = || Error::BadQuantity {
@@ -250,6 +270,15 @@ mod tests {
     fn frequencies_parse() {
         assert_eq!(parse_frequency("f", "2.4GHz").unwrap(), 2.4e9);
         assert_eq!(parse_frequency("f", "100 MHz").unwrap(), 100e6);
+    }
+
+    #[test]
+    fn times_parse() {
+        assert!((parse_time("t", "50ps").unwrap() - 50e-12).abs() < 1e-24);
+        assert!((parse_time("t", "0.1 ns").unwrap() - 1e-10).abs() < 1e-24);
+        assert_eq!(parse_time("t", "2e-11").unwrap(), 2e-11);
+        let e = parse_time("rise", "50 pF").unwrap_err().to_string();
+        assert!(e.contains("rise") && e.contains("50ps"), "{e}");
     }
 
     #[test]

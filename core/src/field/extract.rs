@@ -13,7 +13,7 @@ use crate::section::lines::{CoupledPair, SingleLine};
 use crate::section::Analysis;
 use serde::Serialize;
 
-/// Inverse of a 1×1 or 2×2 matrix (all this solver produces); `None` when singular.
+/// Inverse of a square matrix: closed forms for 1×1 and 2×2, Gauss–Jordan beyond; `None` when singular.
 pub fn inverse(m: &[Vec<f64>]) -> Option<Vec<Vec<f64>>> {
     match m.len() {
         1 if m[0][0] != 0.0 => Some(vec![vec![1.0 / m[0][0]]]),
@@ -27,8 +27,43 @@ pub fn inverse(m: &[Vec<f64>]) -> Option<Vec<Vec<f64>>> {
                 vec![-m[1][0] / det, m[0][0] / det],
             ])
         }
-        _ => None,
+        n => gauss_jordan(m, n),
     }
+}
+
+/// Inverse of a small square matrix by Gauss–Jordan elimination with partial pivoting (the four conductors of two
+/// neighbouring pairs); `None` when singular or not square.
+fn gauss_jordan(m: &[Vec<f64>], n: usize) -> Option<Vec<Vec<f64>>> {
+    if n == 0 || m.iter().any(|r| r.len() != n) {
+        return None;
+    }
+    let mut a: Vec<Vec<f64>> = m.to_vec();
+    let mut inv: Vec<Vec<f64>> = (0..n)
+        .map(|i| (0..n).map(|j| f64::from(u8::from(i == j))).collect())
+        .collect();
+    for k in 0..n {
+        let p = (k..n).max_by(|&i, &j| a[i][k].abs().total_cmp(&a[j][k].abs()))?;
+        if a[p][k] == 0.0 || !a[p][k].is_finite() {
+            return None;
+        }
+        a.swap(k, p);
+        inv.swap(k, p);
+        let d = a[k][k];
+        for j in 0..n {
+            a[k][j] /= d;
+            inv[k][j] /= d;
+        }
+        for i in (0..n).filter(|&i| i != k) {
+            let f = a[i][k];
+            if f != 0.0 {
+                for j in 0..n {
+                    a[i][j] -= f * a[k][j];
+                    inv[i][j] -= f * inv[k][j];
+                }
+            }
+        }
+    }
+    Some(inv)
 }
 
 /// Inductance matrix per metre, L = µ0ε0·C0⁻¹, H/m.
@@ -192,6 +227,33 @@ mod tests {
         let (p, lim) = richardson(f, r).unwrap();
         assert!((p - 2.0).abs() < 1e-12 && (lim - 1.0).abs() < 1e-12);
         assert!(richardson([1.0, 2.0, 1.5], r).is_none());
+    }
+
+    #[test]
+    fn four_by_four_inverse_times_the_matrix_is_the_identity() {
+        // Two pairs' Maxwell matrix shape (diagonally dominant, negative mutual terms); needs a row swap first.
+        let m = vec![
+            vec![0.0, 2.0, -0.3, -0.1],
+            vec![5.0, -0.6, -0.2, -0.05],
+            vec![-0.3, -0.2, 5.1, -0.7],
+            vec![-0.1, -0.05, -0.7, 4.9],
+        ];
+        let inv = inverse(&m).unwrap();
+        for i in 0..4 {
+            for j in 0..4 {
+                let v: f64 = (0..4).map(|k| m[i][k] * inv[k][j]).sum();
+                assert!(
+                    (v - f64::from(u8::from(i == j))).abs() < 1e-14,
+                    "({i}, {j}): {v}"
+                );
+            }
+        }
+        assert!(inverse(&[
+            vec![1.0, 2.0, 3.0],
+            vec![2.0, 4.0, 6.0],
+            vec![0.0, 1.0, 1.0]
+        ])
+        .is_none());
     }
 
     #[test]

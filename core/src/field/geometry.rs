@@ -413,8 +413,8 @@ fn undercut(t: f64, w: f64, etch_factor: Option<f64>) -> Result<f64> {
 /// Horizontal layout of the conductors on the trace layer (half domain): signal traces and coplanar grounds.
 struct TraceLayout {
     layout: Layout,
-    /// Left edge (bottom) of the signal trace in the half domain and its width.
-    signal_left: f64,
+    /// Left edge (bottom) of each signal trace in the half domain (signal k is `Net::Signal(k)`) and their width.
+    signals_left: Vec<f64>,
     w: f64,
     /// Left edge of the coplanar ground, if any.
     ground_left: Option<f64>,
@@ -467,7 +467,7 @@ fn trace_layout(structure: Structure, dims: &Dims) -> Result<TraceLayout> {
     let extent = ground_left.unwrap_or(signal_left + w).max(w);
     Ok(TraceLayout {
         layout,
-        signal_left,
+        signals_left: vec![signal_left],
         w,
         ground_left,
         extent,
@@ -514,6 +514,74 @@ pub fn build_layered(
             reason: "a broadside pair needs two trace layers; use a broadside cross-section".into(),
         });
     }
+    let tl = trace_layout(structure, dims)?;
+    build_on_layout(stack, structure, tl, etch_factor)
+}
+
+/// The geometry of a rule's line or pair beside an identical neighbour on the same layer, `spacing` apart edge to
+/// edge (bottom edges), for crosstalk: two single lines, or two edge-coupled pairs (four signals), mirrored about
+/// the middle of the spacing. Signal 0 is the one nearest the neighbour. Coplanar lines keep ground copper between
+/// neighbours and broadside pairs sit on two layers: neither is built here.
+pub fn build_neighbours(
+    cs: &CrossSection,
+    structure: Structure,
+    dims: &Dims,
+    spacing: f64,
+    etch_factor: Option<f64>,
+) -> Result<Geometry> {
+    const NEIGHBOUR: &str = "spacing to the neighbour";
+    let spacing = len(NEIGHBOUR, spacing)?;
+    let stack = LayerStack::from_cross_section(cs)?;
+    if !matches!(structure, Structure::Single | Structure::EdgePair) {
+        return Err(Error::Invalid {
+            field: "structure".into(),
+            reason: "crosstalk to a neighbour is computed for single lines and edge-coupled pairs (coplanar ground \
+                     copper separates coplanar neighbours; a broadside pair spans two layers)"
+                .into(),
+        });
+    }
+    // The two nearest traces are laid out as an edge-coupled pair at the neighbour spacing.
+    let mut tl = trace_layout(
+        Structure::EdgePair,
+        &Dims {
+            s: Some(spacing),
+            ..*dims
+        },
+    )?;
+    for f in tl.features.iter_mut().filter(|f| f.0 == "spacing") {
+        f.0 = NEIGHBOUR.into();
+    }
+    if structure == Structure::EdgePair {
+        let inner = dims.s.ok_or_else(|| Error::Invalid {
+            field: "spacing".into(),
+            reason: "a pair needs a spacing".into(),
+        })?;
+        let inner = len("spacing", inner)?;
+        tl.signals_left.push(spacing / 2.0 + tl.w + inner);
+        tl.extent = spacing / 2.0 + 2.0 * tl.w + inner;
+        tl.features.push(("spacing".into(), inner));
+    }
+    let mut g = build_on_layout(&stack, structure, tl, etch_factor)?;
+    if let Medium::Stripline { dual: true, .. } = cs.medium {
+        g.warnings.push(Warning::new(
+            "field solve: the other signal layer of the dual stripline is not modelled (no copper there)",
+        ));
+    }
+    Ok(g)
+}
+
+fn build_on_layout(
+    stack: &LayerStack,
+    structure: Structure,
+    tl: TraceLayout,
+    etch_factor: Option<f64>,
+) -> Result<Geometry> {
+    if structure == Structure::BroadsidePair {
+        return Err(Error::Invalid {
+            field: "structure".into(),
+            reason: "a broadside pair needs two trace layers; use a broadside cross-section".into(),
+        });
+    }
     if stack.below.is_empty() || stack.below.len() > 20 || stack.above.len() > 20 {
         return Err(Error::Invalid {
             field: "layers".into(),
@@ -536,7 +604,6 @@ pub fn build_layered(
         });
     }
     let t = error::length_or_zero("thickness", stack.t)?;
-    let tl = trace_layout(structure, dims)?;
     let mut features = tl.features.clone();
     for (i, s) in stack.below.iter().chain(stack.above.iter()).enumerate() {
         len(&format!("layers[{i}].height"), s.h)?;
@@ -603,11 +670,15 @@ pub fn build_layered(
             y += s.h;
         }
     }
-    let signal = trace(tl.signal_left, tl.w, y_trace, t, u);
-    let mut conductors = vec![Conductor {
-        shape: signal,
-        net: Net::Signal(0),
-    }];
+    let mut conductors: Vec<Conductor> = tl
+        .signals_left
+        .iter()
+        .enumerate()
+        .map(|(k, &left)| Conductor {
+            shape: trace(left, tl.w, y_trace, t, u),
+            net: Net::Signal(k),
+        })
+        .collect();
     if let Some(g) = tl.ground_left {
         // Coplanar ground copper reaches the side wall (a wide pour); its inner edge is etched like the trace.
         conductors.push(Conductor {
@@ -650,8 +721,8 @@ pub fn build_layered(
         y_min,
         y_max,
         regions,
+        n_signals: tl.signals_left.len(),
         conductors,
-        n_signals: 1,
         layout: tl.layout,
         fine,
         warnings,
@@ -681,6 +752,7 @@ pub fn build(
             let er = error::permittivity("dk", er)?;
             let t = error::length_or_zero("thickness", cs.t)?;
             let tl = trace_layout(Structure::Single, dims)?;
+            let signal_left = tl.signals_left[0];
             let mut features = tl.features.clone();
             features.push(("height_above".into(), len("height_above", h_above)?));
             features.push(("separation".into(), len("separation", separation)?));
@@ -700,7 +772,7 @@ pub fn build(
             let top = h_below + 2.0 * t + separation + h_above;
             let x_max = tl.extent + STRIPLINE_SIDE_FACTOR * top;
             // The upper trace is etched from its own copper foil, which faces the other way: its wide face is up.
-            let lower = trace(tl.signal_left, tl.w, h_below, t, u);
+            let lower = trace(signal_left, tl.w, h_below, t, u);
             let y_up = h_below + t + separation;
             let layered = match &cs.layering {
                 Some(l) => broadside_regions(l, x_max, [h_below, separation, h_above], t)?,

@@ -9,6 +9,7 @@ use crate::design::stackup::Layer;
 use serde::Serialize;
 
 pub mod case;
+pub mod crosstalk;
 pub mod field_check;
 pub mod field_synth;
 pub mod rule;

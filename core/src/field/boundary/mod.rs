@@ -597,28 +597,33 @@ fn level(g: &Geometry, params: MeshParams, with_dielectrics: bool) -> Result<Bem
     let pair = g.layout == Layout::MirroredPair;
     let sh = shared(&mesh);
     let ns = g.n_signals;
-    if pair && ns != 1 {
-        return Err(invalid(
-            "an edge-coupled pair has one signal in the half domain",
-        ));
-    }
-    // Whole-structure matrices from the halves (a linear map, so dC/dλ assembles as C does): a mirrored pair's
-    // odd and even halves make the 2×2 Maxwell matrix; otherwise the even half, symmetrised, counts twice.
-    // [C, dC/dλ] of the whole structure from its halves, each half solved (or read from what is kept) once.
+    // Whole-structure matrices from the halves (a linear map, so dC/dλ assembles as C does): a mirrored layout's
+    // odd (O) and even (E) halves make the Maxwell matrix [[S, M], [M, S]] over the half's signals and then their
+    // mirror images, S = (O + E)/2 and M = (E − O)/2 (a pair's 2×2; two pairs' 4×4); otherwise the even half,
+    // symmetrised, counts twice. [C, dC/dλ] of the whole structure from its halves, each half solved (or read
+    // from what is kept) once.
     let whole = |half: &dyn Fn(f64) -> Result<Half>| -> Result<[Vec<Vec<f64>>; 2]> {
+        let sym = |m: &Vec<Vec<f64>>, i: usize, j: usize| m[i][j] + m[j][i];
         let assemble = |odd: Option<&Vec<Vec<f64>>>, even: &Vec<Vec<f64>>| -> Vec<Vec<f64>> {
+            let n = even.len();
             match odd {
                 Some(odd) => {
-                    let (o, e) = (odd[0][0], even[0][0]);
-                    let (s, m) = (0.5 * (o + e), 0.5 * (e - o));
-                    vec![vec![s, m], vec![m, s]]
+                    let mut c = vec![vec![0.0; 2 * n]; 2 * n];
+                    for i in 0..n {
+                        for j in 0..n {
+                            let (o, e) = (0.5 * sym(odd, i, j), 0.5 * sym(even, i, j));
+                            let (s, m) = (0.5 * (o + e), 0.5 * (e - o));
+                            c[i][j] = s;
+                            c[n + i][n + j] = s;
+                            c[i][n + j] = m;
+                            c[n + i][j] = m;
+                        }
+                    }
+                    c
                 }
-                None => {
-                    let n = even.len();
-                    (0..n)
-                        .map(|i| (0..n).map(|j| even[i][j] + even[j][i]).collect())
-                        .collect()
-                }
+                None => (0..n)
+                    .map(|i| (0..n).map(|j| sym(even, i, j)).collect())
+                    .collect(),
             }
         };
         let even = half(1.0)?;
@@ -628,7 +633,7 @@ fn level(g: &Geometry, params: MeshParams, with_dielectrics: bool) -> Result<Bem
             assemble(odd.as_ref().map(|h| &h.dc), &even.dc),
         ])
     };
-    let signals = if pair { 1 } else { ns };
+    let signals = ns;
     // The vacuum halves' dC/dλ is zero.
     let [c0, zero] = whole(&|sign| vacuum_half(&mesh, &sh, signals, sign))?;
     let [c, dc_dscale] = if with_dielectrics {
