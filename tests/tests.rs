@@ -7,5 +7,6 @@ mod physical_bounds;
 mod properties;
 mod regression;
 mod schema;
+mod stack_solving;
 mod starters;
 mod tidy;

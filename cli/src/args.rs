@@ -89,6 +89,10 @@ core_parser!(
     Ohms -> f64 = |f, t| parse_number(f, t, &["ohm", "Ω"])
 );
 core_parser!(
+    /// A loss in decibels (`12`, `12dB`).
+    Decibels -> f64 = |f, t| parse_number(f, t, &["dB"])
+);
+core_parser!(
     /// A percentage (`0.5`, `0.5%`).
     Percent -> f64 = |f, t| parse_number(f, t, &["%"])
 );

@@ -59,6 +59,10 @@ enum Command {
     Loss(loss::Args),
     /// Crosstalk to a neighbour against spacing, and the least spacing inside a budget, per rule
     Crosstalk(crosstalk::Args),
+    /// Loss per length at a link's Nyquist frequency and the longest run inside a loss budget, per rule
+    Reach(reach::Args),
+    /// The thickness of one core or prepreg that puts a rule on target at its width
+    Thickness(thickness::Args),
     /// Touchstone 1.1 S-parameters of a line segment (2-port, or 4-port for a pair)
     Touchstone(touchstone::Args),
     /// Shell completion script for bash, zsh, fish, elvish or PowerShell
@@ -98,6 +102,8 @@ fn run(cli: Cli) -> anyhow::Result<()> {
         Command::Plot(a) => plot::run(a),
         Command::Loss(a) => loss::run(a),
         Command::Crosstalk(a) => crosstalk::run(a),
+        Command::Reach(a) => reach::run(a),
+        Command::Thickness(a) => thickness::run(a),
         Command::Touchstone(a) => touchstone::run(a),
         Command::Completions(a) => completions::run(a),
     }

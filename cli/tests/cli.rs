@@ -613,3 +613,126 @@ fn earlier_kind_names_still_work_and_output_is_in_plain_words() {
     assert_eq!(code, 0);
     assert!(kinds.contains("stripline-pair-stacked") && kinds.contains("broadside-stripline"));
 }
+
+#[test]
+fn crosstalk_gives_a_spacing_rule_a_curve_and_a_plot() {
+    let (code, out, err) = ohmstack(&["crosstalk", "-", "--rule", TOP, "--json"], demo());
+    assert_eq!(code, 0, "{err}");
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    let r = &v[0];
+    assert_eq!(r["arrangement"], "line beside line");
+    assert_eq!(r["method"], "2D field solver (boundary elements)");
+    let min = r["min_spacing_m"].as_f64().unwrap();
+    assert!(min > 0.0 && min < 0.01, "{min}");
+    assert!(r["at_min"]["near_end"].as_f64().unwrap().abs() <= 0.02 + 1e-12);
+    assert_eq!(r["curve"].as_array().unwrap().len(), 16);
+    // A looser budget allows a closer neighbour.
+    let (_, out, _) = ohmstack(
+        &["crosstalk", "-", "--rule", TOP, "--budget", "5%", "--json"],
+        demo(),
+    );
+    let loose: serde_json::Value = serde_json::from_str(&out).unwrap();
+    assert!(loose[0]["min_spacing_m"].as_f64().unwrap() < min);
+    // The plot names both ends and the budget.
+    let path = std::env::temp_dir().join(format!("ohmstack-cli-xt-{}.svg", std::process::id()));
+    let p = path.to_str().unwrap();
+    let (code, _, err) = ohmstack(&["crosstalk", "-", "--rule", TOP, "--svg", p], demo());
+    assert_eq!(code, 0, "{err}");
+    let svg = std::fs::read_to_string(&path).unwrap();
+    let _ = std::fs::remove_file(&path);
+    assert!(
+        svg.starts_with("<svg") && svg.contains("near end") && svg.contains("budget 2 %"),
+        "{svg}"
+    );
+    // Bad values name the option.
+    for (args, field) in [
+        (&["crosstalk", "-", "--rise", "5pF"][..], "rise"),
+        (&["crosstalk", "-", "--budget", "80"][..], "budget"),
+        (&["crosstalk", "-", "--length", "0"][..], "length"),
+        (&["crosstalk", "-", "--rule", "nope"][..], "rule"),
+    ] {
+        let (code, _, err) = ohmstack(args, demo());
+        assert_ne!(code, 0);
+        assert!(
+            err.lines().count() == 1 && err.contains(field),
+            "{args:?}: {err}"
+        );
+    }
+}
+
+#[test]
+fn reach_is_the_budget_over_the_loss() {
+    let (code, out, err) = ohmstack(
+        &[
+            "reach", "-", "--rule", TOP, "--link", "PCIe 3.0", "--budget", "10dB", "--fixed", "2",
+            "--json",
+        ],
+        demo(),
+    );
+    assert_eq!(code, 0, "{err}");
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    let r = &v[0]["reach"];
+    assert_eq!(r["options"]["freq_hz"].as_f64().unwrap(), 4e9);
+    let loss = r["loss_db_per_m"].as_f64().unwrap();
+    assert!((r["reach_m"].as_f64().unwrap() - 8.0 / loss).abs() < 1e-12);
+    // The same loss as `loss` reports at that frequency.
+    let (_, out, _) = ohmstack(
+        &["loss", "-", "--rule", TOP, "--freq", "4GHz", "--json"],
+        demo(),
+    );
+    let l: serde_json::Value = serde_json::from_str(&out).unwrap();
+    assert_eq!(
+        l["points"][0]["line"]["total"]["db_per_m"]
+            .as_f64()
+            .unwrap(),
+        loss
+    );
+    for (args, field) in [
+        (&["reach", "-", "--budget", "10"][..], "frequency"),
+        (&["reach", "-", "--nyquist", "4GHz"][..], "budget"),
+        (
+            &["reach", "-", "--link", "nothing like it", "--budget", "3"][..],
+            "link",
+        ),
+        (
+            &["reach", "-", "--rate", "fast", "--budget", "3"][..],
+            "rate",
+        ),
+    ] {
+        let (code, _, err) = ohmstack(args, demo());
+        assert_ne!(code, 0);
+        assert!(
+            err.lines().count() == 1 && err.contains(field),
+            "{args:?}: {err}"
+        );
+    }
+}
+
+#[test]
+fn thickness_puts_the_rule_on_target_and_names_bad_layers() {
+    let (code, out, err) = ohmstack(
+        &["thickness", "-", "--rule", TOP, "--layer", "PP1", "--json"],
+        demo(),
+    );
+    assert_eq!(code, 0, "{err}");
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    assert_eq!(v["kind"], "prepreg");
+    let z = v["impedance_ohm"].as_f64().unwrap();
+    assert!(
+        (z / v["target_ohm"].as_f64().unwrap() - 1.0).abs() < 1e-4,
+        "{v}"
+    );
+    assert!(v["pressed_thickness_m"].as_f64().unwrap() < v["thickness_m"].as_f64().unwrap());
+    for (layer, words) in [
+        ("L2 GND", "copper"),
+        ("Core 2", "does not lie between"),
+        ("nope", "no layer"),
+    ] {
+        let (code, _, err) = ohmstack(&["thickness", "-", "--rule", TOP, "--layer", layer], demo());
+        assert_ne!(code, 0);
+        assert!(
+            err.lines().count() == 1 && err.contains("layer") && err.contains(words),
+            "{layer}: {err}"
+        );
+    }
+}

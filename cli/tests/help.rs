@@ -28,6 +28,9 @@ const COMMANDS: &[&[&str]] = &[
     &["plot"],
     &["loss"],
     &["touchstone"],
+    &["crosstalk"],
+    &["reach"],
+    &["thickness"],
     &["completions"],
 ];
 

@@ -9,7 +9,8 @@ use ohmstack_core::Project;
 
 use crate::args::{Length, Percent, Time};
 use crate::files::read_input;
-use anyhow::{bail, Result};
+use anyhow::{bail, Context, Result};
+use ohmstack_core::output::plot::{line_plot, LinePlot, Series};
 use serde_json::json;
 
 #[derive(clap::Args)]
@@ -40,6 +41,15 @@ pub struct Args {
     /// The coupling at this one spacing instead of the search
     #[arg(long, value_name = "LENGTH", value_parser = Length, allow_hyphen_values = true)]
     pub spacing: Option<f64>,
+    /// Write the noise against spacing, with the budget line, as SVG here (one rule)
+    #[arg(
+        long,
+        value_name = "FILE",
+        requires = "rule",
+        conflicts_with = "spacing",
+        allow_hyphen_values = true
+    )]
+    pub svg: Option<String>,
     /// Print the results as JSON
     #[arg(long)]
     pub json: bool,
@@ -71,6 +81,8 @@ pub fn run(args: Args) -> Result<()> {
         rise_s: args.rise,
         length_m: args.length,
     };
+    // A bad option is the command's error, not one per rule.
+    options.validate()?;
     let rules: Vec<_> = match &args.rule {
         Some(name) => {
             let r: Vec<_> = project.rules.iter().filter(|r| &r.name == name).collect();
@@ -84,6 +96,7 @@ pub fn run(args: Args) -> Result<()> {
     };
     let unit = project.units;
     let mut out = Vec::new();
+    let mut svg_out = None;
     for rule in rules {
         let result = evaluate_rule(&project, rule)?;
         let one = match args.spacing {
@@ -115,6 +128,9 @@ pub fn run(args: Args) -> Result<()> {
                 if !args.json {
                     print_search(&r, &result, unit);
                 }
+                if let Some(svg) = &args.svg {
+                    svg_out = Some((svg.clone(), plot(&r, unit)));
+                }
                 serde_json::to_value(r).unwrap_or_default()
             }),
         };
@@ -134,7 +150,47 @@ pub fn run(args: Args) -> Result<()> {
     if args.json {
         println!("{}", serde_json::to_string_pretty(&out)?);
     }
+    if let Some((file, text)) = svg_out {
+        std::fs::write(&file, text).with_context(|| format!("--svg: writing {file}"))?;
+    }
     Ok(())
+}
+
+/// Near- and far-end noise (% of the swing, magnitudes) against spacing, log spacing axis, with the budget line.
+fn plot(r: &crosstalk::RuleCrosstalk, unit: LengthUnit) -> String {
+    let x = |s: f64| unit.from_m(s);
+    let series = |label: &str, f: &dyn Fn(&CrosstalkPoint) -> f64| Series {
+        label: label.into(),
+        points: r
+            .curve
+            .iter()
+            .map(|p| (x(p.spacing_m), 100.0 * f(p).abs()))
+            .collect(),
+    };
+    let (first, last) = (r.curve[0].spacing_m, r.curve[r.curve.len() - 1].spacing_m);
+    line_plot(&LinePlot {
+        title: format!("{}: crosstalk to a neighbour ({})", r.rule, r.arrangement),
+        x_label: format!("edge-to-edge spacing ({})", unit.symbol()),
+        y_label: "noise (% of the aggressor's swing)".into(),
+        series: vec![
+            series("near end", &|p| p.near_end),
+            series(
+                &format!(
+                    "far end, {} mm run",
+                    format_sig(r.options.length_m * 1e3, 4)
+                ),
+                &|p| p.far_end,
+            ),
+            Series {
+                label: format!("budget {}", pct(r.options.budget)),
+                points: vec![
+                    (x(first), 100.0 * r.options.budget),
+                    (x(last), 100.0 * r.options.budget),
+                ],
+            },
+        ],
+        log_x: true,
+    })
 }
 
 fn heading(

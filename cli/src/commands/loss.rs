@@ -127,7 +127,16 @@ pub fn rule_model(
     foil: &FoilArgs,
     engine: &crate::args::EngineArgs,
 ) -> Result<(Project, String, LineModel)> {
-    let mut project = Project::from_json(&read_input(path)?)?;
+    model_of(Project::from_json(&read_input(path)?)?, name, foil, engine)
+}
+
+/// [`rule_model`] of a project already read.
+pub fn model_of(
+    mut project: Project,
+    name: &str,
+    foil: &FoilArgs,
+    engine: &crate::args::EngineArgs,
+) -> Result<(Project, String, LineModel)> {
     engine.apply(&mut project);
     apply_foil(&mut project, foil)?;
     let Some(rule) = project.rules.iter().find(|r| r.name == name) else {

@@ -17,6 +17,8 @@ pub mod materials;
 pub mod notes;
 pub mod plot;
 pub mod random;
+pub mod reach;
 pub mod share;
 pub mod spread;
+pub mod thickness;
 pub mod touchstone;

@@ -4,3 +4,4 @@
 pub mod crosstalk;
 pub mod dispersion;
 pub mod loss;
+pub mod reach;

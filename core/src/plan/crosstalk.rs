@@ -49,7 +49,8 @@ impl Default for CrosstalkOptions {
 }
 
 impl CrosstalkOptions {
-    fn validate(&self) -> Result<()> {
+    /// Checks each figure against its sensible range; the error names it.
+    pub fn validate(&self) -> Result<()> {
         error::in_range("crosstalk budget", self.budget * 100.0, 0.01, 50.0, "%")?;
         error::in_range("rise time", self.rise_s * 1e12, 1.0, 1e6, "ps")?;
         error::in_range("parallel length", self.length_m * 1e3, 0.01, 2000.0, "mm")?;

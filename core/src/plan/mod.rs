@@ -12,6 +12,7 @@ pub mod case;
 pub mod crosstalk;
 pub mod field_check;
 pub mod field_synth;
+pub mod height;
 pub mod rule;
 pub mod spread;
 pub mod synthesis;

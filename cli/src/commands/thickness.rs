@@ -1,0 +1,64 @@
+//! `ohmstack thickness FILE --rule NAME --layer NAME`: the thickness of one core or prepreg that puts a rule on
+//! target at the width (and spacing) the rule gives — solving the stack instead of the trace.
+
+use ohmstack_core::base::units::format_length;
+use ohmstack_core::plan::height::solve_layer_thickness;
+use ohmstack_core::Project;
+
+use crate::files::read_input;
+use anyhow::{bail, Result};
+
+#[derive(clap::Args)]
+#[command(
+    after_help = "The rule's width (and spacing) are taken as given, whatever it solves for; a prepreg's \
+thickness is the as-bought one, and the pressed thickness in the finished board is shown beside it."
+)]
+pub struct Args {
+    /// Project file (- reads stdin)
+    #[arg(value_name = "FILE")]
+    pub file: String,
+    /// The rule to put on target
+    #[arg(long, value_name = "NAME", allow_hyphen_values = true)]
+    pub rule: String,
+    /// The core or prepreg whose thickness to solve
+    #[arg(long, value_name = "NAME", allow_hyphen_values = true)]
+    pub layer: String,
+    /// Print the result as JSON
+    #[arg(long)]
+    pub json: bool,
+    #[command(flatten)]
+    pub engine: crate::args::EngineArgs,
+}
+
+pub fn run(args: Args) -> Result<()> {
+    let mut project = Project::from_json(&read_input(&args.file)?)?;
+    args.engine.apply(&mut project);
+    let Some(rule) = project.rules.iter().find(|r| r.name == args.rule) else {
+        let names: Vec<&str> = project.rules.iter().map(|r| r.name.as_str()).collect();
+        bail!("--rule: no rule named {:?}; rules are {names:?}", args.rule);
+    };
+    let r = solve_layer_thickness(&project, rule, &args.layer)?;
+    if args.json {
+        println!("{}", serde_json::to_string_pretty(&r)?);
+        return Ok(());
+    }
+    let unit = project.units;
+    println!(
+        "{}: {} {:?} {} (was {}) gives {:.3} Ω against {} Ω ({})",
+        r.rule,
+        r.kind,
+        r.layer,
+        format_length(r.thickness_m, unit),
+        format_length(r.was_m, unit),
+        r.impedance_ohm,
+        r.target_ohm,
+        r.method
+    );
+    if r.kind == "prepreg" {
+        println!(
+            "  pressed in the board: {}",
+            format_length(r.pressed_thickness_m, unit)
+        );
+    }
+    Ok(())
+}
