@@ -63,6 +63,8 @@ enum Command {
     Reach(reach::Args),
     /// The thickness of one core or prepreg that puts a rule on target at its width
     Thickness(thickness::Args),
+    /// A core or prepreg from its glass style, plies and resin: thickness, Dk, Df and weave skew
+    Laminate(laminate::Args),
     /// Touchstone 1.1 S-parameters of a line segment (2-port, or 4-port for a pair)
     Touchstone(touchstone::Args),
     /// Shell completion script for bash, zsh, fish, elvish or PowerShell
@@ -104,6 +106,7 @@ fn run(cli: Cli) -> anyhow::Result<()> {
         Command::Crosstalk(a) => crosstalk::run(a),
         Command::Reach(a) => reach::run(a),
         Command::Thickness(a) => thickness::run(a),
+        Command::Laminate(a) => laminate::run(a),
         Command::Touchstone(a) => touchstone::run(a),
         Command::Completions(a) => completions::run(a),
     }

@@ -736,3 +736,82 @@ fn thickness_puts_the_rule_on_target_and_names_bad_layers() {
         );
     }
 }
+
+#[test]
+fn laminate_reproduces_its_datasheet_point_and_names_bad_inputs() {
+    let (code, out, err) = ohmstack(
+        &[
+            "laminate",
+            "--style",
+            "2116",
+            "--datasheet-dk",
+            "3.9",
+            "--json",
+        ],
+        "",
+    );
+    assert_eq!(code, 0, "{err}");
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    assert!(
+        (v["laminate"]["dk"].as_f64().unwrap() - 3.9).abs() < 1e-12,
+        "{v}"
+    );
+    // More resin: thicker and a lower Dk.
+    let (_, out, _) = ohmstack(
+        &[
+            "laminate",
+            "--style",
+            "2116",
+            "--resin",
+            "60%",
+            "--datasheet-dk",
+            "3.9",
+            "--datasheet-resin",
+            "54",
+            "--json",
+        ],
+        "",
+    );
+    let rich: serde_json::Value = serde_json::from_str(&out).unwrap();
+    assert!(rich["laminate"]["dk"].as_f64().unwrap() < 3.9);
+    assert!(
+        rich["laminate"]["thickness_m"].as_f64().unwrap()
+            > v["laminate"]["thickness_m"].as_f64().unwrap()
+    );
+    let (code, out, _) = ohmstack(&["laminate", "--list"], "");
+    assert_eq!(code, 0);
+    assert!(
+        out.contains("7628") && out.contains("common practice"),
+        "{out}"
+    );
+    for (args, field) in [
+        (
+            &["laminate", "--style", "9999", "--datasheet-dk", "3.9"][..],
+            "glass style",
+        ),
+        (
+            &[
+                "laminate",
+                "--style",
+                "2116",
+                "--datasheet-dk",
+                "3.9",
+                "--plies",
+                "0",
+            ][..],
+            "plies",
+        ),
+        (
+            &["laminate", "--style", "2116", "--datasheet-dk", "9"][..],
+            "datasheet Dk",
+        ),
+        (&["laminate", "--style", "2116"][..], "datasheet-dk"),
+    ] {
+        let (code, _, err) = ohmstack(args, "");
+        assert_ne!(code, 0);
+        assert!(
+            err.lines().count() == 1 && err.contains(field),
+            "{args:?}: {err}"
+        );
+    }
+}

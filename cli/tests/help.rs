@@ -31,6 +31,7 @@ const COMMANDS: &[&[&str]] = &[
     &["crosstalk"],
     &["reach"],
     &["thickness"],
+    &["laminate"],
     &["completions"],
 ];
 

@@ -12,6 +12,7 @@ pub mod field;
 pub mod field_calc;
 pub mod field_solve;
 pub mod kinds;
+pub mod laminate;
 pub mod loss;
 pub mod materials;
 pub mod notes;
