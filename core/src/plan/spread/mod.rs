@@ -1252,7 +1252,7 @@ impl FieldCorrection {
                 etch_factor,
             } => Some(Engine::Field {
                 options: crate::field::boundary::BemOptions {
-                    fine: fit_mesh(options),
+                    fine: options.fit_mesh(),
                     estimate: false,
                     ..*options
                 },
@@ -1398,19 +1398,6 @@ fn not_positive() -> Error {
     Error::Invalid {
         field: "process".into(),
         reason: "the field response is not positive this far from the nominal".into(),
-    }
-}
-
-/// The mesh of the spread's fit: the coarse mesh's grading at corners and along interfaces, the fine mesh's far
-/// out (with the coarse far grading the changes over the box of an embedded pair were 0.09 % off the fine ones,
-/// with this mesh within 0.01 % on every rule of the 12-layer fixture).
-fn fit_mesh(
-    options: &crate::field::boundary::BemOptions,
-) -> crate::field::boundary::mesh::MeshParams {
-    crate::field::boundary::mesh::MeshParams {
-        growth_far: options.fine.growth_far,
-        far: options.fine.far,
-        ..options.coarse
     }
 }
 

@@ -897,7 +897,7 @@ fn the_field_response_is_sampled_within_a_fraction_of_the_tolerance() {
         }
     }
     // Measured 2026-12: worst 0.07 % over the demo's rules × 12 points each with the fit on the fine mesh, 0.086 %
-    // with the fit's changes from the cheaper fit mesh (`fit_mesh`); the spread below: mean within 0.003 %, σ
+    // with the fit's changes from the cheaper fit mesh (`BemOptions::fit_mesh`); the spread below: mean within 0.003 %, σ
     // within 0.3 %. The bounds leave room for other stacks.
     assert!(worst_point < 2e-3, "worst {:.4} %", worst_point * 100.0);
 
