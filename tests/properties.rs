@@ -267,6 +267,7 @@ fn project() -> impl Strategy<Value = Project> {
                     LossOptions::default()
                 };
                 Project {
+                    routing: Default::default(),
                     schema: SCHEMA_VERSION,
                     title: title.to_string(),
                     revision: revision.to_string(),
@@ -342,6 +343,7 @@ proptest! {
             spread_model: if direct { SampleModel::Direct } else { SampleModel::Quadratic },
             field_check: false,
             closed_form_only: false,
+            routing: false,
         };
         let plan = plan_with(&p, &options).unwrap();
         prop_assert_eq!(plan.rules.len(), p.rules.len());

@@ -625,7 +625,7 @@ fn crosstalk_gives_a_spacing_rule_a_curve_and_a_plot() {
     let min = r["min_spacing_m"].as_f64().unwrap();
     assert!(min > 0.0 && min < 0.01, "{min}");
     assert!(r["at_min"]["near_end"].as_f64().unwrap().abs() <= 0.02 + 1e-12);
-    assert_eq!(r["curve"].as_array().unwrap().len(), 12);
+    assert_eq!(r["curve"].as_array().unwrap().len(), 9);
     // A looser budget allows a closer neighbour.
     let (_, out, _) = ohmstack(
         &["crosstalk", "-", "--rule", TOP, "--budget", "5%", "--json"],

@@ -108,6 +108,22 @@ pub fn length_label(metres: f64, unit: LengthUnit) -> String {
     units::format_length(metres, unit)
 }
 
+/// A least length (a spacing rule) with its unit, rounded up to the grid the unit is written on
+/// (`units::length_number`): a minimum shown rounded down would allow less than it says.
+pub fn min_length_label(metres: f64, unit: LengthUnit) -> String {
+    let value = unit.from_m(metres);
+    let step = match unit {
+        LengthUnit::Um if value < 10.0 => 0.1,
+        LengthUnit::Um => 1.0,
+        LengthUnit::Mm => 1e-3,
+        LengthUnit::Mil => 0.01,
+        LengthUnit::In => 1e-4,
+    };
+    // A hair of slack so a value already on the grid (to rounding) is not pushed up a step.
+    let up = ((value / step) - 1e-9).ceil() * step;
+    units::format_length(unit.to_m(up), unit)
+}
+
 /// A frequency in GHz as editable text.
 pub fn ghz_text(hz: f64) -> String {
     format_sig(hz / 1e9, 6)
@@ -189,6 +205,18 @@ pub fn z_common(result: &RuleResult) -> Option<f64> {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn a_least_length_is_rounded_up_to_the_display_grid() {
+        assert_eq!(min_length_label(777.2e-6, LengthUnit::Um), "778 µm");
+        assert_eq!(min_length_label(778e-6, LengthUnit::Um), "778 µm");
+        assert_eq!(min_length_label(5.04e-6, LengthUnit::Um), "5.1 µm");
+        assert_eq!(min_length_label(0.20011e-3, LengthUnit::Mm), "0.201 mm");
+        assert_eq!(
+            min_length_label(5.001 * 25.4e-6, LengthUnit::Mil),
+            "5.01 mil"
+        );
+    }
 
     #[test]
     fn bare_numbers_take_the_display_unit() {

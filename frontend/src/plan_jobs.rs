@@ -81,6 +81,7 @@ pub fn rule_key(project: &Project, rule: &ImpedanceRule, options: &PlanOptions) 
         format!("{:?}", options.spread_model),
         options.field_check,
         options.closed_form_only,
+        options.routing,
     );
     // Serialising plain data cannot fail; an empty key would only cost a recomputation.
     serde_json::to_string(&(slice, options)).unwrap_or_default()
@@ -307,6 +308,7 @@ impl Planner {
         let key = rule_key(&job.project, rule, &self.options);
         let nominal = PlanOptions {
             spread_samples: 0,
+            routing: false,
             ..self.options
         };
         // The nominal figures are cached too, under their own options: a request with the spread after a pause in
@@ -385,6 +387,7 @@ impl Landed {
         let full = options();
         let nominal = PlanOptions {
             spread_samples: 0,
+            routing: false,
             ..full
         };
         self.current = generation;
@@ -698,10 +701,12 @@ mod tests {
                     if *complete {
                         assert_eq!(**outcome, whole.rules[*index]);
                     } else {
-                        // The nominal figures: everything but the spread, already on the field engine's word.
+                        // The nominal figures: everything but the spread and the routing figures, already on the
+                        // field engine's word.
                         let mut expected = whole.rules[*index].clone();
                         if let RuleOutcome::Ok(r) = &mut expected {
                             r.spread = None;
+                            r.routing = None;
                             r.warnings
                                 .retain(|w| !w.message.starts_with("tolerance spread"));
                         }

@@ -76,6 +76,7 @@ fuzz_target!(|data: &[u8]| {
         },
         field_check: false,
         closed_form_only: n.bool(),
+        routing: false,
     };
     if let Ok(plan) = plan_with(&project, &options) {
         let notes = report::fab_notes(&project, &plan, None);

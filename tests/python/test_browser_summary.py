@@ -47,7 +47,9 @@ def test_summary_is_above_the_fold_and_agrees_with_the_core(driver):
     print(f"summary bottom at {bottom:.0f} px of a {height} px viewport")
     assert bottom <= height, (bottom, height)
     for row, rule in zip(shown, plan["rules"]):
-        name, layer, geometry, z_text, deviation, verdict, engine = row["cells"]
+        name, layer, geometry, neighbour, z_text, deviation, verdict, engine = row["cells"]
+        # The routing rule lands with the settled plan: pending, a least spacing, or none for this structure.
+        assert neighbour in ("…", "—") or neighbour.startswith("≥ "), neighbour
         assert row["bottom"] <= height
         assert name == rule["name"] and layer == rule["layer"]
         m = Z_TEXT.match(z_text)

@@ -127,6 +127,7 @@ pub fn project(
     }
     let partner_layer = (structure == Structure::BroadsidePair).then(|| "other signal".to_string());
     Project {
+        routing: Default::default(),
         schema: SCHEMA_VERSION,
         title: "built stack".into(),
         revision: String::new(),

@@ -127,6 +127,7 @@ pub fn project() -> Project {
     );
     rf.gap_m = Some(145e-6);
     Project {
+        routing: Default::default(),
         schema: SCHEMA_VERSION,
         title: "Buoy sensor gateway, 6 layers".into(),
         revision: "A".into(),

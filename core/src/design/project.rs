@@ -251,9 +251,70 @@ pub struct Project {
     /// Process variation for tolerance spread; `None` takes the common-practice defaults of [`Process::default`].
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub process: Option<Process>,
+    /// What the routing figures (spacing for crosstalk, reach) are judged against; the common-practice defaults
+    /// when absent, so files and links from before it open unchanged.
+    #[serde(default, skip_serializing_if = "Routing::is_default")]
+    pub routing: Routing,
     pub stackup: Stackup,
     #[serde(default)]
     pub rules: Vec<ImpedanceRule>,
+}
+
+/// The budgets behind each rule's routing figures.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Routing {
+    /// Largest near- or far-end noise from one identical neighbour, % of the aggressor's swing.
+    #[serde(default = "two")]
+    pub crosstalk_budget_pct: f64,
+    /// Aggressor rise time (10–90 %), s.
+    #[serde(default = "fifty_ps")]
+    pub rise_s: f64,
+    /// Length two neighbours run side by side, m.
+    #[serde(default = "quarter_decimetre")]
+    pub parallel_m: f64,
+    /// The links' loss budget for every rule's reach; no reach without it.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub link: Option<LinkBudget>,
+}
+
+/// A serial link's insertion-loss budget at its Nyquist frequency.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct LinkBudget {
+    pub nyquist_hz: f64,
+    pub budget_db: f64,
+    /// Losses outside the traces (connectors, vias, packages), dB.
+    #[serde(default)]
+    pub fixed_db: f64,
+}
+
+fn two() -> f64 {
+    2.0
+}
+fn fifty_ps() -> f64 {
+    50e-12
+}
+fn quarter_decimetre() -> f64 {
+    25e-3
+}
+
+impl Default for Routing {
+    /// Common practice, no source: 2 % per neighbour, 50 ps edges, 25 mm side by side.
+    fn default() -> Self {
+        Routing {
+            crosstalk_budget_pct: two(),
+            rise_s: fifty_ps(),
+            parallel_m: quarter_decimetre(),
+            link: None,
+        }
+    }
+}
+
+impl Routing {
+    pub fn is_default(&self) -> bool {
+        *self == Routing::default()
+    }
 }
 
 /// Schema 1 → 2: a rule without `model` meant the closed form; in schema 2 it means the field engine. The
@@ -366,6 +427,33 @@ impl Project {
             error::in_range("fab.etch_factor", ef, 0.5, 100.0, "")?;
         }
         self.loss.validate()?;
+        let r = &self.routing;
+        error::in_range(
+            "routing.crosstalk_budget",
+            r.crosstalk_budget_pct,
+            0.01,
+            50.0,
+            "%",
+        )?;
+        error::in_range("routing.rise_time", r.rise_s * 1e12, 1.0, 1e6, "ps")?;
+        error::in_range(
+            "routing.parallel_length",
+            r.parallel_m * 1e3,
+            0.01,
+            2000.0,
+            "mm",
+        )?;
+        if let Some(l) = r.link {
+            error::in_range(
+                "routing.link.nyquist",
+                l.nyquist_hz / 1e9,
+                0.001,
+                1000.0,
+                "GHz",
+            )?;
+            error::in_range("routing.link.budget", l.budget_db, 0.01, 200.0, "dB")?;
+            error::in_range("routing.link.fixed_loss", l.fixed_db, 0.0, 200.0, "dB")?;
+        }
         if let Some(tol) = self.fab.thickness_tolerance_pct {
             error::in_range("fab.thickness_tolerance", tol, 0.0, 50.0, "%")?;
         }

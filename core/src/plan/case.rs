@@ -368,6 +368,7 @@ pub fn project(
         None => CASE_MIN_FEATURE_M,
     };
     let project = Project {
+        routing: Default::default(),
         schema: SCHEMA_VERSION,
         title: kind.to_string(),
         revision: String::new(),

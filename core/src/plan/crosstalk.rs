@@ -23,7 +23,7 @@ pub const DEFAULT_RISE_S: f64 = 50e-12;
 /// Default parallel run of two neighbours, m (common practice, no source).
 pub const DEFAULT_LENGTH_M: f64 = 25e-3;
 /// Points of the noise-against-spacing curve (geometric from the fabricator's minimum space to the widest).
-const CURVE_POINTS: usize = 12;
+const CURVE_POINTS: usize = 9;
 /// The widest spacing searched, in units of the larger of the trace width and the local board thickness.
 const WIDEST: f64 = 20.0;
 

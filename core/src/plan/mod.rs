@@ -13,6 +13,7 @@ pub mod crosstalk;
 pub mod field_check;
 pub mod field_synth;
 pub mod height;
+pub mod routing;
 pub mod rule;
 pub mod spread;
 pub mod synthesis;
@@ -63,6 +64,9 @@ pub struct PlanOptions {
     /// Every rule on the closed form whatever its model: the instant first figures shown while the field engine
     /// works (see [`PlanOptions::preview`]).
     pub closed_form_only: bool,
+    /// Also each rule's routing figures: the spacing to a neighbour for the crosstalk budget and the reach for the
+    /// link's loss budget ([`RuleResult::routing`], judged against [`crate::design::project::Routing`]).
+    pub routing: bool,
 }
 
 impl Default for PlanOptions {
@@ -74,13 +78,14 @@ impl Default for PlanOptions {
             spread_model: SampleModel::Quadratic,
             field_check: false,
             closed_form_only: false,
+            routing: false,
         }
     }
 }
 
 impl PlanOptions {
-    /// Nominal figures plus the tolerance spread with the default sample count and seed, and the field engine's
-    /// check of every closed-form rule.
+    /// Nominal figures plus the tolerance spread with the default sample count and seed, the field engine's
+    /// check of every closed-form rule, and the routing figures.
     pub fn with_spread() -> Self {
         PlanOptions {
             spread_samples: spread::DEFAULT_SAMPLES,
@@ -88,6 +93,7 @@ impl PlanOptions {
             spread_model: SampleModel::Quadratic,
             field_check: true,
             closed_form_only: false,
+            routing: true,
         }
     }
 
@@ -228,6 +234,9 @@ fn outcome(
                         .warnings
                         .push(Warning::new(format!("field engine check: {e}"))),
                 }
+            }
+            if options.routing {
+                r.routing = Some(routing::for_result(project, rule, &r));
             }
             if options.spread_samples > 0 {
                 let opts = SpreadOptions {

@@ -80,6 +80,10 @@ pub struct RuleResult {
     /// Tolerance spread and yield, when asked for with [`PlanOptions::spread_samples`].
     #[serde(skip_serializing_if = "Option::is_none")]
     pub spread: Option<SpreadSummary>,
+    /// The spacing to a neighbour for the crosstalk budget and the reach for the link's loss budget, when asked
+    /// for with [`crate::PlanOptions::routing`].
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub routing: Option<crate::plan::routing::RuleRouting>,
     /// Set when the target could not be reached: these figures are the nearest reachable design, at the bound
     /// that stopped the solve ([`crate::plan::plan_rule_or_nearest`]).
     #[serde(default, skip_serializing_if = "Option::is_none")]
@@ -464,6 +468,7 @@ pub fn rule_figures(
         cross_section: cs,
         warnings,
         spread: None,
+        routing: None,
         unreached: None,
     }
 }

@@ -269,6 +269,7 @@ fn results(i: usize, r: &RuleResult, project: &Project, state: RowState) -> Html
                     }
                 </p>
             }
+            { routing(i, r, unit) }
             <div class="rule-notes">
                 { verdict }
                 <span class="family">{ format!("{} · {}", r.description, r.method) }</span>
@@ -280,6 +281,51 @@ fn results(i: usize, r: &RuleResult, project: &Project, state: RowState) -> Html
                 { notes(i, r) }
             </div>
         </div>
+    }
+}
+
+/// The routing rule beside the width: the least spacing to an identical neighbour for the board's crosstalk budget,
+/// and the reach for its link budget when one is set (each, or why there is none).
+fn routing(i: usize, r: &RuleResult, unit: ohmstack_core::base::units::LengthUnit) -> Html {
+    let Some(rt) = &r.routing else {
+        return html! {};
+    };
+    let spacing = match (&rt.spacing, &rt.spacing_note) {
+        (Some(sp), _) => match sp.min_spacing_m {
+            Some(s) => html! {
+                <span data-testid={format!("rule-{i}-neighbour-spacing")} data-value={s.to_string()}>
+                    { format!("Spacing to a neighbouring {} ≥ {} for ≤ {} % crosstalk ({} sets it: {} mm side by side, {} ps edges)",
+                        if sp.arrangement.starts_with("pair") { "pair" } else { "trace" },
+                        bridge::min_length_label(s, unit), format_sig(sp.budget * 100.0, 3), sp.limited_by,
+                        format_sig(sp.parallel_m * 1e3, 4), format_sig(sp.rise_s * 1e12, 3)) }
+                </span>
+            },
+            None => html! {
+                <span class="bad" data-testid={format!("rule-{i}-neighbour-spacing")}>
+                    { format!("No spacing searched keeps a neighbour within {} % crosstalk", format_sig(sp.budget * 100.0, 3)) }
+                </span>
+            },
+        },
+        (None, Some(note)) => html! {
+            <span class="muted" data-testid={format!("rule-{i}-neighbour-spacing")}>{ format!("No spacing rule: {note}") }</span>
+        },
+        (None, None) => html! {},
+    };
+    let reach = match &rt.reach {
+        Some(x) => html! {
+            <span data-testid={format!("rule-{i}-reach")} data-value={x.reach_m.map(|m| m.to_string()).unwrap_or_default()}>
+                { match x.reach_m {
+                    Some(m) => format!(" · reach {} mm at {} GHz ({} dB budget, {} dB fixed; {} dB/in)",
+                        format_sig(m * 1e3, 4), format_sig(x.nyquist_hz / 1e9, 4), format_sig(x.budget_db, 4),
+                        format_sig(x.fixed_db, 4), format_sig(x.loss_db_per_m * 0.0254, 3)),
+                    None => format!(" · the fixed {} dB spend the {} dB link budget", format_sig(x.fixed_db, 4), format_sig(x.budget_db, 4)),
+                } }
+            </span>
+        },
+        None => html! {},
+    };
+    html! {
+        <p class="routing-detail" data-testid={format!("rule-{i}-routing")}>{ spacing }{ reach }</p>
     }
 }
 

@@ -25,6 +25,9 @@ pub struct SummaryRow {
     pub layer: String,
     /// "144 µm" or "139 µm / 150 µm" (width / spacing).
     pub geometry: String,
+    /// The routing rule: "≥ 780 µm" to an identical neighbour for the crosstalk budget, "—" where none applies
+    /// (coplanar ground copper, a broadside pair), "…" while it is being computed.
+    pub neighbour: String,
     /// "50.00 Ω (target 50 ± 10 %)".
     pub impedance: String,
     /// Signed deviation from the target, "+0.4 %".
@@ -76,10 +79,21 @@ pub fn summarize(plan: &Plan, unit: LengthUnit) -> Summary {
                 if let Some(s) = r.spacing_m {
                     geometry.push_str(&format!(" / {}", format_length(s, unit)));
                 }
+                let neighbour = match &r.routing {
+                    None => "…".to_string(),
+                    Some(rt) => match &rt.spacing {
+                        Some(sp) => match sp.min_spacing_m {
+                            Some(s) => format!("≥ {}", crate::bridge::min_length_label(s, unit)),
+                            None => "none within budget".to_string(),
+                        },
+                        None => "—".to_string(),
+                    },
+                };
                 SummaryRow {
                     name: r.name.clone(),
                     layer: r.layer.clone(),
                     geometry,
+                    neighbour,
                     impedance: format!(
                         "{z:.2} Ω (target {} ± {} %{})",
                         format_sig(r.target_ohm, 4),
@@ -105,6 +119,7 @@ pub fn summarize(plan: &Plan, unit: LengthUnit) -> Summary {
                 name: name.clone(),
                 layer: String::new(),
                 geometry: String::new(),
+                neighbour: String::new(),
                 impedance: String::new(),
                 deviation: String::new(),
                 verdict: Verdict::Failed,
@@ -194,7 +209,9 @@ pub fn SummaryPanel(props: &SummaryProps) -> Html {
             <table class="summary-table">
                 <thead><tr>
                     <th scope="col">{ "Net class" }</th><th scope="col">{ "Layer" }</th>
-                    <th scope="col">{ "Width / spacing" }</th><th scope="col">{ "Z" }</th>
+                    <th scope="col">{ "Width / spacing" }</th>
+                    <th scope="col" title="least edge-to-edge spacing to an identical neighbour for the board's crosstalk budget">{ "Neighbour spacing" }</th>
+                    <th scope="col">{ "Z" }</th>
                     <th scope="col">{ "Deviation" }</th><th scope="col">{ "Verdict" }</th><th scope="col">{ "Engine" }</th>
                 </tr></thead>
                 <tbody>
@@ -202,10 +219,11 @@ pub fn SummaryPanel(props: &SummaryProps) -> Html {
                     <tr data-testid={format!("summary-row-{i}")} data-verdict={format!("{:?}", r.verdict).to_lowercase()}>
                         <td>{ r.name.clone() }</td>
                         if let Some(e) = &r.error {
-                            <td colspan="4" class="error">{ e.clone() }</td>
+                            <td colspan="5" class="error">{ e.clone() }</td>
                         } else {
                             <td>{ r.layer.clone() }</td>
                             <td class="num">{ r.geometry.clone() }</td>
+                            <td class="num" data-testid={format!("summary-neighbour-{i}")}>{ r.neighbour.clone() }</td>
                             <td class="num">{ r.impedance.clone() }</td>
                             <td class="num">{ r.deviation.clone() }</td>
                         }

@@ -49,6 +49,7 @@ fn rule(layer: &str, target: f64) -> ImpedanceRule {
 /// Surface microstrip on a 200 µm core, solved for 50 Ω.
 fn surface(process: Option<Process>) -> Project {
     Project {
+        routing: Default::default(),
         schema: SCHEMA_VERSION,
         title: "surface microstrip test".into(),
         revision: String::new(),

@@ -1,0 +1,178 @@
+//! A planned rule's routing figures: the least spacing to an identical neighbour that keeps crosstalk inside the
+//! project's budget ([`crate::plan::crosstalk`]) and, when the project names a link budget, the longest run inside
+//! it ([`crate::line::reach`]). What the rule cards and the fab notes show beside the width.
+
+use crate::design::project::{ImpedanceRule, Project};
+use crate::line::reach::{self, ReachOptions};
+use crate::plan::crosstalk::{self, CrosstalkOptions};
+use crate::plan::RuleResult;
+use serde::{Deserialize, Serialize};
+
+/// A rule's routing figures, each with the reason when it has none.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct RuleRouting {
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub spacing: Option<SpacingRule>,
+    /// Why there is no spacing rule (a coplanar line's ground copper, a broadside pair, a failed solve).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub spacing_note: Option<String>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub reach: Option<ReachRule>,
+    /// Why there is no reach (no link budget in the project, or no loss model for the line).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub reach_note: Option<String>,
+}
+
+/// The least edge-to-edge spacing to an identical neighbour inside the crosstalk budget.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct SpacingRule {
+    /// "line beside line" or "pair beside pair".
+    pub arrangement: String,
+    /// `None` when even the widest spacing searched misses the budget.
+    pub min_spacing_m: Option<f64>,
+    /// "near end" or "far end".
+    pub limited_by: String,
+    pub near_end: f64,
+    pub far_end: f64,
+    pub budget: f64,
+    pub rise_s: f64,
+    pub parallel_m: f64,
+    pub method: String,
+}
+
+/// The longest matched run inside the link's loss budget.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct ReachRule {
+    pub nyquist_hz: f64,
+    pub loss_db_per_m: f64,
+    pub budget_db: f64,
+    pub fixed_db: f64,
+    /// `None` when the fixed losses alone spend the budget.
+    pub reach_m: Option<f64>,
+    /// "line" or "differential (odd mode)".
+    pub signal: String,
+}
+
+/// The routing figures of a planned rule against the project's [`crate::design::project::Routing`].
+pub fn for_result(project: &Project, rule: &ImpedanceRule, result: &RuleResult) -> RuleRouting {
+    let r = &project.routing;
+    let options = CrosstalkOptions {
+        budget: r.crosstalk_budget_pct / 100.0,
+        rise_s: r.rise_s,
+        length_m: r.parallel_m,
+    };
+    let (spacing, spacing_note) = match crosstalk::rule_crosstalk(project, rule, result, &options) {
+        Ok(x) => (
+            Some(SpacingRule {
+                arrangement: x.arrangement.into(),
+                min_spacing_m: x.min_spacing_m,
+                limited_by: x.limited_by.into(),
+                near_end: x.at_min.near_end,
+                far_end: x.at_min.far_end,
+                budget: options.budget,
+                rise_s: options.rise_s,
+                parallel_m: options.length_m,
+                method: x.method.into(),
+            }),
+            None,
+        ),
+        Err(e) => (None, Some(e.to_string())),
+    };
+    let (reach, reach_note) = match r.link {
+        None => (None, Some("no link budget set for the board".to_string())),
+        Some(link) => {
+            let figures = crate::plan::rule::loss_model(project, rule, result).and_then(|model| {
+                reach::reach(
+                    &model,
+                    &ReachOptions {
+                        freq_hz: link.nyquist_hz,
+                        budget_db: link.budget_db,
+                        fixed_db: link.fixed_db,
+                    },
+                )
+            });
+            match figures {
+                Ok(x) => (
+                    Some(ReachRule {
+                        nyquist_hz: link.nyquist_hz,
+                        loss_db_per_m: x.loss_db_per_m,
+                        budget_db: link.budget_db,
+                        fixed_db: link.fixed_db,
+                        reach_m: x.reach_m,
+                        signal: x.signal.into(),
+                    }),
+                    None,
+                ),
+                Err(e) => (None, Some(e.to_string())),
+            }
+        }
+    };
+    RuleRouting {
+        spacing,
+        spacing_note,
+        reach,
+        reach_note,
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::design::project::LinkBudget;
+
+    #[test]
+    fn the_plan_carries_each_rules_spacing_and_reach() {
+        let mut p = crate::design::demo::project();
+        p.routing.link = Some(LinkBudget {
+            nyquist_hz: 5e9,
+            budget_db: 10.0,
+            fixed_db: 2.0,
+        });
+        let options = crate::PlanOptions {
+            routing: true,
+            ..crate::PlanOptions::default()
+        };
+        let plan = crate::plan_with(&p, &options).unwrap();
+        let mut spacings = 0;
+        for (rule, outcome) in p.rules.iter().zip(&plan.rules) {
+            let r = outcome.ok().unwrap();
+            let rt = r.routing.as_ref().unwrap();
+            // The same figures the standalone search gives (`ohmstack crosstalk`).
+            match crate::plan::crosstalk::rule_crosstalk(&p, rule, r, &CrosstalkOptions::default())
+            {
+                Ok(x) => {
+                    assert_eq!(rt.spacing.as_ref().unwrap().min_spacing_m, x.min_spacing_m);
+                    spacings += 1;
+                }
+                Err(e) => assert_eq!(rt.spacing_note.as_deref(), Some(e.to_string().as_str())),
+            }
+            let reach = rt.reach.as_ref().unwrap();
+            assert!((reach.reach_m.unwrap() - 8.0 / reach.loss_db_per_m).abs() < 1e-12);
+        }
+        assert!(spacings >= 3, "{spacings}");
+        // Without a link budget the reach says why; without the option nothing is computed.
+        let plain = crate::plan_with(&crate::design::demo::project(), &options).unwrap();
+        let rt = plain.rules[0].ok().unwrap().routing.clone().unwrap();
+        assert!(rt.reach.is_none() && rt.reach_note.unwrap().contains("link budget"));
+        let nominal = crate::plan_with(&p, &crate::PlanOptions::default()).unwrap();
+        assert!(nominal.rules[0].ok().unwrap().routing.is_none());
+    }
+
+    #[test]
+    fn routing_settings_are_optional_in_files_and_checked_by_name() {
+        let p = crate::design::demo::project();
+        let text = serde_json::to_string(&p).unwrap();
+        assert!(
+            !text.contains("routing"),
+            "defaults are not written: old files and links stay as they were"
+        );
+        let mut v: serde_json::Value = serde_json::from_str(&text).unwrap();
+        v["routing"] = serde_json::json!({"crosstalk_budget_pct": 80, "link": {"nyquist_hz": 8e9, "budget_db": 12}});
+        let e = Project::from_json(&v.to_string()).unwrap_err().to_string();
+        assert!(e.contains("routing.crosstalk_budget"), "{e}");
+        v["routing"]["crosstalk_budget_pct"] = serde_json::json!(3);
+        let p = Project::from_json(&v.to_string()).unwrap();
+        assert_eq!(p.routing.link.unwrap().fixed_db, 0.0);
+        assert_eq!(p.routing.rise_s, 50e-12);
+    }
+}
