@@ -110,6 +110,36 @@ core_parser!(
     NumberText -> String = |f, t| parse_number(f, t, &[]).map(|_| t.to_string())
 );
 
+/// The position of the rule called `name`, or an error for `--rule` that lists the project's rules.
+pub fn rule_index(project: &ohmstack_core::Project, name: &str) -> anyhow::Result<usize> {
+    project
+        .rules
+        .iter()
+        .position(|r| r.name == name)
+        .ok_or_else(|| {
+            let names: Vec<String> = project
+                .rules
+                .iter()
+                .map(|r| format!("{:?}", r.name))
+                .collect();
+            anyhow::anyhow!(
+                "--rule: no rule named {name:?}; the project's rules are {}",
+                names.join(", ")
+            )
+        })
+}
+
+/// The rules `--rule` picks: the one named, or every rule.
+pub fn chosen_rules<'a>(
+    project: &'a ohmstack_core::Project,
+    only: Option<&str>,
+) -> anyhow::Result<Vec<&'a ohmstack_core::design::project::ImpedanceRule>> {
+    match only {
+        Some(name) => Ok(vec![&project.rules[rule_index(project, name)?]]),
+        None => Ok(project.rules.iter().collect()),
+    }
+}
+
 /// A whole number (`10000`); surrounding blanks are allowed.
 pub fn whole<T: std::str::FromStr>(text: &str) -> Result<T, String> {
     text.trim()

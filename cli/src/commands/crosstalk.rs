@@ -9,7 +9,7 @@ use ohmstack_core::Project;
 
 use crate::args::{Length, Percent, Time};
 use crate::files::read_input;
-use anyhow::{bail, Context, Result};
+use anyhow::{Context, Result};
 use ohmstack_core::output::plot::{line_plot, LinePlot, Series};
 use serde_json::json;
 
@@ -83,17 +83,7 @@ pub fn run(args: Args) -> Result<()> {
     };
     // A bad option is the command's error, not one per rule.
     options.validate()?;
-    let rules: Vec<_> = match &args.rule {
-        Some(name) => {
-            let r: Vec<_> = project.rules.iter().filter(|r| &r.name == name).collect();
-            if r.is_empty() {
-                let names: Vec<&str> = project.rules.iter().map(|r| r.name.as_str()).collect();
-                bail!("--rule: no rule named {name:?}; rules are {names:?}");
-            }
-            r
-        }
-        None => project.rules.iter().collect(),
-    };
+    let rules = crate::args::chosen_rules(&project, args.rule.as_deref())?;
     let unit = project.units;
     let mut out = Vec::new();
     let mut svg_out = None;

@@ -4,7 +4,7 @@ use ohmstack_core::output::draw::cross_section_svg;
 use ohmstack_core::Project;
 
 use crate::files::{read_input, write_svg};
-use anyhow::{anyhow, Result};
+use anyhow::Result;
 
 #[derive(clap::Args)]
 pub struct Args {
@@ -25,13 +25,7 @@ pub fn run(args: Args) -> Result<()> {
     let mut project = Project::from_json(&read_input(&args.file)?)?;
     args.engine.apply(&mut project);
     let rule_idx = match &args.rule {
-        Some(name) => Some(
-            project
-                .rules
-                .iter()
-                .position(|r| &r.name == name)
-                .ok_or_else(|| anyhow!("--rule: no rule named {name:?}"))?,
-        ),
+        Some(name) => Some(crate::args::rule_index(&project, name)?),
         None => None,
     };
     let svg = cross_section_svg(&project, rule_idx)?;

@@ -139,17 +139,7 @@ pub fn model_of(
 ) -> Result<(Project, String, LineModel)> {
     engine.apply(&mut project);
     apply_foil(&mut project, foil)?;
-    let Some(rule) = project.rules.iter().find(|r| r.name == name) else {
-        let names: Vec<&str> = project.rules.iter().map(|r| r.name.as_str()).collect();
-        bail!(
-            "--rule: no rule named {name:?}; the project's rules are {}",
-            names
-                .iter()
-                .map(|n| format!("{n:?}"))
-                .collect::<Vec<_>>()
-                .join(", ")
-        );
-    };
+    let rule = &project.rules[crate::args::rule_index(&project, name)?];
     let result = evaluate_rule(&project, rule)?;
     // The model the plan made for this result (the app's plots and downloads rebuild the same one).
     let model = ohmstack_core::plan::rule::loss_model(&project, rule, &result)?;

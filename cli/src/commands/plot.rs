@@ -5,7 +5,7 @@ use ohmstack_core::output::plot::{line_plot, z_vs_width, LinePlot, Series};
 use ohmstack_core::Project;
 
 use crate::files::{read_input, write_svg};
-use anyhow::{anyhow, Result};
+use anyhow::Result;
 
 /// Points of the curve: a whole number from 2 to 1000.
 fn points(text: &str) -> Result<usize, String> {
@@ -40,11 +40,7 @@ pub fn run(args: Args) -> Result<()> {
     let name = args.rule;
     let mut project = Project::from_json(&read_input(&args.file)?)?;
     args.engine.apply(&mut project);
-    let idx = project
-        .rules
-        .iter()
-        .position(|r| r.name == name)
-        .ok_or_else(|| anyhow!("--rule: no rule named {name:?}"))?;
+    let idx = crate::args::rule_index(&project, &name)?;
     let pts = z_vs_width(&project, idx, args.points)?;
     if args.json {
         println!("{}", serde_json::to_string(&pts)?);

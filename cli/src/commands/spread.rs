@@ -69,17 +69,7 @@ pub fn run(args: Args) -> Result<()> {
     }
     let mut project = Project::from_json(&text)?;
     args.engine.apply(&mut project);
-    let rules: Vec<_> = match &only {
-        Some(name) => {
-            let r: Vec<_> = project.rules.iter().filter(|r| &r.name == name).collect();
-            if r.is_empty() {
-                let names: Vec<&str> = project.rules.iter().map(|r| r.name.as_str()).collect();
-                bail!("--rule: no rule named {name:?}; rules are {names:?}");
-            }
-            r
-        }
-        None => project.rules.iter().collect(),
-    };
+    let rules = crate::args::chosen_rules(&project, only.as_deref())?;
     let opts = SpreadOptions {
         samples,
         seed,

@@ -6,7 +6,7 @@ use ohmstack_core::plan::height::solve_layer_thickness;
 use ohmstack_core::Project;
 
 use crate::files::read_input;
-use anyhow::{bail, Result};
+use anyhow::Result;
 
 #[derive(clap::Args)]
 #[command(
@@ -33,10 +33,7 @@ pub struct Args {
 pub fn run(args: Args) -> Result<()> {
     let mut project = Project::from_json(&read_input(&args.file)?)?;
     args.engine.apply(&mut project);
-    let Some(rule) = project.rules.iter().find(|r| r.name == args.rule) else {
-        let names: Vec<&str> = project.rules.iter().map(|r| r.name.as_str()).collect();
-        bail!("--rule: no rule named {:?}; rules are {names:?}", args.rule);
-    };
+    let rule = &project.rules[crate::args::rule_index(&project, &args.rule)?];
     let r = solve_layer_thickness(&project, rule, &args.layer)?;
     if args.json {
         println!("{}", serde_json::to_string_pretty(&r)?);
