@@ -202,6 +202,39 @@ impl ProcessField {
     }
 }
 
+/// An editable figure of the routing budgets (`project.routing`).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash)]
+pub enum RoutingField {
+    /// Crosstalk budget per neighbour, %.
+    CrosstalkBudget,
+    /// Aggressor rise time, ps.
+    Rise,
+    /// Side-by-side run, in the display unit.
+    Parallel,
+    /// The link's Nyquist frequency, GHz (blank: no link budget, no reach).
+    LinkNyquist,
+    /// The link's loss budget, dB.
+    LinkBudget,
+    /// Fixed losses, dB.
+    LinkFixed,
+}
+
+impl RoutingField {
+    pub fn key(self) -> &'static str {
+        match self {
+            RoutingField::CrosstalkBudget => "crosstalk-budget",
+            RoutingField::Rise => "rise-time",
+            RoutingField::Parallel => "parallel-length",
+            RoutingField::LinkNyquist => "link-nyquist",
+            RoutingField::LinkBudget => "link-budget",
+            RoutingField::LinkFixed => "link-fixed",
+        }
+    }
+}
+
+/// Link budget a Nyquist frequency starts with before the user sets one, dB (a round figure, not a standard's).
+pub const STARTING_LINK_BUDGET_DB: f64 = 10.0;
+
 /// An editable text field of a rule.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash)]
 pub enum RuleField {
@@ -224,6 +257,7 @@ pub enum Field {
     Layer(usize, LayerField),
     Rule(usize, RuleField),
     Process(ProcessField),
+    Routing(RoutingField),
 }
 
 impl Field {
@@ -250,6 +284,7 @@ impl Field {
                     LayerField::TolDk => "tol-dk",
                 }
             ),
+            Field::Routing(r) => format!("routing-{}", r.key()),
             Field::Process(p) => match p {
                 ProcessField::Tol(_) => p.key(),
                 _ => format!("fab-{}", p.key()),
@@ -822,6 +857,51 @@ impl State {
         p.validate().map_err(|e| e.to_string())
     }
 
+    /// A routing budget from its text; the project's own check names the figure when it is out of range.
+    fn routing_text(p: &mut Project, f: RoutingField, text: &str) -> Result<(), String> {
+        use ohmstack_core::design::project::LinkBudget;
+        let r = &mut p.routing;
+        let number = |what: &str, suffixes: &[&str]| bridge::parse_number(what, text, suffixes);
+        match f {
+            RoutingField::CrosstalkBudget => {
+                r.crosstalk_budget_pct = number("crosstalk budget", &["%"])?
+            }
+            RoutingField::Rise => r.rise_s = number("rise time", &["ps"])? * 1e-12,
+            RoutingField::Parallel => {
+                r.parallel_m = bridge::parse_length("parallel length", text, p.units)?
+            }
+            RoutingField::LinkNyquist if text.trim().is_empty() => r.link = None,
+            RoutingField::LinkNyquist => {
+                let f = bridge::parse_frequency_ghz("link Nyquist frequency", text)?;
+                let old = r.link;
+                r.link = Some(LinkBudget {
+                    nyquist_hz: f,
+                    budget_db: old.map_or(STARTING_LINK_BUDGET_DB, |l| l.budget_db),
+                    fixed_db: old.map_or(0.0, |l| l.fixed_db),
+                });
+            }
+            RoutingField::LinkBudget | RoutingField::LinkFixed => {
+                let Some(link) = r.link.as_mut() else {
+                    return Err("link budget: set the link's Nyquist frequency first".into());
+                };
+                let v = number(
+                    if f == RoutingField::LinkBudget {
+                        "link budget"
+                    } else {
+                        "fixed losses"
+                    },
+                    &["dB"],
+                )?;
+                if f == RoutingField::LinkBudget {
+                    link.budget_db = v;
+                } else {
+                    link.fixed_db = v;
+                }
+            }
+        }
+        p.validate().map_err(|e| e.to_string())
+    }
+
     /// The project with `text` applied to `field`, or the core's message why it cannot be.
     fn apply_text_to(base: &Project, field: Field, text: &str) -> Result<Project, String> {
         let unit = base.units;
@@ -919,6 +999,7 @@ impl State {
                 }
             }
             Field::Process(f) => Self::process_text(&mut p, f, text)?,
+            Field::Routing(f) => Self::routing_text(&mut p, f, text)?,
             Field::Rule(i, f) => {
                 let Some(rule) = p.rules.get_mut(i) else {
                     return Err("this rule no longer exists".into());
@@ -1398,6 +1479,71 @@ mod tests {
         assert!((thickness_of(&s, 2) - 127e-6).abs() < 1e-15);
         assert_eq!(s.undo.len(), 1);
         assert!(!s.has_errors());
+    }
+
+    #[test]
+    fn routing_budgets_edit_by_name_and_the_link_needs_its_frequency_first() {
+        let s0 = State::default();
+        let link = |s: &State| s.project.routing.link;
+        // A budget before any frequency: refused, naming what to set first; nothing changes.
+        let s = reduce(
+            s0.clone(),
+            Action::Edit(Field::Routing(RoutingField::LinkBudget), "12".into()),
+        );
+        assert_eq!(s.project, s0.project);
+        let msg = s.drafts[&Field::Routing(RoutingField::LinkBudget)]
+            .error
+            .clone()
+            .unwrap_or_default();
+        assert!(msg.contains("Nyquist"), "{msg}");
+        // Frequency, then budget and fixed losses; a blank frequency removes the link.
+        let mut s = reduce(
+            s0.clone(),
+            Action::Edit(Field::Routing(RoutingField::LinkNyquist), "8".into()),
+        );
+        assert_eq!(link(&s).unwrap().nyquist_hz, 8e9);
+        assert_eq!(link(&s).unwrap().budget_db, STARTING_LINK_BUDGET_DB);
+        s = reduce(
+            s,
+            Action::Edit(Field::Routing(RoutingField::LinkBudget), "14 dB".into()),
+        );
+        s = reduce(
+            s,
+            Action::Edit(Field::Routing(RoutingField::LinkFixed), "3".into()),
+        );
+        assert_eq!(
+            (link(&s).unwrap().budget_db, link(&s).unwrap().fixed_db),
+            (14.0, 3.0)
+        );
+        s = reduce(
+            s,
+            Action::Edit(Field::Routing(RoutingField::LinkNyquist), " ".into()),
+        );
+        assert!(link(&s).is_none());
+        // Crosstalk figures in the user's units; out of range names the figure.
+        s = reduce(
+            s,
+            Action::Edit(Field::Routing(RoutingField::Rise), "35".into()),
+        );
+        assert!((s.project.routing.rise_s - 35e-12).abs() < 1e-24);
+        s = reduce(
+            s,
+            Action::Edit(Field::Routing(RoutingField::Parallel), "40000".into()),
+        );
+        assert!(
+            (s.project.routing.parallel_m - 40e-3).abs() < 1e-12,
+            "µm is the demo's unit"
+        );
+        let bad = reduce(
+            s.clone(),
+            Action::Edit(Field::Routing(RoutingField::CrosstalkBudget), "80".into()),
+        );
+        let msg = bad.drafts[&Field::Routing(RoutingField::CrosstalkBudget)]
+            .error
+            .clone()
+            .unwrap_or_default();
+        assert!(msg.contains("crosstalk budget"), "{msg}");
+        assert_eq!(bad.project, s.project);
     }
 
     #[test]

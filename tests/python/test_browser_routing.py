@@ -26,13 +26,37 @@ def summary(driver, i: int) -> str:
     return driver.find_element(By.CSS_SELECTOR, f"[data-testid='summary-neighbour-{i}']").text
 
 
-def test_rule_cards_show_the_spacing_rule_and_the_reach(driver):
+def type_value(driver, element_id: str, text: str):
+    """Sets a text field to `text` in one input event: exactly one edit of the project."""
+    driver.execute_script(
+        "const el = document.getElementById(arguments[0]); el.value = arguments[1];"
+        "el.dispatchEvent(new InputEvent('input', {bubbles: true}));", element_id, text)
+
+
+@pytest.mark.parametrize("how", ["file", "typed"])
+def test_rule_cards_show_the_spacing_rule_and_the_reach(driver, how):
     project = w.demo()
     project["title"] = "Routing on the cards"
-    project["routing"] = {"crosstalk_budget_pct": 3, "link": {"nyquist_hz": 4e9, "budget_db": 10, "fixed_db": 2}}
+    budgets = {"crosstalk_budget_pct": 3, "link": {"nyquist_hz": 4e9, "budget_db": 10, "fixed_db": 2}}
+    if how == "file":
+        project["routing"] = budgets
     w.put_local_work(driver, project)
     w.open_app(driver)
     w.wait_title(driver, project["title"])
+    if how == "typed":
+        # The budgets typed into their panel; the link's figures appear once it has a frequency.
+        assert not driver.find_elements(By.ID, "routing-link-budget")
+        type_value(driver, "routing-crosstalk-budget", "3")
+        type_value(driver, "routing-link-nyquist", "4")
+        browser.wait_for(lambda: driver.find_elements(By.ID, "routing-link-budget"), what="the link budget field")
+        type_value(driver, "routing-link-budget", "10")
+        type_value(driver, "routing-link-fixed", "2")
+        project["routing"] = budgets
+
+        def saved_budgets():
+            routing = json.loads(browser.saved_text(driver) or "{}").get("routing", {})
+            return routing.get("crosstalk_budget_pct") == 3 and routing.get("link") == budgets["link"]
+        browser.wait_for(saved_budgets, what="the typed budgets saved with the project")
     browser.wait_for(lambda: settled(driver), timeout=90, what="the plan settled")
     text = json.dumps(project)
     for i, rule in enumerate(project["rules"]):

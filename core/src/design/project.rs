@@ -428,31 +428,19 @@ impl Project {
         }
         self.loss.validate()?;
         let r = &self.routing;
-        error::in_range(
-            "routing.crosstalk_budget",
-            r.crosstalk_budget_pct,
-            0.01,
-            50.0,
-            "%",
-        )?;
-        error::in_range("routing.rise_time", r.rise_s * 1e12, 1.0, 1e6, "ps")?;
-        error::in_range(
-            "routing.parallel_length",
-            r.parallel_m * 1e3,
-            0.01,
-            2000.0,
-            "mm",
-        )?;
+        error::in_range("crosstalk budget", r.crosstalk_budget_pct, 0.01, 50.0, "%")?;
+        error::in_range("rise time", r.rise_s * 1e12, 1.0, 1e6, "ps")?;
+        error::in_range("parallel length", r.parallel_m * 1e3, 0.01, 2000.0, "mm")?;
         if let Some(l) = r.link {
             error::in_range(
-                "routing.link.nyquist",
+                "link Nyquist frequency",
                 l.nyquist_hz / 1e9,
                 0.001,
                 1000.0,
                 "GHz",
             )?;
-            error::in_range("routing.link.budget", l.budget_db, 0.01, 200.0, "dB")?;
-            error::in_range("routing.link.fixed_loss", l.fixed_db, 0.0, 200.0, "dB")?;
+            error::in_range("link budget", l.budget_db, 0.01, 200.0, "dB")?;
+            error::in_range("fixed losses", l.fixed_db, 0.0, 200.0, "dB")?;
         }
         if let Some(tol) = self.fab.thickness_tolerance_pct {
             error::in_range("fab.thickness_tolerance", tol, 0.0, 50.0, "%")?;

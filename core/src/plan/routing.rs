@@ -169,7 +169,7 @@ mod tests {
         let mut v: serde_json::Value = serde_json::from_str(&text).unwrap();
         v["routing"] = serde_json::json!({"crosstalk_budget_pct": 80, "link": {"nyquist_hz": 8e9, "budget_db": 12}});
         let e = Project::from_json(&v.to_string()).unwrap_err().to_string();
-        assert!(e.contains("routing.crosstalk_budget"), "{e}");
+        assert!(e.contains("crosstalk budget"), "{e}");
         v["routing"]["crosstalk_budget_pct"] = serde_json::json!(3);
         let p = Project::from_json(&v.to_string()).unwrap();
         assert_eq!(p.routing.link.unwrap().fixed_db, 0.0);

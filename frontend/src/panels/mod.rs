@@ -5,6 +5,7 @@ pub mod layers;
 pub mod notes;
 pub mod pictures;
 pub mod process;
+pub mod routing;
 pub mod rules;
 pub mod share;
 pub mod stack_picture;
