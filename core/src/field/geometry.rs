@@ -508,14 +508,12 @@ pub fn build_layered(
     dims: &Dims,
     etch_factor: Option<f64>,
 ) -> Result<Geometry> {
-    if structure == Structure::BroadsidePair {
-        return Err(Error::Invalid {
-            field: "structure".into(),
-            reason: "a broadside pair needs two trace layers; use a broadside cross-section".into(),
-        });
-    }
-    let tl = trace_layout(structure, dims)?;
-    build_on_layout(stack, structure, tl, etch_factor)
+    build_on_layout(
+        stack,
+        structure,
+        trace_layout(structure, dims)?,
+        etch_factor,
+    )
 }
 
 /// The geometry of a rule's line or pair beside an identical neighbour on the same layer, `spacing` apart edge to
@@ -562,12 +560,17 @@ pub fn build_neighbours(
         tl.features.push(("spacing".into(), inner));
     }
     let mut g = build_on_layout(&stack, structure, tl, etch_factor)?;
+    note_dual(cs, &mut g);
+    Ok(g)
+}
+
+/// A dual stripline's other signal layer carries copper the solve leaves out: said on the result.
+fn note_dual(cs: &CrossSection, g: &mut Geometry) {
     if let Medium::Stripline { dual: true, .. } = cs.medium {
         g.warnings.push(Warning::new(
             "field solve: the other signal layer of the dual stripline is not modelled (no copper there)",
         ));
     }
-    Ok(g)
 }
 
 fn build_on_layout(
@@ -816,11 +819,7 @@ pub fn build(
         _ => {
             let stack = LayerStack::from_cross_section(cs)?;
             let mut g = build_layered(&stack, structure, dims, etch_factor)?;
-            if let Medium::Stripline { dual: true, .. } = cs.medium {
-                g.warnings.push(Warning::new(
-                    "field solve: the other signal layer of the dual stripline is not modelled (no copper there)",
-                ));
-            }
+            note_dual(cs, &mut g);
             Ok(g)
         }
     }
