@@ -13,7 +13,7 @@ use ohmstack_core::closed_form::coupled_stripline::edge_zero_thickness;
 use ohmstack_core::plan::analyze_rule;
 use ohmstack_core::plan::crosstalk::{rule_crosstalk, CrosstalkOptions, Neighbour};
 use ohmstack_core::{Project, Structure};
-use ohmstack_tests::stacks::{project, Geo, Over, Place};
+use ohmstack_tests::stacks::{masked_pair, project, Geo, Over, Place};
 use proptest::prelude::*;
 
 fn neighbour_at(p: &Project, spacing: f64) -> ohmstack_core::plan::crosstalk::CrosstalkPoint {
@@ -117,19 +117,7 @@ fn two_pairs_in_one_dielectric_have_no_far_end_and_couple_less_than_two_lines() 
 
 #[test]
 fn a_tighter_budget_asks_for_more_room() {
-    let p = project(
-        Place::Microstrip(Over::Mask(20e-6, 3.8)),
-        Geo {
-            h: 120e-6,
-            h2: 120e-6,
-            er: 4.1,
-            t: 35e-6,
-        },
-        Structure::EdgePair,
-        130e-6,
-        Some(150e-6),
-        None,
-    );
+    let p = masked_pair();
     let rule = &p.rules[0];
     let result = analyze_rule(&p, rule).unwrap();
     let spacing = |budget: f64| {

@@ -9,7 +9,7 @@ use ohmstack_core::design::stackup::Layer;
 use ohmstack_core::plan::evaluate_rule;
 use ohmstack_core::plan::height::solve_layer_thickness;
 use ohmstack_core::{Project, Structure};
-use ohmstack_tests::stacks::{project, Geo, Over, Place};
+use ohmstack_tests::stacks::{masked_pair, project, Geo, Place};
 
 fn set_thickness(p: &mut Project, layer: &str, t: f64) {
     let idx = p.stackup.find(layer).unwrap();
@@ -56,19 +56,7 @@ fn a_cohn_target_centres_the_stripline() {
 
 #[test]
 fn the_solved_thickness_gives_the_target_and_the_width_back() {
-    let mut p = project(
-        Place::Microstrip(Over::Mask(20e-6, 3.8)),
-        Geo {
-            h: 120e-6,
-            h2: 120e-6,
-            er: 4.1,
-            t: 35e-6,
-        },
-        Structure::EdgePair,
-        130e-6,
-        Some(150e-6),
-        None,
-    );
+    let mut p = masked_pair();
     p.rules[0].target_ohm = 95.0;
     let layer = p.stackup.layers.iter().find_map(|l| match l {
         Layer::Core(d) | Layer::Prepreg(d) => Some(d.name.clone()),

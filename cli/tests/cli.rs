@@ -645,19 +645,15 @@ fn crosstalk_gives_a_spacing_rule_a_curve_and_a_plot() {
         "{svg}"
     );
     // Bad values name the option.
-    for (args, field) in [
-        (&["crosstalk", "-", "--rise", "5pF"][..], "rise"),
-        (&["crosstalk", "-", "--budget", "80"][..], "budget"),
-        (&["crosstalk", "-", "--length", "0"][..], "length"),
-        (&["crosstalk", "-", "--rule", "nope"][..], "rule"),
-    ] {
-        let (code, _, err) = ohmstack(args, demo());
-        assert_ne!(code, 0);
-        assert!(
-            err.lines().count() == 1 && err.contains(field),
-            "{args:?}: {err}"
-        );
-    }
+    errors_name_their_option(
+        &[
+            (&["crosstalk", "-", "--rise", "5pF"][..], "rise"),
+            (&["crosstalk", "-", "--budget", "80"][..], "budget"),
+            (&["crosstalk", "-", "--length", "0"][..], "length"),
+            (&["crosstalk", "-", "--rule", "nope"][..], "rule"),
+        ],
+        &demo(),
+    );
 }
 
 #[test]
@@ -687,25 +683,21 @@ fn reach_is_the_budget_over_the_loss() {
             .unwrap(),
         loss
     );
-    for (args, field) in [
-        (&["reach", "-", "--budget", "10"][..], "frequency"),
-        (&["reach", "-", "--nyquist", "4GHz"][..], "budget"),
-        (
-            &["reach", "-", "--link", "nothing like it", "--budget", "3"][..],
-            "link",
-        ),
-        (
-            &["reach", "-", "--rate", "fast", "--budget", "3"][..],
-            "rate",
-        ),
-    ] {
-        let (code, _, err) = ohmstack(args, demo());
-        assert_ne!(code, 0);
-        assert!(
-            err.lines().count() == 1 && err.contains(field),
-            "{args:?}: {err}"
-        );
-    }
+    errors_name_their_option(
+        &[
+            (&["reach", "-", "--budget", "10"][..], "frequency"),
+            (&["reach", "-", "--nyquist", "4GHz"][..], "budget"),
+            (
+                &["reach", "-", "--link", "nothing like it", "--budget", "3"][..],
+                "link",
+            ),
+            (
+                &["reach", "-", "--rate", "fast", "--budget", "3"][..],
+                "rate",
+            ),
+        ],
+        &demo(),
+    );
 }
 
 #[test]
@@ -784,31 +776,39 @@ fn laminate_reproduces_its_datasheet_point_and_names_bad_inputs() {
         out.contains("7628") && out.contains("common practice"),
         "{out}"
     );
-    for (args, field) in [
-        (
-            &["laminate", "--style", "9999", "--datasheet-dk", "3.9"][..],
-            "glass style",
-        ),
-        (
-            &[
-                "laminate",
-                "--style",
-                "2116",
-                "--datasheet-dk",
-                "3.9",
-                "--plies",
-                "0",
-            ][..],
-            "plies",
-        ),
-        (
-            &["laminate", "--style", "2116", "--datasheet-dk", "9"][..],
-            "datasheet Dk",
-        ),
-        (&["laminate", "--style", "2116"][..], "datasheet-dk"),
-    ] {
-        let (code, _, err) = ohmstack(args, "");
-        assert_ne!(code, 0);
+    errors_name_their_option(
+        &[
+            (
+                &["laminate", "--style", "9999", "--datasheet-dk", "3.9"][..],
+                "glass style",
+            ),
+            (
+                &[
+                    "laminate",
+                    "--style",
+                    "2116",
+                    "--datasheet-dk",
+                    "3.9",
+                    "--plies",
+                    "0",
+                ][..],
+                "plies",
+            ),
+            (
+                &["laminate", "--style", "2116", "--datasheet-dk", "9"][..],
+                "datasheet Dk",
+            ),
+            (&["laminate", "--style", "2116"][..], "datasheet-dk"),
+        ],
+        "",
+    );
+}
+
+/// Each command line fails with one line naming its option (or the figure it carries).
+fn errors_name_their_option(cases: &[(&[&str], &str)], stdin: &str) {
+    for (args, field) in cases {
+        let (code, _, err) = ohmstack(args, stdin);
+        assert_ne!(code, 0, "{args:?}");
         assert!(
             err.lines().count() == 1 && err.contains(field),
             "{args:?}: {err}"

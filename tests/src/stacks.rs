@@ -160,3 +160,21 @@ pub fn project(
         }],
     }
 }
+
+/// A masked edge-coupled pair on an outer layer, as the dimensions give it: 130 µm lines 150 µm apart, 35 µm copper
+/// under 20 µm of mask (Dk 3.8), 120 µm over the plane in Dk 4.1.
+pub fn masked_pair() -> Project {
+    project(
+        Place::Microstrip(Over::Mask(20e-6, 3.8)),
+        Geo {
+            h: 120e-6,
+            h2: 120e-6,
+            er: 4.1,
+            t: 35e-6,
+        },
+        Structure::EdgePair,
+        130e-6,
+        Some(150e-6),
+        None,
+    )
+}

@@ -89,66 +89,80 @@ fn split_number(text: &str) -> Option<(f64, &str)> {
     Some((value, text[end..].trim()))
 }
 
-/// Parses a length such as `0.3mm`, `125um`, `5 mil`, `0.01in`, `1oz` (copper weight) or `3.5e-5` (metres).
-/// `field` names the input in the error.
-pub fn parse_length(field: &str, text: &str) -> Result<f64, Error> {
+/// A number followed by one of the unit words of `scales` (lower case; "" for none), scaled to SI; `expected`
+/// shows the form in the error, which names `field`.
+fn parse_scaled(
+    field: &str,
+    text: &str,
+    expected: &'static str,
+    scales: &[(&[&str], f64)],
+) -> Result<f64, Error> {
     let bad = || Error::BadQuantity {
         field: field.to_string(),
         text: text.to_string(),
-        expected: "a length such as 0.3mm, 125um, 5mil, 0.01in or 1oz",
+        expected,
     };
     let (value, unit) = split_number(text).ok_or_else(bad)?;
-    let scale = match unit.to_ascii_lowercase().as_str() {
-        "" | "m" => 1.0,
-        "mm" => 1e-3,
-        "um" | "µm" | "μm" | "micron" => 1e-6,
-        "nm" => 1e-9,
-        "mil" | "mils" | "thou" => MIL,
-        "in" | "inch" | "\"" => INCH,
-        "cm" => 1e-2,
-        "oz" => OZ_COPPER,
-        _ => return Err(bad()),
-    };
+    let unit = unit.to_ascii_lowercase();
+    let scale = scales
+        .iter()
+        .find(|(words, _)| words.contains(&unit.as_str()))
+        .map(|&(_, scale)| scale)
+        .ok_or_else(bad)?;
     crate::base::error::finite(field, value * scale)
+}
+
+/// Parses a length such as `0.3mm`, `125um`, `5 mil`, `0.01in`, `1oz` (copper weight) or `3.5e-5` (metres).
+/// `field` names the input in the error.
+pub fn parse_length(field: &str, text: &str) -> Result<f64, Error> {
+    parse_scaled(
+        field,
+        text,
+        "a length such as 0.3mm, 125um, 5mil, 0.01in or 1oz",
+        &[
+            (&["", "m"], 1.0),
+            (&["mm"], 1e-3),
+            (&["um", "µm", "μm", "micron"], 1e-6),
+            (&["nm"], 1e-9),
+            (&["mil", "mils", "thou"], MIL),
+            (&["in", "inch", "\""], INCH),
+            (&["cm"], 1e-2),
+            (&["oz"], OZ_COPPER),
+        ],
+    )
 }
 
 /// Parses a frequency such as `2.4GHz`, `100MHz`, `5e9` (hertz).
 pub fn parse_frequency(field: &str, text: &str) -> Result<f64, Error> {
-    let bad = || Error::BadQuantity {
-        field: field.to_string(),
-        text: text.to_string(),
-        expected: "a frequency such as 2.4GHz, 100MHz or 5e9",
-    };
-    let (value, unit) = split_number(text).ok_or_else(bad)?;
-    let scale = match unit.to_ascii_lowercase().as_str() {
-        "" | "hz" => 1.0,
-        "khz" | "k" => 1e3,
-        "mhz" | "meg" => 1e6,
-        "ghz" | "g" => 1e9,
-        "thz" => 1e12,
-        _ => return Err(bad()),
-    };
-    crate::base::error::finite(field, value * scale)
+    parse_scaled(
+        field,
+        text,
+        "a frequency such as 2.4GHz, 100MHz or 5e9",
+        &[
+            (&["", "hz"], 1.0),
+            (&["khz", "k"], 1e3),
+            (&["mhz", "meg"], 1e6),
+            (&["ghz", "g"], 1e9),
+            (&["thz"], 1e12),
+        ],
+    )
 }
 
 /// Parses a time such as `50ps`, `0.1ns`, `2e-11` (seconds).
 pub fn parse_time(field: &str, text: &str) -> Result<f64, Error> {
-    let bad = || Error::BadQuantity {
-        field: field.to_string(),
-        text: text.to_string(),
-        expected: "a time such as 50ps, 0.1ns or 5e-11",
-    };
-    let (value, unit) = split_number(text).ok_or_else(bad)?;
-    let scale = match unit.to_ascii_lowercase().as_str() {
-        "" | "s" => 1.0,
-        "ms" => 1e-3,
-        "us" | "µs" | "μs" => 1e-6,
-        "ns" => 1e-9,
-        "ps" => 1e-12,
-        "fs" => 1e-15,
-        _ => return Err(bad()),
-    };
-    crate::base::error::finite(field, value * scale)
+    parse_scaled(
+        field,
+        text,
+        "a time such as 50ps, 0.1ns or 5e-11",
+        &[
+            (&["", "s"], 1.0),
+            (&["ms"], 1e-3),
+            (&["us", "µs", "μs"], 1e-6),
+            (&["ns"], 1e-9),
+            (&["ps"], 1e-12),
+            (&["fs"], 1e-15),
+        ],
+    )
 }
 
 /// Parses a plain number (Dk, ohms, percent) with an optional unit word the caller allows.
