@@ -10,7 +10,7 @@ use ohmstack_core::Project;
 use crate::args::{Length, Percent, Time};
 use crate::files::read_input;
 use anyhow::{Context, Result};
-use ohmstack_core::output::plot::{line_plot, LinePlot, Series};
+use ohmstack_core::output::plot::crosstalk_plot;
 use serde_json::json;
 
 #[derive(clap::Args)]
@@ -119,7 +119,7 @@ pub fn run(args: Args) -> Result<()> {
                     print_search(&r, &result, unit);
                 }
                 if let Some(svg) = &args.svg {
-                    svg_out = Some((svg.clone(), plot(&r, unit)));
+                    svg_out = Some((svg.clone(), crosstalk_plot(&r, unit)));
                 }
                 serde_json::to_value(r).unwrap_or_default()
             }),
@@ -144,43 +144,6 @@ pub fn run(args: Args) -> Result<()> {
         std::fs::write(&file, text).with_context(|| format!("--svg: writing {file}"))?;
     }
     Ok(())
-}
-
-/// Near- and far-end noise (% of the swing, magnitudes) against spacing, log spacing axis, with the budget line.
-fn plot(r: &crosstalk::RuleCrosstalk, unit: LengthUnit) -> String {
-    let x = |s: f64| unit.from_m(s);
-    let series = |label: &str, f: &dyn Fn(&CrosstalkPoint) -> f64| Series {
-        label: label.into(),
-        points: r
-            .curve
-            .iter()
-            .map(|p| (x(p.spacing_m), 100.0 * f(p).abs()))
-            .collect(),
-    };
-    let (first, last) = (r.curve[0].spacing_m, r.curve[r.curve.len() - 1].spacing_m);
-    line_plot(&LinePlot {
-        title: format!("{}: crosstalk to a neighbour ({})", r.rule, r.arrangement),
-        x_label: format!("edge-to-edge spacing ({})", unit.symbol()),
-        y_label: "noise (% of the aggressor's swing)".into(),
-        series: vec![
-            series("near end", &|p| p.near_end),
-            series(
-                &format!(
-                    "far end, {} mm run",
-                    format_sig(r.options.length_m * 1e3, 4)
-                ),
-                &|p| p.far_end,
-            ),
-            Series {
-                label: format!("budget {}", pct(r.options.budget)),
-                points: vec![
-                    (x(first), 100.0 * r.options.budget),
-                    (x(last), 100.0 * r.options.budget),
-                ],
-            },
-        ],
-        log_x: true,
-    })
 }
 
 fn heading(

@@ -5,7 +5,7 @@
 use ohmstack_core::base::units::{format_sig, parse_number};
 use ohmstack_core::line::loss::Sweep;
 use ohmstack_core::line::reach::{self, ReachOptions, Signalling, LINK_PRESETS};
-use ohmstack_core::output::plot::{line_plot, LinePlot, Series};
+use ohmstack_core::output::plot::insertion_loss_plot;
 
 use crate::args::{Decibels, FoilArgs, Frequency, Length};
 use crate::commands::loss::model_of;
@@ -164,28 +164,12 @@ pub fn run(args: Args) -> Result<()> {
                     };
                     let il =
                         reach::insertion_loss(&model, length, args.fixed, &sweep.frequencies()?)?;
-                    let ghz = |f: f64| f / 1e9;
-                    let plot = LinePlot {
-                        title: format!("{name}: insertion loss of a {} run", run_length(length)),
-                        x_label: "frequency (GHz)".into(),
-                        y_label: "insertion loss (dB)".into(),
-                        series: vec![
-                            Series {
-                                label: "run + fixed losses".into(),
-                                points: il.iter().map(|&(f, db)| (ghz(f), db)).collect(),
-                            },
-                            Series {
-                                label: format!("budget {} dB", format_sig(budget, 3)),
-                                points: vec![
-                                    (ghz(sweep.from_hz), budget),
-                                    (ghz(sweep.to_hz), budget),
-                                ],
-                            },
-                        ],
-                        log_x: true,
-                    };
-                    std::fs::write(svg, line_plot(&plot))
-                        .with_context(|| format!("--svg: writing {svg}"))?;
+                    let plot = insertion_loss_plot(
+                        format!("{name}: insertion loss of a {} run", run_length(length)),
+                        &il,
+                        budget,
+                    );
+                    std::fs::write(svg, plot).with_context(|| format!("--svg: writing {svg}"))?;
                 }
                 Ok(r)
             });

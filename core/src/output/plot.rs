@@ -282,6 +282,77 @@ fn no_data(s: &mut String) {
     s.push('\n');
 }
 
+/// Near- and far-end noise (% of the aggressor's swing, magnitudes) against the spacing to a neighbour, on a log
+/// spacing axis in `unit`, with the budget as a line.
+pub fn crosstalk_plot(
+    r: &crate::plan::crosstalk::RuleCrosstalk,
+    unit: crate::base::units::LengthUnit,
+) -> String {
+    use crate::base::units::format_sig;
+    let x = |s: f64| unit.from_m(s);
+    let noise = |label: String, end: fn(&crate::plan::crosstalk::CrosstalkPoint) -> f64| Series {
+        label,
+        points: r
+            .curve
+            .iter()
+            .map(|p| (x(p.spacing_m), 100.0 * end(p).abs()))
+            .collect(),
+    };
+    let ends = [r.curve.first(), r.curve.last()];
+    let budget = 100.0 * r.options.budget;
+    line_plot(&LinePlot {
+        title: format!("{}: crosstalk to a neighbour ({})", r.rule, r.arrangement),
+        x_label: format!("edge-to-edge spacing ({})", unit.symbol()),
+        y_label: "noise (% of the aggressor's swing)".into(),
+        series: vec![
+            noise("near end".into(), |p| p.near_end),
+            noise(
+                format!(
+                    "far end, {} mm run",
+                    format_sig(r.options.length_m * 1e3, 4)
+                ),
+                |p| p.far_end,
+            ),
+            Series {
+                label: format!("budget {} %", format_sig(budget, 3)),
+                points: ends
+                    .iter()
+                    .flatten()
+                    .map(|p| (x(p.spacing_m), budget))
+                    .collect(),
+            },
+        ],
+        log_x: true,
+    })
+}
+
+/// Insertion loss (dB) against frequency (GHz, log axis) of a run, from `(Hz, dB)` points, with the budget as a
+/// line; `title` names the rule and the run.
+pub fn insertion_loss_plot(title: String, points: &[(f64, f64)], budget_db: f64) -> String {
+    let ghz = |f: f64| f / 1e9;
+    let ends = [points.first(), points.last()];
+    line_plot(&LinePlot {
+        title,
+        x_label: "frequency (GHz)".into(),
+        y_label: "insertion loss (dB)".into(),
+        series: vec![
+            Series {
+                label: "run + fixed losses".into(),
+                points: points.iter().map(|&(f, db)| (ghz(f), db)).collect(),
+            },
+            Series {
+                label: format!("budget {} dB", crate::base::units::format_sig(budget_db, 3)),
+                points: ends
+                    .iter()
+                    .flatten()
+                    .map(|&&(f, _)| (ghz(f), budget_db))
+                    .collect(),
+            },
+        ],
+        log_x: true,
+    })
+}
+
 /// Draws a line plot. Points with a non-finite coordinate (or x ≤ 0 on a log axis) are skipped and break the line.
 pub fn line_plot(plot: &LinePlot) -> String {
     let ok = |&(x, y): &(f64, f64)| x.is_finite() && y.is_finite() && (!plot.log_x || x > 0.0);
@@ -901,6 +972,30 @@ pub fn z_vs_width_of(
 #[cfg(test)]
 pub(crate) mod tests {
     use super::*;
+
+    #[test]
+    fn crosstalk_and_insertion_loss_plots_carry_both_ends_and_the_budget() {
+        let p = crate::design::demo::project();
+        let rule = &p.rules[0];
+        let r = crate::plan::evaluate_rule(&p, rule).unwrap();
+        let x = crate::plan::crosstalk::rule_crosstalk(&p, rule, &r, &Default::default()).unwrap();
+        let svg = crosstalk_plot(&x, p.units);
+        well_formed(&svg).unwrap();
+        for label in [
+            "near end",
+            "far end, 25 mm run",
+            "budget 2 %",
+            "edge-to-edge spacing (µm)",
+        ] {
+            assert!(svg.contains(label), "{label}");
+        }
+        // One path per series: the two ends and the budget.
+        assert_eq!(svg.matches("class=\"series series-").count(), 3, "{svg}");
+        let svg = insertion_loss_plot("a run".into(), &[(1e9, 1.0), (2e9, 2.5), (4e9, 5.0)], 4.0);
+        well_formed(&svg).unwrap();
+        assert!(svg.contains("budget 4 dB") && svg.contains("insertion loss (dB)"));
+        assert_eq!(svg.matches("class=\"series series-").count(), 2, "{svg}");
+    }
 
     /// A strict-enough XML 1.0 well-formedness check for our own output: balanced tags, quoted attributes with
     /// no raw `<`, text with no raw `<` or stray `&`, only the five predefined entities, one root element.
