@@ -124,6 +124,23 @@ pub fn min_length_label(metres: f64, unit: LengthUnit) -> String {
     units::format_length(unit.to_m(up), unit)
 }
 
+/// The plot of a rule's crosstalk against the spacing to its neighbour, once its routing figures are in.
+pub fn crosstalk_plot_svg(result: &RuleResult, unit: LengthUnit) -> Option<String> {
+    let sp = result.routing.as_ref()?.spacing.as_ref()?;
+    (!sp.curve.is_empty()).then(|| {
+        ohmstack_core::output::plot::crosstalk_curve_plot(
+            format!(
+                "{}: crosstalk to a neighbour ({})",
+                result.name, sp.arrangement
+            ),
+            &sp.curve,
+            sp.budget,
+            sp.parallel_m,
+            unit,
+        )
+    })
+}
+
 /// A frequency in GHz as editable text.
 pub fn ghz_text(hz: f64) -> String {
     format_sig(hz / 1e9, 6)

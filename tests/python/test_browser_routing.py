@@ -79,6 +79,11 @@ def test_rule_cards_show_the_spacing_rule_and_the_reach(driver, how):
         want = json.loads(w.cli_ok("reach", "-", "--rule", rule["name"], "--nyquist", "4GHz", "--budget", "10",
                                    "--fixed", "2", "--json", stdin=text))[0]["reach"]["reach_m"]
         assert abs(float(reach.get_attribute("data-value")) / want - 1) < 1e-3, (rule["name"], want)
+    # The plots show the first rule's noise against spacing with the budget line.
+    plot = browser.wait_for(lambda: driver.find_element(By.CSS_SELECTOR, "[data-testid='plot-crosstalk'] svg"),
+                            what="the crosstalk plot")
+    svg = plot.get_attribute("outerHTML")
+    assert "near end" in svg and "far end" in svg and "budget 3 %" in svg, svg[:300]
     driver.execute_script("document.querySelector(\"[data-testid='rule-0-routing']\").scrollIntoView({block: 'center'})")
     browser.screenshot(driver, "routing-on-cards")
     assert browser.console_errors(driver) == []

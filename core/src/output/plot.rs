@@ -288,29 +288,42 @@ pub fn crosstalk_plot(
     r: &crate::plan::crosstalk::RuleCrosstalk,
     unit: crate::base::units::LengthUnit,
 ) -> String {
+    crosstalk_curve_plot(
+        format!("{}: crosstalk to a neighbour ({})", r.rule, r.arrangement),
+        &r.curve,
+        r.options.budget,
+        r.options.length_m,
+        unit,
+    )
+}
+
+/// [`crosstalk_plot`] from its parts: the curve, the budget (a fraction) and the side-by-side run (m).
+pub fn crosstalk_curve_plot(
+    title: String,
+    curve: &[crate::plan::crosstalk::CrosstalkPoint],
+    budget: f64,
+    length_m: f64,
+    unit: crate::base::units::LengthUnit,
+) -> String {
     use crate::base::units::format_sig;
     let x = |s: f64| unit.from_m(s);
     let noise = |label: String, end: fn(&crate::plan::crosstalk::CrosstalkPoint) -> f64| Series {
         label,
-        points: r
-            .curve
+        points: curve
             .iter()
             .map(|p| (x(p.spacing_m), 100.0 * end(p).abs()))
             .collect(),
     };
-    let ends = [r.curve.first(), r.curve.last()];
-    let budget = 100.0 * r.options.budget;
+    let ends = [curve.first(), curve.last()];
+    let budget = 100.0 * budget;
     line_plot(&LinePlot {
-        title: format!("{}: crosstalk to a neighbour ({})", r.rule, r.arrangement),
+        title,
         x_label: format!("edge-to-edge spacing ({})", unit.symbol()),
         y_label: "noise (% of the aggressor's swing)".into(),
         series: vec![
             noise("near end".into(), |p| p.near_end),
             noise(
-                format!(
-                    "far end, {} mm run",
-                    format_sig(r.options.length_m * 1e3, 4)
-                ),
+                format!("far end, {} mm run", format_sig(length_m * 1e3, 4)),
                 |p| p.far_end,
             ),
             Series {

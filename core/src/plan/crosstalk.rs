@@ -59,7 +59,7 @@ impl CrosstalkOptions {
 }
 
 /// The coupling at one spacing.
-#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, serde::Deserialize)]
 pub struct CrosstalkPoint {
     pub spacing_m: f64,
     /// Saturated near-end coefficient Kb.

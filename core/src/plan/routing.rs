@@ -38,6 +38,9 @@ pub struct SpacingRule {
     pub rise_s: f64,
     pub parallel_m: f64,
     pub method: String,
+    /// Noise against spacing from the fabricator's minimum space out (for the plot).
+    #[serde(default)]
+    pub curve: Vec<crate::plan::crosstalk::CrosstalkPoint>,
 }
 
 /// The longest matched run inside the link's loss budget.
@@ -73,6 +76,7 @@ pub fn for_result(project: &Project, rule: &ImpedanceRule, result: &RuleResult) 
                 rise_s: options.rise_s,
                 parallel_m: options.length_m,
                 method: x.method.into(),
+                curve: x.curve,
             }),
             None,
         ),

@@ -1,6 +1,6 @@
 //! Pictures of one rule: the cross-section drawing, loss against frequency, impedance against width, the
-//! Monte Carlo histogram with the tolerance window, the potential map of the last field check, and a Touchstone
-//! download.
+//! Monte Carlo histogram with the tolerance window, crosstalk against the spacing to a neighbour, the potential map
+//! of the last field check, and a Touchstone download.
 //! The SVG strings come from the core (which escapes all user text); they are the only raw HTML in the app.
 
 use crate::bridge;
@@ -108,11 +108,12 @@ pub fn PicturesPanel(props: &PicturesProps) -> Html {
     let plots = use_memo((row.clone(), rule), move |(row, r)| {
         let (p, i) = (&project, (*r)?);
         Some(match row.as_ref()? {
-            Err(e) => (Err(e.clone()), Err(e.clone()), Err(e.clone())),
+            Err(e) => (Err(e.clone()), Err(e.clone()), Err(e.clone()), None),
             Ok(result) => (
                 bridge::loss_plot_svg(p, i, result),
                 bridge::z_width_plot_svg(p, i, result),
                 bridge::spread_view(result),
+                bridge::crosstalk_plot_svg(result, p.units),
             ),
         })
     });
@@ -161,7 +162,7 @@ pub fn PicturesPanel(props: &PicturesProps) -> Html {
     };
     let plots_html = match &*plots {
         None => html! { <p class="muted">{ "The project has no impedance rules to plot." }</p> },
-        Some((loss, z_width, spread)) => {
+        Some((loss, z_width, spread, crosstalk)) => {
             let spread_fig = match spread {
                 Ok(s) => html! {
                     <div class="spread">
@@ -189,6 +190,9 @@ pub fn PicturesPanel(props: &PicturesProps) -> Html {
                 { figure("plot-loss", "Loss of the signal mode against frequency, with its conductor and dielectric parts.", loss) }
                 { figure("plot-z-width", "Impedance against trace width around the solution.", z_width) }
                 { spread_fig }
+                if let Some(svg) = crosstalk {
+                    { figure("plot-crosstalk", "Crosstalk to an identical neighbour against the edge-to-edge spacing: near and far end, with the board's budget.", &Ok(svg.clone())) }
+                }
                 { field_map_figure(props.field_map.as_deref(), rule) }
                 </>
             }
