@@ -219,6 +219,16 @@ fn every_project_command_rejects_hostile_stdin() {
             "--length",
             "10mm",
         ],
+        &["crosstalk", "-"],
+        &["reach", "-", "--nyquist", "4GHz", "--budget", "10"],
+        &[
+            "thickness",
+            "-",
+            "--rule",
+            "Single-ended 50 Ω top",
+            "--layer",
+            "PP1",
+        ],
     ];
     for cmd in commands {
         for (what, stdin) in &stdins {
@@ -257,6 +267,52 @@ fn options_of_project_commands_reject_hostile_values() {
                 bad,
             ],
             vec!["random", "normal", "--count", bad],
+            vec!["crosstalk", "-", "--rule", rule, "--budget", bad],
+            vec!["crosstalk", "-", "--rule", rule, "--rise", bad],
+            vec!["crosstalk", "-", "--rule", rule, "--length", bad],
+            vec!["crosstalk", "-", "--rule", rule, "--spacing", bad],
+            vec![
+                "reach",
+                "-",
+                "--rule",
+                rule,
+                "--nyquist",
+                bad,
+                "--budget",
+                "10",
+            ],
+            vec![
+                "reach", "-", "--rule", rule, "--rate", bad, "--budget", "10",
+            ],
+            vec![
+                "reach",
+                "-",
+                "--rule",
+                rule,
+                "--nyquist",
+                "4GHz",
+                "--budget",
+                bad,
+            ],
+            vec!["laminate", "--style", "2116", "--datasheet-dk", bad],
+            vec![
+                "laminate",
+                "--style",
+                "2116",
+                "--datasheet-dk",
+                "3.9",
+                "--resin",
+                bad,
+            ],
+            vec![
+                "laminate",
+                "--style",
+                "2116",
+                "--datasheet-dk",
+                "3.9",
+                "--plies",
+                bad,
+            ],
             vec!["field", "-", "--rule", rule, "--tolerance", bad],
             vec!["field-solve", "-", "--rule", rule, "--tolerance", bad],
         ] {
@@ -287,6 +343,9 @@ fn options_of_project_commands_reject_hostile_values() {
         vec!["field-solve", "-", "--map", "m.svg"],
         vec!["field-solve", "-", "--rule", "no such rule"],
         vec!["field-solve", "-", "--rule", rule, "--frobnicate", "1"],
+        vec!["thickness", "-", "--rule", rule, "--layer", "\u{1}<b>"],
+        vec!["reach", "-", "--link", "\u{1}", "--budget", "3"],
+        vec!["laminate", "--style", "<script>", "--datasheet-dk", "3.9"],
     ] {
         assert_clean_failure(&args, demo());
     }
