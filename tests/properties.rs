@@ -97,6 +97,7 @@ fn dielectric(i: usize, thin: bool) -> impl Strategy<Value = Dielectric> {
                 dk,
                 df,
                 spec_freq_hz,
+                construction: None,
             },
         )
 }

@@ -108,22 +108,6 @@ pub fn length_label(metres: f64, unit: LengthUnit) -> String {
     units::format_length(metres, unit)
 }
 
-/// A least length (a spacing rule) with its unit, rounded up to the grid the unit is written on
-/// (`units::length_number`): a minimum shown rounded down would allow less than it says.
-pub fn min_length_label(metres: f64, unit: LengthUnit) -> String {
-    let value = unit.from_m(metres);
-    let step = match unit {
-        LengthUnit::Um if value < 10.0 => 0.1,
-        LengthUnit::Um => 1.0,
-        LengthUnit::Mm => 1e-3,
-        LengthUnit::Mil => 0.01,
-        LengthUnit::In => 1e-4,
-    };
-    // A hair of slack so a value already on the grid (to rounding) is not pushed up a step.
-    let up = ((value / step) - 1e-9).ceil() * step;
-    units::format_length(unit.to_m(up), unit)
-}
-
 /// The plot of a rule's crosstalk against the spacing to its neighbour, once its routing figures are in.
 pub fn crosstalk_plot_svg(result: &RuleResult, unit: LengthUnit) -> Option<String> {
     let sp = result.routing.as_ref()?.spacing.as_ref()?;
@@ -222,18 +206,6 @@ pub fn z_common(result: &RuleResult) -> Option<f64> {
 #[cfg(test)]
 mod tests {
     use super::*;
-
-    #[test]
-    fn a_least_length_is_rounded_up_to_the_display_grid() {
-        assert_eq!(min_length_label(777.2e-6, LengthUnit::Um), "778 µm");
-        assert_eq!(min_length_label(778e-6, LengthUnit::Um), "778 µm");
-        assert_eq!(min_length_label(5.04e-6, LengthUnit::Um), "5.1 µm");
-        assert_eq!(min_length_label(0.20011e-3, LengthUnit::Mm), "0.201 mm");
-        assert_eq!(
-            min_length_label(5.001 * 25.4e-6, LengthUnit::Mil),
-            "5.01 mil"
-        );
-    }
 
     #[test]
     fn bare_numbers_take_the_display_unit() {
@@ -504,6 +476,9 @@ pub struct NotesView {
     pub impedance_head: Vec<&'static str>,
     /// Cells of each impedance row, and whether the row failed or is out of tolerance.
     pub impedance: Vec<(Vec<String>, bool)>,
+    pub routing_head: Vec<&'static str>,
+    /// Cells of each rule's routing row (none until the plan's routing figures are in).
+    pub routing: Vec<Vec<String>>,
     pub notes: Vec<String>,
     /// The stack's cross-section (core SVG, user text escaped there), or why it could not be drawn.
     pub drawing: Result<String, String>,
@@ -547,6 +522,8 @@ pub fn notes_view(project: &Project, plan: &Plan, date: Option<report::IssueDate
         total: notes.total_text(),
         impedance_head: report::IMPEDANCE_HEAD.to_vec(),
         impedance,
+        routing_head: report::ROUTING_HEAD.to_vec(),
+        routing: notes.routing_cells(),
         notes: notes.notes.clone(),
         drawing: cross_section_svg(project, None),
         markdown: notes.to_markdown(),

@@ -217,6 +217,8 @@ pub enum RoutingField {
     LinkBudget,
     /// Fixed losses, dB.
     LinkFixed,
+    /// A pair's weave-skew budget, share of the unit interval.
+    SkewBudget,
 }
 
 impl RoutingField {
@@ -228,6 +230,7 @@ impl RoutingField {
             RoutingField::LinkNyquist => "link-nyquist",
             RoutingField::LinkBudget => "link-budget",
             RoutingField::LinkFixed => "link-fixed",
+            RoutingField::SkewBudget => "skew-budget",
         }
     }
 }
@@ -870,6 +873,7 @@ impl State {
             RoutingField::Parallel => {
                 r.parallel_m = bridge::parse_length("parallel length", text, p.units)?
             }
+            RoutingField::SkewBudget => r.skew_budget_ui = number("skew budget", &["UI"])?,
             RoutingField::LinkNyquist if text.trim().is_empty() => r.link = None,
             RoutingField::LinkNyquist => {
                 let f = bridge::parse_frequency_ghz("link Nyquist frequency", text)?;
@@ -1521,6 +1525,11 @@ mod tests {
         );
         assert!(link(&s).is_none());
         // Crosstalk figures in the user's units; out of range names the figure.
+        s = reduce(
+            s,
+            Action::Edit(Field::Routing(RoutingField::SkewBudget), "0.2 UI".into()),
+        );
+        assert_eq!(s.project.routing.skew_budget_ui, 0.2);
         s = reduce(
             s,
             Action::Edit(Field::Routing(RoutingField::Rise), "35".into()),

@@ -36,7 +36,7 @@ def squash(text: str) -> str:
 
 def md_impedance_rows(markdown: str) -> list[list[str]]:
     """Cells of the Markdown impedance table, unescaped (the core escapes punctuation with a backslash)."""
-    section = markdown.split("## Controlled impedance", 1)[1].split("## Notes", 1)[0]
+    section = markdown.split("## Controlled impedance", 1)[1].split("\n## ", 1)[0]
     rows = [line for line in section.splitlines() if line.startswith("|")][2:]
     out = []
     for line in rows:
@@ -126,8 +126,10 @@ def test_notes_downloads_equal_the_cli(driver):
     folder = enable_downloads(driver)
     w.open_app(driver)
     w.wait_title(driver, project["title"])
-    # The app dates the notes with the browser's today; the CLI is given the same date.
+    # The app dates the notes with the browser's today; the CLI is given the same date. The routing table comes
+    # with the final figures, so the download waits for them.
     today = today_in_browser(driver)
+    w.wait_settled(driver)
     driver.find_element(By.CSS_SELECTOR, "[data-testid='notes-csv']").click()
     csv = wait_file(folder, ".csv").read_bytes().decode()
     same_tokens(csv, w.cli_ok("notes", "-", "--format", "csv", "--date", today, stdin=json.dumps(project)))
@@ -381,6 +383,7 @@ def test_notes_name_engines_roles_revision_and_date(driver):
     assert squash(project["stackup"][0]["name"]) in squash(text)
     # The download equals the CLI's notes for the same date.
     folder = enable_downloads(driver)
+    w.wait_settled(driver)
     driver.find_element(By.CSS_SELECTOR, "[data-testid='notes-md']").click()
     md = wait_file(folder, ".md").read_text()
     project["revision"] = "B7"

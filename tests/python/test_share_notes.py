@@ -128,7 +128,9 @@ def test_csv_values_round_trip_against_analyze(project):
     p = {"fixture": lambda: json.loads(FIXTURE.read_text()), "demo": demo, "hostile": hostile}[project]()
     text = json.dumps(p)
     plan = json.loads(ok("analyze", "-", "--json", stdin=text))
-    stack, imp, notes, document = csv_tables(raw("notes", "-", "--format", "csv", "--date", "2026-03-14", stdin=text))
+    stack, imp, routing, notes, document = csv_tables(
+        raw("notes", "-", "--format", "csv", "--date", "2026-03-14", stdin=text)
+    )
     assert document == [["title", "revision", "date"], [p["title"], p.get("revision", ""), "2026-03-14"]]
     m = UNIT_M[p["units"]]
     assert len(stack) == 1 + len(plan["layers"])
@@ -157,6 +159,16 @@ def test_csv_values_round_trip_against_analyze(project):
         else:
             assert row[0] == rule["name"]
             assert row[10] == "" and row[11] == "error: " + rule["message"]
+    # The routing table: one row per computed rule, in the plan's order; a spacing rule is never below the
+    # fabricator's minimum space (the search starts there), a missing figure says why.
+    computed = [r for r in plan["rules"] if r["status"] == "ok"]
+    assert routing[0][:4] == ["net class", "layer", "neighbour", routing[0][3]]
+    assert [row[0] for row in routing[1:]] == [r["name"] for r in computed]
+    for row in routing[1:]:
+        if row[3]:
+            assert float(row[3]) * m >= p.get("fab", {}).get("min_space_m", 0.0) * (1 - 1e-12), row
+        else:
+            assert row[9], row
     texts = [r[0] for r in notes[1:]]
     assert any("test coupons" in t for t in texts)
     assert any("electrical-safety" in t for t in texts)

@@ -83,6 +83,15 @@ def wait_title(driver, title: str):
     browser.wait_for(lambda: notes_title(driver) == f"Fab notes: {title}", what=f"project {title!r} on screen")
 
 
+def wait_settled(driver, timeout: float = 90):
+    """Waits until every figure on the page is final (field figures, spread and routing figures all in)."""
+    browser.wait_for(
+        lambda: driver.find_element(By.ID, "app").get_attribute("data-settled") == "true",
+        timeout=timeout,
+        what="the plan settled",
+    )
+
+
 def shown_impedances(driver) -> list[float]:
     cells = driver.find_elements(By.CSS_SELECTOR, "[data-testid$='-impedance'][data-value]")
     return [float(c.get_attribute("data-value")) for c in cells]

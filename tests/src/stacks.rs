@@ -59,6 +59,7 @@ fn dielectric(name: &str, h: f64, dk: f64) -> Dielectric {
         dk,
         df: 0.01,
         spec_freq_hz: 1e9,
+        construction: None,
     }
 }
 

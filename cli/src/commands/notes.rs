@@ -44,9 +44,11 @@ fn today() -> Result<IssueDate> {
 pub fn run(args: Args) -> Result<()> {
     let mut project = Project::from_json(&read_input(&args.file)?)?;
     args.engine.apply(&mut project);
-    // The field engine checks every closed-form rule, as in the app: its verdict is the notes' status.
+    // The field engine checks every closed-form rule, as in the app: its verdict is the notes' status. The
+    // routing figures make the notes' routing table.
     let options = PlanOptions {
         field_check: true,
+        routing: true,
         ..PlanOptions::default()
     };
     let plan = plan_with(&project, &options)?;

@@ -184,6 +184,60 @@ pub fn permittivity(field: &str, er: f64) -> Result<f64> {
     in_range(field, er, 1.0, 100.0, "")
 }
 
+/// Puts `context` in front of the error's field name.
+pub fn prefix(e: Error, context: &str) -> Error {
+    match e {
+        Error::NotFinite { field } => Error::NotFinite {
+            field: format!("{context}.{field}"),
+        },
+        Error::NonPositive { field, value, unit } => Error::NonPositive {
+            field: format!("{context}.{field}"),
+            value,
+            unit,
+        },
+        Error::OutOfRange {
+            field,
+            value,
+            min,
+            max,
+            unit,
+        } => Error::OutOfRange {
+            field: format!("{context}.{field}"),
+            value,
+            min,
+            max,
+            unit,
+        },
+        Error::BadQuantity {
+            field,
+            text,
+            expected,
+        } => Error::BadQuantity {
+            field: format!("{context}.{field}"),
+            text,
+            expected,
+        },
+        Error::Unreachable {
+            field,
+            target,
+            nearest,
+            bound,
+            at_m,
+        } => Error::Unreachable {
+            field: format!("{context}.{field}"),
+            target,
+            nearest,
+            bound,
+            at_m,
+        },
+        Error::Invalid { field, reason } => Error::Invalid {
+            field: format!("{context}.{field}"),
+            reason,
+        },
+        other => other,
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

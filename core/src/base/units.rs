@@ -183,6 +183,22 @@ pub fn parse_number(field: &str, text: &str, allowed_suffixes: &[&str]) -> Resul
     crate::base::error::finite(field, value)
 }
 
+/// A least length (a minimum spacing) rounded up to the unit's display step, so the figure shown is never below
+/// the one computed: 212.3 µm shows as "213 µm".
+pub fn format_length_at_least(metres: f64, unit: LengthUnit) -> String {
+    let value = unit.from_m(metres);
+    let step = match unit {
+        LengthUnit::Um if value < 10.0 => 0.1,
+        LengthUnit::Um => 1.0,
+        LengthUnit::Mm => 1e-3,
+        LengthUnit::Mil => 0.01,
+        LengthUnit::In => 1e-4,
+    };
+    // A hair of slack so a value already on the grid (to rounding) is not pushed up a step.
+    let up = ((value / step) - 1e-9).ceil() * step;
+    format_length(unit.to_m(up), unit)
+}
+
 /// Formats a length in `unit` with a sensible number of digits.
 pub fn format_length(metres: f64, unit: LengthUnit) -> String {
     format!("{} {}", length_number(metres, unit), unit.symbol())
@@ -307,5 +323,19 @@ mod tests {
     fn eta0_is_mu0_c() {
         // CODATA free-space impedance 376.730 313 Ω.
         assert!((ETA0 - 376.730_313).abs() < 1e-5);
+    }
+    #[test]
+    fn a_least_length_is_rounded_up_to_the_display_grid() {
+        assert_eq!(format_length_at_least(777.2e-6, LengthUnit::Um), "778 µm");
+        assert_eq!(format_length_at_least(778e-6, LengthUnit::Um), "778 µm");
+        assert_eq!(format_length_at_least(5.04e-6, LengthUnit::Um), "5.1 µm");
+        assert_eq!(
+            format_length_at_least(0.20011e-3, LengthUnit::Mm),
+            "0.201 mm"
+        );
+        assert_eq!(
+            format_length_at_least(5.001 * 25.4e-6, LengthUnit::Mil),
+            "5.01 mil"
+        );
     }
 }

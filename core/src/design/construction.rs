@@ -18,7 +18,7 @@
 
 use crate::base::error::{self, Error, Result};
 use crate::base::units::C0;
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 
 /// Density of E-glass, g/cm³ (common practice, from memory).
 pub const GLASS_DENSITY: f64 = 2.55;
@@ -240,6 +240,62 @@ impl Construction {
         let v_window =
             ((v - self.style.coverage * v_bundle) / (1.0 - self.style.coverage)).max(0.0);
         (v_bundle, v_window)
+    }
+}
+
+/// A core's or prepreg's construction as a project stores it: the glass style by its trade number, the plies, the
+/// resin content, and the datasheet point the mixing rule is calibrated to (the layer's Dk and Df, at its spec
+/// frequency, at a resin content).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct LayerConstruction {
+    /// Trade style number, e.g. "2116".
+    pub glass: String,
+    pub plies: u32,
+    /// Resin content by weight, %.
+    pub resin_pct: f64,
+    pub datasheet_dk: f64,
+    pub datasheet_df: f64,
+    /// The resin content the datasheet's Dk and Df hold at, %.
+    pub datasheet_resin_pct: f64,
+}
+
+impl LayerConstruction {
+    /// `plies` of `style` at its usual resin content, calibrated so that it has Dk `dk` and Df `df` there: how a
+    /// layer entered by its Dk takes a construction without its Dk moving.
+    pub fn typical(style: &GlassStyle, plies: u32, dk: f64, df: f64) -> LayerConstruction {
+        LayerConstruction {
+            glass: style.style.to_string(),
+            plies,
+            resin_pct: style.typical_resin * 100.0,
+            datasheet_dk: dk,
+            datasheet_df: df,
+            datasheet_resin_pct: style.typical_resin * 100.0,
+        }
+    }
+
+    /// The construction it names; errors name the field.
+    pub fn construction(&self) -> Result<Construction> {
+        Ok(Construction {
+            style: glass_style(&self.glass)?,
+            plies: self.plies,
+            resin: self.resin_pct / 100.0,
+            datasheet: DatasheetPoint {
+                resin: self.datasheet_resin_pct / 100.0,
+                dk: self.datasheet_dk,
+                df: self.datasheet_df,
+            },
+        })
+    }
+
+    /// A short label for tables: "2 × 1080, 64 % resin".
+    pub fn label(&self) -> String {
+        format!(
+            "{} × {}, {} % resin",
+            self.plies,
+            self.glass,
+            error::compact(self.resin_pct)
+        )
     }
 }
 

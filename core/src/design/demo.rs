@@ -23,6 +23,7 @@ fn dielectric(name: &str, material: &str, um: f64, dk: f64, df: f64) -> Dielectr
         dk,
         df,
         spec_freq_hz: 1e9,
+        construction: None,
     }
 }
 

@@ -273,6 +273,9 @@ pub struct Routing {
     /// Length two neighbours run side by side, m.
     #[serde(default = "quarter_decimetre")]
     pub parallel_m: f64,
+    /// The intra-pair skew a pair's glass weave may add, as a share of the link's unit interval.
+    #[serde(default = "tenth")]
+    pub skew_budget_ui: f64,
     /// The links' loss budget for every rule's reach; no reach without it.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub link: Option<LinkBudget>,
@@ -292,6 +295,9 @@ pub struct LinkBudget {
 fn two() -> f64 {
     2.0
 }
+fn tenth() -> f64 {
+    0.1
+}
 fn fifty_ps() -> f64 {
     50e-12
 }
@@ -300,12 +306,14 @@ fn quarter_decimetre() -> f64 {
 }
 
 impl Default for Routing {
-    /// Common practice, no source: 2 % per neighbour, 50 ps edges, 25 mm side by side.
+    /// Common practice, no source: 2 % per neighbour, 50 ps edges, 25 mm side by side, weave skew a tenth of
+    /// the unit interval.
     fn default() -> Self {
         Routing {
             crosstalk_budget_pct: two(),
             rise_s: fifty_ps(),
             parallel_m: quarter_decimetre(),
+            skew_budget_ui: tenth(),
             link: None,
         }
     }
@@ -393,10 +401,12 @@ impl Project {
                 })
             }
         }
-        let project: Project =
+        let mut project: Project =
             serde_path_to_error::deserialize(value).map_err(|e| Error::Schema {
                 message: format!("at `{}`: {}", e.path(), e.inner()),
             })?;
+        // A constructed layer's thickness, Dk and Df are what its construction gives, whatever the file says.
+        project.stackup.apply_constructions()?;
         project.validate()?;
         Ok((project, notes))
     }
@@ -431,6 +441,7 @@ impl Project {
         error::in_range("crosstalk budget", r.crosstalk_budget_pct, 0.01, 50.0, "%")?;
         error::in_range("rise time", r.rise_s * 1e12, 1.0, 1e6, "ps")?;
         error::in_range("parallel length", r.parallel_m * 1e3, 0.01, 2000.0, "mm")?;
+        error::in_range("skew budget", r.skew_budget_ui, 0.001, 1.0, "UI")?;
         if let Some(l) = r.link {
             error::in_range(
                 "link Nyquist frequency",
@@ -482,7 +493,7 @@ impl Project {
         }
         for (i, rule) in self.rules.iter().enumerate() {
             rule.validate(&self.stackup)
-                .map_err(|e| prefix(e, &format!("rules[{i}] {:?}", rule.name)))?;
+                .map_err(|e| error::prefix(e, &format!("rules[{i}] {:?}", rule.name)))?;
         }
         Ok(())
     }
@@ -572,60 +583,6 @@ impl ImpedanceRule {
             }
         }
         Ok(())
-    }
-}
-
-/// Puts `context` in front of the error's field name.
-pub(crate) fn prefix(e: Error, context: &str) -> Error {
-    match e {
-        Error::NotFinite { field } => Error::NotFinite {
-            field: format!("{context}.{field}"),
-        },
-        Error::NonPositive { field, value, unit } => Error::NonPositive {
-            field: format!("{context}.{field}"),
-            value,
-            unit,
-        },
-        Error::OutOfRange {
-            field,
-            value,
-            min,
-            max,
-            unit,
-        } => Error::OutOfRange {
-            field: format!("{context}.{field}"),
-            value,
-            min,
-            max,
-            unit,
-        },
-        Error::BadQuantity {
-            field,
-            text,
-            expected,
-        } => Error::BadQuantity {
-            field: format!("{context}.{field}"),
-            text,
-            expected,
-        },
-        Error::Unreachable {
-            field,
-            target,
-            nearest,
-            bound,
-            at_m,
-        } => Error::Unreachable {
-            field: format!("{context}.{field}"),
-            target,
-            nearest,
-            bound,
-            at_m,
-        },
-        Error::Invalid { field, reason } => Error::Invalid {
-            field: format!("{context}.{field}"),
-            reason,
-        },
-        other => other,
     }
 }
 

@@ -3,6 +3,7 @@
 
 use crate::base::error::{self, Error, Result};
 use crate::base::units::OZ_COPPER;
+use crate::design::construction::LayerConstruction;
 use serde::{Deserialize, Serialize};
 
 /// What a copper layer carries.
@@ -72,6 +73,10 @@ pub struct Dielectric {
     /// The frequency Dk and Df are specified at, Hz.
     #[serde(default = "one_ghz")]
     pub spec_freq_hz: f64,
+    /// How a core or prepreg is built (glass style, plies, resin content); when given, the thickness, Dk and Df
+    /// above follow from it ([`Stackup::apply_constructions`]).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub construction: Option<LayerConstruction>,
 }
 
 fn one_ghz() -> f64 {
@@ -202,6 +207,34 @@ impl Stackup {
         Ok(())
     }
 
+    /// Sets the thickness, Dk and Df of every core and prepreg that has a construction to what the construction
+    /// gives, so every model downstream reads plain numbers. Errors name the layer and the construction's field.
+    pub fn apply_constructions(&mut self) -> Result<()> {
+        for (i, layer) in self.layers.iter_mut().enumerate() {
+            let name = layer.name().to_string();
+            match layer {
+                Layer::Core(d) | Layer::Prepreg(d) => {
+                    let Some(c) = &d.construction else { continue };
+                    let laminate = c.construction().and_then(|c| c.laminate()).map_err(|e| {
+                        error::prefix(e, &format!("layers[{i}] {name:?}.construction"))
+                    })?;
+                    d.thickness_m = laminate.thickness_m;
+                    d.dk = laminate.dk;
+                    d.df = laminate.df;
+                }
+                Layer::SolderMask(d) if d.construction.is_some() => {
+                    return Err(Error::Invalid {
+                        field: format!("layers[{i}] {name:?}.construction"),
+                        reason: "solder mask has no glass: give its thickness and Dk directly"
+                            .into(),
+                    });
+                }
+                _ => {}
+            }
+        }
+        Ok(())
+    }
+
     /// The outer copper layers: the first and the last copper of the stack (one when the stack has one copper).
     pub fn outer_coppers(&self) -> Vec<&Copper> {
         let coppers: Vec<&Copper> = self.layers.iter().filter_map(Layer::copper).collect();
@@ -290,5 +323,48 @@ mod tests {
         s.layers.push(first);
         let e = s.validate().unwrap_err().to_string();
         assert!(e.contains("already used"), "{e}");
+    }
+
+    #[test]
+    fn a_construction_sets_its_layer_on_reading_and_a_bad_one_names_the_layer() {
+        use crate::design::construction::{glass_style, LayerConstruction};
+        use crate::design::project::Project;
+        let mut p = crate::design::demo::project();
+        let i = p
+            .stackup
+            .layers
+            .iter()
+            .position(|l| matches!(l, Layer::Prepreg(_)))
+            .unwrap();
+        let Layer::Prepreg(d) = &mut p.stackup.layers[i] else {
+            unreachable!()
+        };
+        let (dk, df) = (d.dk, d.df);
+        let mut c = LayerConstruction::typical(glass_style("2116").unwrap(), 2, dk, df);
+        d.construction = Some(c.clone());
+        // Read from a file, the layer takes the construction's thickness; at the style's usual resin the Dk
+        // stays the datasheet's.
+        let read = Project::from_json(&p.to_json()).unwrap();
+        let laminate = c.construction().unwrap().laminate().unwrap();
+        let got = read.stackup.layers[i].dielectric().unwrap();
+        assert_eq!(got.thickness_m, laminate.thickness_m);
+        assert!((got.dk - dk).abs() < 1e-12 && (got.df - df).abs() < 1e-12);
+        // More resin: thicker and a lower Dk, as in a real laminate.
+        c.resin_pct += 6.0;
+        if let Layer::Prepreg(d) = &mut p.stackup.layers[i] {
+            d.construction = Some(c.clone());
+        }
+        let richer = Project::from_json(&p.to_json()).unwrap();
+        let r = richer.stackup.layers[i].dielectric().unwrap();
+        assert!(r.thickness_m > got.thickness_m && r.dk < got.dk);
+        c.glass = "9999".into();
+        if let Layer::Prepreg(d) = &mut p.stackup.layers[i] {
+            d.construction = Some(c);
+        }
+        let e = Project::from_json(&p.to_json()).unwrap_err().to_string();
+        assert!(
+            e.contains(&format!("layers[{i}]")) && e.contains("glass style"),
+            "{e}"
+        );
     }
 }

@@ -93,6 +93,7 @@ pub fn laminate(name: String, preset_id: &str, thickness_m: f64) -> Dielectric {
         dk: p.dk,
         df: p.df,
         spec_freq_hz: p.spec_freq_hz,
+        construction: None,
     }
 }
 

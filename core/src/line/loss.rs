@@ -1142,6 +1142,7 @@ mod tests {
             dk,
             df,
             spec_freq_hz: 1e9,
+            construction: None,
         };
         let mut p = crate::design::demo::project();
         p.stackup.layers = vec![

@@ -7,9 +7,10 @@
 //! quote or line break are quoted, quotes doubled, lines end in CRLF).
 
 use crate::base::error::{Error, Result};
-use crate::base::units::{format_length, format_sig, LengthUnit};
+use crate::base::units::{format_length, format_length_at_least, format_sig, LengthUnit};
 use crate::design::project::Project;
 use crate::engine::is_field_method;
+use crate::plan::routing::RuleRouting;
 use crate::plan::{Plan, RuleOutcome};
 use serde::{Serialize, Serializer};
 
@@ -96,6 +97,30 @@ pub struct StackRow {
     pub spec_freq_hz: Option<f64>,
     /// Copper weight, oz/ft².
     pub copper_oz: Option<f64>,
+    /// How a core or prepreg is built, "2 × 1080, 64 % resin", when the stack gives it.
+    pub construction: Option<String>,
+}
+
+/// One row of the routing table: a rule's spacing to a neighbour for crosstalk, its reach inside the link's loss
+/// budget and a pair's weave skew. A figure the rule has none of is `None`, with the reason in `remarks`.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct RoutingRow {
+    pub net_class: String,
+    pub layer: String,
+    /// "line beside line" or "pair beside pair".
+    pub arrangement: Option<String>,
+    /// Least edge-to-edge spacing to an identical neighbour inside the crosstalk budget, m.
+    pub min_spacing_m: Option<f64>,
+    /// "near end" or "far end".
+    pub limited_by: Option<String>,
+    /// Longest run inside the link's loss budget, m, and the loss per length it comes from, dB/m.
+    pub reach_m: Option<f64>,
+    pub loss_db_per_m: Option<f64>,
+    /// A pair's worst-case weave skew along the weave, s/m, and the straight run that spends the skew budget, m.
+    pub skew_s_per_m: Option<f64>,
+    pub skew_run_m: Option<f64>,
+    /// Why a figure is missing.
+    pub remarks: Vec<String>,
 }
 
 /// One row of the impedance table.
@@ -176,6 +201,8 @@ pub struct FabNotes {
     pub units: LengthUnit,
     pub stack: Vec<StackRow>,
     pub impedance: Vec<ImpedanceRow>,
+    /// The rules' routing figures, when the plan computed them (empty otherwise).
+    pub routing: Vec<RoutingRow>,
     pub total_thickness_m: f64,
     pub thickness_tolerance_pct: f64,
     /// General notes, one sentence each.
@@ -206,8 +233,21 @@ pub fn fab_notes(project: &Project, plan: &Plan, date: Option<IssueDate>) -> Fab
                 df: row.df,
                 spec_freq_hz,
                 copper_oz: row.copper_oz,
+                construction: project
+                    .stackup
+                    .layers
+                    .get(i)
+                    .and_then(|l| l.dielectric())
+                    .and_then(|d| d.construction.as_ref())
+                    .map(|c| c.label()),
             }
         })
+        .collect();
+    let routing: Vec<RoutingRow> = plan
+        .rules
+        .iter()
+        .filter_map(RuleOutcome::ok)
+        .filter_map(|r| r.routing.as_ref().map(|rt| routing_row(r, rt)))
         .collect();
     let impedance = plan
         .rules
@@ -295,8 +335,12 @@ pub fn fab_notes(project: &Project, plan: &Plan, date: Option<IssueDate>) -> Fab
         );
     }
     notes.push(engine_note(&impedance));
+    if !routing.is_empty() {
+        notes.extend(routing_notes(project));
+    }
     notes.extend([
-        "Spacing here is for impedance only: it is not an electrical-safety clearance or creepage distance."
+        "Spacing here is for impedance and crosstalk only: it is not an electrical-safety clearance or creepage \
+         distance."
             .to_string(),
         "Defer to local codes, applicable standards and licensed engineering practice.".to_string(),
     ]);
@@ -307,10 +351,76 @@ pub fn fab_notes(project: &Project, plan: &Plan, date: Option<IssueDate>) -> Fab
         units: unit,
         stack,
         impedance,
+        routing,
         total_thickness_m: plan.total_thickness_m,
         thickness_tolerance_pct: tol,
         notes,
     }
+}
+
+fn routing_row(r: &crate::plan::RuleResult, rt: &RuleRouting) -> RoutingRow {
+    let remarks = [&rt.spacing_note, &rt.reach_note, &rt.skew_note]
+        .into_iter()
+        .flatten()
+        .cloned()
+        .collect();
+    RoutingRow {
+        net_class: r.name.clone(),
+        layer: r.layer.clone(),
+        arrangement: rt.spacing.as_ref().map(|s| s.arrangement.clone()),
+        min_spacing_m: rt.spacing.as_ref().and_then(|s| s.min_spacing_m),
+        limited_by: rt.spacing.as_ref().map(|s| s.limited_by.clone()),
+        reach_m: rt.reach.as_ref().and_then(|x| x.reach_m),
+        loss_db_per_m: rt.reach.as_ref().map(|x| x.loss_db_per_m),
+        skew_s_per_m: rt.skew.as_ref().map(|x| x.skew_s_per_m),
+        skew_run_m: rt.skew.as_ref().and_then(|x| x.run_at_budget_m),
+        remarks,
+    }
+}
+
+/// The unit runs and per-length figures are quoted in, as the trade does whatever the length unit: per
+/// millimetre on a metric board, per inch on an imperial one. (metres per unit, its symbol)
+fn run_unit(unit: LengthUnit) -> (f64, &'static str) {
+    match unit {
+        LengthUnit::Um | LengthUnit::Mm => (1e-3, "mm"),
+        LengthUnit::Mil | LengthUnit::In => (0.0254, "in"),
+    }
+}
+
+/// A run length (a reach, a parallel length) in [`run_unit`], three figures.
+fn run_len(m: f64, unit: LengthUnit) -> String {
+    let (per_m, per) = run_unit(unit);
+    format!("{} {per}", format_sig(m / per_m, 3))
+}
+
+/// What the routing table's figures are judged against, one sentence each.
+fn routing_notes(project: &Project) -> Vec<String> {
+    let r = &project.routing;
+    let unit = project.units;
+    let mut notes = vec![format!(
+        "Routing spacing: the least edge-to-edge spacing to an identical neighbour that keeps its near- and \
+         far-end crosstalk within {} % over {} side by side with {} ps edges.",
+        format_sig(r.crosstalk_budget_pct, 3),
+        run_len(r.parallel_m, unit),
+        format_sig(r.rise_s * 1e12, 3)
+    )];
+    match r.link {
+        Some(l) => notes.push(format!(
+            "Reach: the longest run whose insertion loss at {} GHz (the link's Nyquist frequency) stays within \
+             {} dB less {} dB of fixed losses (connectors, vias, packages).",
+            format_sig(l.nyquist_hz / 1e9, 4),
+            format_sig(l.budget_db, 4),
+            format_sig(l.fixed_db, 4)
+        )),
+        None => notes.push("Reach: no link loss budget is set for the board.".to_string()),
+    }
+    notes.push(format!(
+        "Weave skew: a pair's worst case routed straight along the glass weave; the run shown spends {} of the \
+         unit interval. To reduce it: {}.",
+        format_sig(r.skew_budget_ui, 3),
+        crate::design::construction::WEAVE_MITIGATIONS.join("; ")
+    ));
+    notes
 }
 
 /// The note saying which engines made the impedance table: field-solved rows are 2D field solutions of the
@@ -426,6 +536,15 @@ pub const IMPEDANCE_HEAD: [&str; 11] = [
     "Engine",
 ];
 
+/// Headers of the routing table (Markdown and the app).
+pub const ROUTING_HEAD: [&str; 5] = [
+    "Net class",
+    "Layer",
+    "Spacing to a neighbour (crosstalk)",
+    "Reach (loss budget)",
+    "Weave skew (pairs)",
+];
+
 impl FabNotes {
     fn len(&self, m: f64) -> String {
         format_length(m, self.units)
@@ -456,7 +575,11 @@ impl FabNotes {
                     r.layer.clone(),
                     r.kind.clone(),
                     r.role.clone().unwrap_or_default(),
-                    r.material.clone(),
+                    match &r.construction {
+                        Some(c) if r.material.is_empty() => c.clone(),
+                        Some(c) => format!("{} ({c})", r.material),
+                        None => r.material.clone(),
+                    },
                     self.len(r.thickness_m),
                     self.len(r.pressed_thickness_m),
                     r.dk.map(|v| format!("{}{at}", format_sig(v, 4)))
@@ -499,6 +622,65 @@ impl FabNotes {
             .collect()
     }
 
+    /// The routing table's cells as text (unescaped), one row per rule that has routing figures, in
+    /// [`ROUTING_HEAD`]'s order; a missing figure gives its reason.
+    pub fn routing_cells(&self) -> Vec<Vec<String>> {
+        // The reason behind a missing figure, without the error's field name.
+        let reason = |r: &RoutingRow, about: &str| {
+            r.remarks
+                .iter()
+                .find(|m| m.starts_with(about))
+                .map(|m| m.split_once(": ").map_or(m.as_str(), |x| x.1).to_string())
+                .unwrap_or_default()
+        };
+        let (per_m, per) = run_unit(self.units);
+        self.routing
+            .iter()
+            .map(|r| {
+                let spacing = match (&r.arrangement, r.min_spacing_m) {
+                    (Some(a), Some(s)) => format!(
+                        "≥ {} ({a}; {} limits)",
+                        format_length_at_least(s, self.units),
+                        r.limited_by.as_deref().unwrap_or_default()
+                    ),
+                    (Some(a), None) => format!("none inside the budget ({a})"),
+                    _ => reason(r, "structure"),
+                };
+                let reach = match (r.reach_m, r.loss_db_per_m) {
+                    (Some(m), Some(db)) => format!(
+                        "{} ({} dB/{per})",
+                        run_len(m, self.units),
+                        format_sig(db * per_m, 3)
+                    ),
+                    (None, Some(_)) => "fixed losses spend the budget".to_string(),
+                    _ if r.remarks.iter().any(|m| m.contains("no link budget")) => "—".to_string(),
+                    _ => r
+                        .remarks
+                        .iter()
+                        .find(|m| !m.starts_with("structure") && !m.starts_with("weave"))
+                        .cloned()
+                        .unwrap_or_default(),
+                };
+                let skew = match (r.skew_s_per_m, r.skew_run_m) {
+                    (Some(s), run) => {
+                        let rate = format!("{} ps/{per}", format_sig(s * 1e12 * per_m, 3));
+                        match run {
+                            Some(m) => {
+                                format!("{rate}; budget spent after {}", run_len(m, self.units))
+                            }
+                            None => rate,
+                        }
+                    }
+                    (None, _) if r.remarks.iter().any(|m| m.contains("glass construction")) => {
+                        "no glass construction given".to_string()
+                    }
+                    (None, _) => reason(r, "weave skew"),
+                };
+                vec![r.net_class.clone(), r.layer.clone(), spacing, reach, skew]
+            })
+            .collect()
+    }
+
     /// The total thickness line ("1.6 mm ± 10 %").
     pub fn total_text(&self) -> String {
         format!(
@@ -531,6 +713,14 @@ impl FabNotes {
         for row in self.impedance_cells() {
             s.push_str(&md_row(&row.iter().map(|c| e(c)).collect::<Vec<_>>()));
         }
+        if !self.routing.is_empty() {
+            s.push_str("\n## Routing rules\n\n");
+            s.push_str(&md_row(&ROUTING_HEAD.map(String::from)));
+            s.push_str(&md_row(&ROUTING_HEAD.map(|_| "---".to_string())));
+            for row in self.routing_cells() {
+                s.push_str(&md_row(&row.iter().map(|c| e(c)).collect::<Vec<_>>()));
+            }
+        }
         s.push_str("\n## Notes\n\n");
         for (i, n) in self.notes.iter().enumerate() {
             s.push_str(&format!("{}. {}\n", i + 1, e(n)));
@@ -538,8 +728,9 @@ impl FabNotes {
         s
     }
 
-    /// The notes as CSV (RFC 4180, CRLF line ends): four tables — stack, impedance, notes, and the document's
-    /// title, revision and date — each with its own header row, separated by an empty line. Lengths are plain numbers in the project's display unit (named in
+    /// The notes as CSV (RFC 4180, CRLF line ends): five tables — stack, impedance, routing (its header alone
+    /// when the plan has no routing figures), notes, and the document's title, revision and date — each with its
+    /// own header row, separated by an empty line. Lengths are plain numbers in the project's display unit (named in
     /// the header), at full precision so the values read back exactly enough to compare.
     pub fn to_csv(&self) -> String {
         let u = self.units.symbol();
@@ -555,6 +746,7 @@ impl FabNotes {
             "spec frequency (Hz)".into(),
             "copper (oz)".into(),
             "role".into(),
+            "construction".into(),
         ]));
         for r in &self.stack {
             s.push_str(&csv_line(&[
@@ -568,6 +760,7 @@ impl FabNotes {
                 opt_num(r.spec_freq_hz),
                 opt_num(r.copper_oz),
                 r.role.clone().unwrap_or_default(),
+                r.construction.clone().unwrap_or_default(),
             ]));
         }
         s.push_str("\r\n");
@@ -610,6 +803,34 @@ impl FabNotes {
                 engine.into(),
                 r.method.clone(),
                 opt_num(r.field_check_ohm),
+            ]));
+        }
+        s.push_str("\r\n");
+        s.push_str(&csv_line(&[
+            "net class".into(),
+            "layer".into(),
+            "neighbour".into(),
+            format!("min spacing ({u})"),
+            "limited by".into(),
+            format!("reach ({u})"),
+            "loss at nyquist (db/m)".into(),
+            "weave skew (ps/m)".into(),
+            format!("run at skew budget ({u})"),
+            "remarks".into(),
+        ]));
+        for r in &self.routing {
+            let len = |v: Option<f64>| opt_num(v.map(|m| self.units.from_m(m)));
+            s.push_str(&csv_line(&[
+                r.net_class.clone(),
+                r.layer.clone(),
+                r.arrangement.clone().unwrap_or_default(),
+                len(r.min_spacing_m),
+                r.limited_by.clone().unwrap_or_default(),
+                len(r.reach_m),
+                opt_num(r.loss_db_per_m),
+                opt_num(r.skew_s_per_m.map(|s| s * 1e12)),
+                len(r.skew_run_m),
+                r.remarks.join("; "),
             ]));
         }
         s.push_str("\r\n");
@@ -951,5 +1172,82 @@ mod tests {
             format!("out of tolerance (field engine {z:.2} Ω)")
         );
         assert!(row.is_bad());
+    }
+
+    #[test]
+    fn routing_figures_make_the_routing_table() {
+        use crate::design::construction::{glass_style, LayerConstruction};
+        let mut p = crate::design::demo::project();
+        p.routing.link = Some(crate::design::project::LinkBudget {
+            nyquist_hz: 8e9,
+            budget_db: 12.0,
+            fixed_db: 2.0,
+        });
+        for layer in &mut p.stackup.layers {
+            if let Layer::Prepreg(d) | Layer::Core(d) = layer {
+                d.construction = Some(LayerConstruction::typical(
+                    glass_style("1080").unwrap(),
+                    2,
+                    d.dk,
+                    d.df,
+                ));
+            }
+        }
+        p.stackup.apply_constructions().unwrap();
+        let options = crate::PlanOptions {
+            routing: true,
+            ..crate::PlanOptions::default()
+        };
+        let plan = crate::plan_with(&p, &options).unwrap();
+        let n = fab_notes(&p, &plan, None);
+        let ok: Vec<_> = plan.rules.iter().filter_map(RuleOutcome::ok).collect();
+        assert_eq!(n.routing.len(), ok.len());
+        let md = n.to_markdown();
+        assert!(
+            md.contains("## Routing rules") && md.contains("× 1080"),
+            "{md}"
+        );
+        // The CSV's routing table (the third) carries the plan's own figures at full precision.
+        let rows = parse_csv(&n.to_csv());
+        let tables: Vec<&[Vec<String>]> = rows.split(|r| r == &vec![String::new()]).collect();
+        assert_eq!(tables.len(), 5, "{rows:?}");
+        let routing = tables[2];
+        assert_eq!(routing[0][0], "net class");
+        assert_eq!(routing.len(), 1 + ok.len());
+        let mut pairs_with_skew = 0;
+        for (row, r) in routing[1..].iter().zip(&ok) {
+            let rt = r.routing.as_ref().unwrap();
+            let read = |i: usize| row[i].parse::<f64>().ok().map(|v| p.units.to_m(v));
+            let close = |a: Option<f64>, b: Option<f64>| match (a, b) {
+                (Some(a), Some(b)) => (a / b - 1.0).abs() < 1e-12,
+                (None, None) => true,
+                _ => false,
+            };
+            assert_eq!(row[0], r.name);
+            assert!(
+                close(read(3), rt.spacing.as_ref().and_then(|s| s.min_spacing_m)),
+                "{row:?}"
+            );
+            assert!(
+                close(read(5), rt.reach.as_ref().and_then(|x| x.reach_m)),
+                "{row:?}"
+            );
+            if let Some(w) = &rt.skew {
+                pairs_with_skew += 1;
+                assert!(
+                    (row[7].parse::<f64>().unwrap() / (w.skew_s_per_m * 1e12) - 1.0).abs() < 1e-12
+                );
+                assert!(close(read(8), w.run_at_budget_m));
+            }
+        }
+        assert!(pairs_with_skew >= 1);
+        // The stack table names each construction.
+        assert!(tables[0][1..].iter().any(|r| r[10].contains("1080")));
+        // Without routing figures: no Markdown section, the CSV table keeps its header alone.
+        let plain = fab_notes(&p, &crate::plan(&p).unwrap(), None);
+        assert!(!plain.to_markdown().contains("Routing rules"));
+        let rows = parse_csv(&plain.to_csv());
+        let tables: Vec<&[Vec<String>]> = rows.split(|r| r == &vec![String::new()]).collect();
+        assert_eq!(tables[2].len(), 1);
     }
 }

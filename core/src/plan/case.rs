@@ -431,6 +431,7 @@ fn layers(build: &Build, t: f64) -> Vec<Layer> {
         dk,
         df: 0.0,
         spec_freq_hz: 1e9,
+        construction: None,
     };
     let trace = || copper(TRACE_LAYER, CopperRole::Signal);
     match *build {

@@ -17,6 +17,7 @@ pub mod routing;
 pub mod rule;
 pub mod spread;
 pub mod synthesis;
+pub mod weave;
 
 pub use rule::{
     analyze_rule, evaluate_rule, evaluate_rule_with, rule_figures, solve_line, RuleOutcome,

@@ -1,10 +1,11 @@
 //! A planned rule's routing figures: the least spacing to an identical neighbour that keeps crosstalk inside the
 //! project's budget ([`crate::plan::crosstalk`]) and, when the project names a link budget, the longest run inside
-//! it ([`crate::line::reach`]). What the rule cards and the fab notes show beside the width.
+//! it ([`crate::line::reach`]), and for a pair the skew the glass weave may add ([`crate::plan::weave`]). What the rule cards and the fab notes show beside the width.
 
 use crate::design::project::{ImpedanceRule, Project};
 use crate::line::reach::{self, ReachOptions};
 use crate::plan::crosstalk::{self, CrosstalkOptions};
+use crate::plan::weave::{self, WeaveSkew};
 use crate::plan::RuleResult;
 use serde::{Deserialize, Serialize};
 
@@ -21,6 +22,12 @@ pub struct RuleRouting {
     /// Why there is no reach (no link budget in the project, or no loss model for the line).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub reach_note: Option<String>,
+    /// A pair's glass-weave skew, when the layers around it have constructions.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub skew: Option<WeaveSkew>,
+    /// Why a pair has no weave skew (no construction given); nothing for a single line.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub skew_note: Option<String>,
 }
 
 /// The least edge-to-edge spacing to an identical neighbour inside the crosstalk budget.
@@ -111,11 +118,18 @@ pub fn for_result(project: &Project, rule: &ImpedanceRule, result: &RuleResult) 
             }
         }
     };
+    let (skew, skew_note) = match weave::weave_skew(project, rule, result) {
+        Ok(x) => (Some(x), None),
+        Err(_) if !rule.structure.is_pair() => (None, None),
+        Err(e) => (None, Some(e.to_string())),
+    };
     RuleRouting {
         spacing,
         spacing_note,
         reach,
         reach_note,
+        skew,
+        skew_note,
     }
 }
 

@@ -145,6 +145,17 @@ pub fn NotesPanel(props: &NotesProps) -> Html {
                 }) }
                 </tbody>
             </table>
+            if !view.routing.is_empty() {
+                <h2 class="notes-part">{ "Routing rules" }</h2>
+                <table class="notes-routing" data-testid="notes-routing">
+                    <thead><tr>{ for view.routing_head.iter().map(|h| html! { <th>{ *h }</th> }) }</tr></thead>
+                    <tbody>
+                    { for view.routing.iter().map(|row| html! {
+                        <tr>{ for row.iter().map(|c| html! { <td>{ c.clone() }</td> }) }</tr>
+                    }) }
+                    </tbody>
+                </table>
+            }
             <h2 class="notes-part">{ "Notes" }</h2>
             <ol class="notes-list">
                 { for view.notes.iter().map(|n| html! { <li>{ n.clone() }</li> }) }

@@ -1,5 +1,6 @@
 //! The budgets behind every rule's routing figures: the crosstalk budget per neighbour with the edge and run it
-//! is judged on, and the link's loss budget for the reach (blank Nyquist frequency: no reach). Values still at their
+//! is judged on, the link's loss budget for the reach (blank Nyquist frequency: no reach) and the share of its
+//! unit interval a pair's weave skew may take. Values still at their
 //! defaults are marked as common practice.
 
 use crate::bridge;
@@ -50,6 +51,7 @@ pub fn RoutingPanel(props: &RoutingProps) -> Html {
                 if r.link.is_some() {
                     { field(RoutingField::LinkBudget, "Loss budget (dB)".into(), r.link.map(|l| format_sig(l.budget_db, 4)).unwrap_or_default()) }
                     { field(RoutingField::LinkFixed, "Fixed losses (dB)".into(), r.link.map(|l| format_sig(l.fixed_db, 4)).unwrap_or_default()) }
+                    { field(RoutingField::SkewBudget, "Pair skew budget (UI)".into(), format_sig(r.skew_budget_ui, 3)) }
                 } else {
                     <span class="muted">{ "no reach without a link: half the symbol rate, e.g. 8 for 16 Gb/s NRZ" }</span>
                 }

@@ -296,7 +296,7 @@ fn routing(i: usize, r: &RuleResult, unit: ohmstack_core::base::units::LengthUni
                 <span data-testid={format!("rule-{i}-neighbour-spacing")} data-value={s.to_string()}>
                     { format!("Spacing to a neighbouring {} ≥ {} for ≤ {} % crosstalk ({} sets it: {} mm side by side, {} ps edges)",
                         if sp.arrangement.starts_with("pair") { "pair" } else { "trace" },
-                        bridge::min_length_label(s, unit), format_sig(sp.budget * 100.0, 3), sp.limited_by,
+                        ohmstack_core::base::units::format_length_at_least(s, unit), format_sig(sp.budget * 100.0, 3), sp.limited_by,
                         format_sig(sp.parallel_m * 1e3, 4), format_sig(sp.rise_s * 1e12, 3)) }
                 </span>
             },
@@ -324,8 +324,26 @@ fn routing(i: usize, r: &RuleResult, unit: ohmstack_core::base::units::LengthUni
         },
         None => html! {},
     };
+    let skew = match (&rt.skew, &rt.skew_note) {
+        (Some(w), _) => html! {
+            <span data-testid={format!("rule-{i}-skew")} data-value={w.skew_s_per_m.to_string()}>
+                { format!(" · weave skew up to {} ps/in along the weave{}", format_sig(w.skew_s_per_m * 1e12 * 0.0254, 3),
+                    match (w.run_at_budget_m, w.budget_s) {
+                        (Some(run), Some(b)) => format!(" ({} ps budget spent after {} mm straight)",
+                            format_sig(b * 1e12, 3), format_sig(run * 1e3, 3)),
+                        _ => String::new(),
+                    }) }
+            </span>
+        },
+        (None, Some(note)) => html! {
+            <span class="muted" data-testid={format!("rule-{i}-skew")}>
+                { format!(" · weave skew: {}", note.split_once(": ").map_or(note.as_str(), |x| x.1)) }
+            </span>
+        },
+        (None, None) => html! {},
+    };
     html! {
-        <p class="routing-detail" data-testid={format!("rule-{i}-routing")}>{ spacing }{ reach }</p>
+        <p class="routing-detail" data-testid={format!("rule-{i}-routing")}>{ spacing }{ reach }{ skew }</p>
     }
 }
 

@@ -83,7 +83,10 @@ pub fn summarize(plan: &Plan, unit: LengthUnit) -> Summary {
                     None => "…".to_string(),
                     Some(rt) => match &rt.spacing {
                         Some(sp) => match sp.min_spacing_m {
-                            Some(s) => format!("≥ {}", crate::bridge::min_length_label(s, unit)),
+                            Some(s) => format!(
+                                "≥ {}",
+                                ohmstack_core::base::units::format_length_at_least(s, unit)
+                            ),
                             None => "none within budget".to_string(),
                         },
                         None => "—".to_string(),

@@ -24,6 +24,7 @@ fn dielectric(name: &str, um: f64, dk: f64) -> Dielectric {
         dk,
         df: 0.02,
         spec_freq_hz: 1e9,
+        construction: None,
     }
 }
 
