@@ -107,3 +107,138 @@ fn a_copper_layer_or_an_unknown_name_is_refused_by_name() {
         .to_string();
     assert!(e.contains("nowhere"), "{e}");
 }
+
+/// The stack proposal (`plan::proposal`) on the project path.
+mod proposal {
+    use super::*;
+    use ohmstack_core::design::construction::{GLASS_DK, GLASS_STYLES};
+    use ohmstack_core::design::starter;
+    use ohmstack_core::plan::proposal::{propose_stack, ProposalOptions};
+
+    #[test]
+    fn an_offset_stripline_comes_back_centred_on_cohns_impedance() {
+        // Cohn 1954, exact for t = 0 in one dielectric. The two cores are each other's mirror, so the proposal
+        // builds them alike: the line is centred, and Cohn's formula at the proposed height and Dk (the Dk moves
+        // with the resin content) gives the target.
+        let (h, er, w) = (180e-6, 3.8, 140e-6);
+        let mut p = project(
+            Place::Stripline,
+            Geo {
+                h: 1.4 * h,
+                h2: h,
+                er,
+                t: 0.0,
+            },
+            Structure::Single,
+            w,
+            None,
+            None,
+        );
+        p.rules[0].target_ohm = z0_zero_thickness(w, 2.0 * h, er);
+        p.rules[0].model = ohmstack_core::design::project::RuleModel::ClosedForm;
+        let proposal = propose_stack(&p, &ProposalOptions::default()).unwrap();
+        assert!(proposal.unmet.is_empty(), "{:?}", proposal.unmet);
+        let layer = |name: &str| {
+            proposal
+                .layers
+                .iter()
+                .find(|l| l.layer == name)
+                .unwrap()
+                .clone()
+        };
+        let (above, below) = (layer("above"), layer("below"));
+        assert_eq!(above.construction, below.construction);
+        assert_eq!(above.thickness_m, below.thickness_m);
+        let cohn = z0_zero_thickness(w, 2.0 * below.thickness_m, below.dk);
+        assert!(
+            (cohn / p.rules[0].target_ohm - 1.0).abs() < 1e-6,
+            "{cohn} Ω against {} Ω at {} m, Dk {}",
+            p.rules[0].target_ohm,
+            below.thickness_m,
+            below.dk
+        );
+        assert!(proposal.project.stackup.is_symmetric());
+    }
+
+    #[test]
+    fn a_starter_board_thickened_by_a_third_comes_back_on_target_and_on_thickness() {
+        // The starter's six-layer board with its rules' solved widths is on target by construction; every
+        // dielectric 1.3 × thicker moves them off. The proposal at those widths and a 1.6 mm target must put them
+        // back within tolerance (the 50 Ω line and the 100 Ω pair on a layer were solved on one stack, so one
+        // thickness serves both) and the board within its thickness tolerance, symmetric, every layer from glass.
+        let mut p = ohmstack_core::design::demo::project();
+        p.stackup = starter::stack(6, None).unwrap();
+        p.rules = starter::rules(&p.stackup);
+        let plan = ohmstack_core::plan(&p).unwrap();
+        for (rule, outcome) in p.rules.iter_mut().zip(&plan.rules) {
+            rule.width_m = outcome.ok().unwrap().width_m;
+        }
+        for layer in &mut p.stackup.layers {
+            if let Layer::Core(d) | Layer::Prepreg(d) = layer {
+                d.thickness_m *= 1.3;
+            }
+        }
+        let options = ProposalOptions {
+            target_thickness_m: Some(1.6e-3),
+            ..ProposalOptions::default()
+        };
+        let proposal = propose_stack(&p, &options).unwrap();
+        assert!(proposal.unmet.is_empty(), "{:#?}", proposal.unmet);
+        for r in &proposal.rules {
+            assert!(r.within_tolerance, "{r:?}");
+            // Rules the proposal solved for sit much closer than the tolerance.
+            assert!(r.deviation_pct.unwrap().abs() < 2.0, "{r:?}");
+        }
+        assert!((proposal.total_thickness_m / 1.6e-3 - 1.0).abs() < 0.1);
+        let s = &proposal.project.stackup;
+        assert!(s.is_symmetric());
+        for layer in &s.layers {
+            if let Layer::Core(d) | Layer::Prepreg(d) = layer {
+                let c = d.construction.as_ref().expect("every dielectric is built");
+                assert!(GLASS_STYLES.iter().any(|g| g.style == c.glass));
+                // Physical bounds: a mixture's Dk lies between its resin's and the glass's.
+                let l = c.construction().unwrap().laminate().unwrap();
+                assert!(l.resin_dk < d.dk && d.dk < GLASS_DK, "{d:?}");
+                assert_eq!(d.thickness_m, l.thickness_m);
+            }
+        }
+        // The proposed project reads back as it is (constructions applied on reading give the same figures).
+        let back = Project::from_json(&proposal.project.to_json()).unwrap();
+        assert_eq!(back.stackup, proposal.project.stackup);
+    }
+
+    #[test]
+    fn what_cannot_be_met_is_said_with_why() {
+        // Two rules on one layer whose widths want different heights: they share the dielectric, so at least one
+        // is off, and the proposal says they share it. A 0.2 mm board cannot hold the stack either.
+        let mut p = ohmstack_core::design::demo::project();
+        p.stackup = starter::stack(4, None).unwrap();
+        p.rules = starter::rules(&p.stackup);
+        for r in &mut p.rules {
+            r.tolerance_pct = 1.0;
+            r.width_m = if r.structure.is_pair() { 60e-6 } else { 400e-6 };
+        }
+        let options = ProposalOptions {
+            target_thickness_m: Some(0.2e-3),
+            ..ProposalOptions::default()
+        };
+        let proposal = propose_stack(&p, &options).unwrap();
+        let text = proposal.unmet.join("\n");
+        assert!(text.contains("shares its dielectric"), "{text}");
+        assert!(text.contains("board thickness"), "{text}");
+        // A stack whose mirrored places hold different kinds of layer is refused by name.
+        let mut lopsided = p.clone();
+        if let Some(i) = lopsided
+            .stackup
+            .layers
+            .iter()
+            .position(|l| matches!(l, Layer::Prepreg(_)))
+        {
+            if let Layer::Prepreg(d) = lopsided.stackup.layers[i].clone() {
+                lopsided.stackup.layers[i] = Layer::Core(d);
+            }
+        }
+        let e = propose_stack(&lopsided, &options).unwrap_err().to_string();
+        assert!(e.contains("mirror"), "{e}");
+    }
+}

@@ -65,6 +65,8 @@ enum Command {
     Thickness(thickness::Args),
     /// A core or prepreg from its glass style, plies and resin: thickness, Dk, Df and weave skew
     Laminate(laminate::Args),
+    /// Glass constructions for every core and prepreg that put the rules on target and the board on thickness
+    Propose(propose::Args),
     /// Touchstone 1.1 S-parameters of a line segment (2-port, or 4-port for a pair)
     Touchstone(touchstone::Args),
     /// Shell completion script for bash, zsh, fish, elvish or PowerShell
@@ -106,6 +108,7 @@ fn run(cli: Cli) -> anyhow::Result<()> {
         Command::Crosstalk(a) => crosstalk::run(a),
         Command::Reach(a) => reach::run(a),
         Command::Thickness(a) => thickness::run(a),
+        Command::Propose(a) => propose::run(a),
         Command::Laminate(a) => laminate::run(a),
         Command::Touchstone(a) => touchstone::run(a),
         Command::Completions(a) => completions::run(a),

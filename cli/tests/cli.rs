@@ -715,6 +715,29 @@ fn thickness_puts_the_rule_on_target_and_names_bad_layers() {
         "{v}"
     );
     assert!(v["pressed_thickness_m"].as_f64().unwrap() < v["thickness_m"].as_f64().unwrap());
+    // Built from glass: a known style, and the rule back on target at the construction's own Dk.
+    let (code, out, err) = ohmstack(
+        &[
+            "thickness",
+            "-",
+            "--rule",
+            TOP,
+            "--layer",
+            "PP1",
+            "--snap",
+            "--json",
+        ],
+        demo(),
+    );
+    assert_eq!(code, 0, "{err}");
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    let s = &v["snapped"];
+    assert!(s["construction"]["plies"].as_u64().unwrap() >= 1, "{v}");
+    assert!(
+        (s["impedance_ohm"].as_f64().unwrap() / s["target_ohm"].as_f64().unwrap() - 1.0).abs()
+            < 1e-3,
+        "{v}"
+    );
     for (layer, words) in [
         ("L2 GND", "copper"),
         ("Core 2", "does not lie between"),
@@ -725,6 +748,53 @@ fn thickness_puts_the_rule_on_target_and_names_bad_layers() {
         assert!(
             err.lines().count() == 1 && err.contains("layer") && err.contains(words),
             "{layer}: {err}"
+        );
+    }
+}
+
+#[test]
+fn propose_builds_a_symmetric_stack_and_writes_it() {
+    // The fixture's eight layers mirror by kind; the proposal keeps them so and saves a project that reads back.
+    let fixture = std::fs::read_to_string(concat!(
+        env!("CARGO_MANIFEST_DIR"),
+        "/../tests/fixtures/eight_layer_ten_rules.json"
+    ))
+    .unwrap();
+    let out_file =
+        std::env::temp_dir().join(format!("ohmstack-proposed-{}.json", std::process::id()));
+    let out_path = out_file.to_str().unwrap();
+    let (code, out, err) = ohmstack(
+        &[
+            "propose",
+            "-",
+            "--thickness",
+            "1.6mm",
+            "--json",
+            "--write",
+            out_path,
+        ],
+        &fixture,
+    );
+    assert_eq!(code, 0, "{err}");
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    assert!(!v["layers"].as_array().unwrap().is_empty(), "{v}");
+    assert_eq!(v["target_thickness_m"].as_f64(), Some(1.6e-3));
+    let written = std::fs::read_to_string(&out_file).unwrap();
+    let _ = std::fs::remove_file(&out_file);
+    assert!(written.contains("\"construction\""));
+    let (code, _, err) = ohmstack(&["analyze", "-"], &written);
+    assert_eq!(code, 0, "the proposed project opens: {err}");
+    // Bad options name the option.
+    for (args, words) in [
+        (vec!["propose", "-", "--styles", "9999"], "--styles"),
+        (vec!["propose", "-", "--thickness", "soon"], "--thickness"),
+        (vec!["propose", "-", "--max-plies", "0"], "plies"),
+    ] {
+        let (code, _, err) = ohmstack(&args, &fixture);
+        assert_ne!(code, 0);
+        assert!(
+            err.lines().count() == 1 && err.contains(words),
+            "{args:?}: {err}"
         );
     }
 }

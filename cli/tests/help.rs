@@ -32,6 +32,7 @@ const COMMANDS: &[&[&str]] = &[
     &["reach"],
     &["thickness"],
     &["laminate"],
+    &["propose"],
     &["completions"],
 ];
 

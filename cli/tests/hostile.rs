@@ -220,6 +220,7 @@ fn every_project_command_rejects_hostile_stdin() {
             "10mm",
         ],
         &["crosstalk", "-"],
+        &["propose", "-"],
         &["reach", "-", "--nyquist", "4GHz", "--budget", "10"],
         &[
             "thickness",
@@ -313,6 +314,8 @@ fn options_of_project_commands_reject_hostile_values() {
                 "--plies",
                 bad,
             ],
+            vec!["propose", "-", "--thickness", bad],
+            vec!["propose", "-", "--max-plies", bad],
             vec!["field", "-", "--rule", rule, "--tolerance", bad],
             vec!["field-solve", "-", "--rule", rule, "--tolerance", bad],
         ] {

@@ -108,6 +108,26 @@ pub fn length_label(metres: f64, unit: LengthUnit) -> String {
     units::format_length(metres, unit)
 }
 
+/// The plot of a rule's insertion loss against frequency over its reach, with the link budget, once its routing
+/// figures are in and the board has a link budget.
+pub fn insertion_loss_plot_svg(result: &RuleResult, unit: LengthUnit) -> Option<String> {
+    let reach = result.routing.as_ref()?.reach.as_ref()?;
+    let run = reach.reach_m?;
+    (!reach.curve.is_empty()).then(|| {
+        ohmstack_core::output::plot::insertion_loss_plot(
+            format!(
+                "{}: insertion loss of {} ({}) with {} dB fixed",
+                result.name,
+                units::format_length(run, unit),
+                reach.signal,
+                ohmstack_core::base::units::format_sig(reach.fixed_db, 4)
+            ),
+            &reach.curve,
+            reach.budget_db,
+        )
+    })
+}
+
 /// The plot of a rule's crosstalk against the spacing to its neighbour, once its routing figures are in.
 pub fn crosstalk_plot_svg(result: &RuleResult, unit: LengthUnit) -> Option<String> {
     let sp = result.routing.as_ref()?.spacing.as_ref()?;

@@ -84,6 +84,11 @@ def test_rule_cards_show_the_spacing_rule_and_the_reach(driver, how):
                             what="the crosstalk plot")
     svg = plot.get_attribute("outerHTML")
     assert "near end" in svg and "far end" in svg and "budget 3 %" in svg, svg[:300]
+    # And the insertion loss of a run of the rule's reach against frequency, with the link budget.
+    il = browser.wait_for(lambda: driver.find_element(By.CSS_SELECTOR, "[data-testid='plot-insertion-loss'] svg"),
+                          what="the insertion-loss plot")
+    svg = il.get_attribute("outerHTML")
+    assert "budget 10 dB" in svg and "run + fixed losses" in svg, svg[:300]
     driver.execute_script("document.querySelector(\"[data-testid='rule-0-routing']\").scrollIntoView({block: 'center'})")
     browser.screenshot(driver, "routing-on-cards")
     assert browser.console_errors(driver) == []

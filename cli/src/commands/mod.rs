@@ -17,6 +17,7 @@ pub mod loss;
 pub mod materials;
 pub mod notes;
 pub mod plot;
+pub mod propose;
 pub mod random;
 pub mod reach;
 pub mod share;

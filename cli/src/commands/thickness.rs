@@ -3,6 +3,7 @@
 
 use ohmstack_core::base::units::format_length;
 use ohmstack_core::plan::height::solve_layer_thickness;
+use ohmstack_core::plan::proposal::{snap_layer_thickness, ProposalOptions};
 use ohmstack_core::Project;
 
 use crate::files::read_input;
@@ -23,6 +24,10 @@ pub struct Args {
     /// The core or prepreg whose thickness to solve
     #[arg(long, value_name = "NAME", allow_hyphen_values = true)]
     pub layer: String,
+    /// Also build the layer from glass: the construction (style, plies, resin content) nearest the solved
+    /// thickness, the solve repeated at its Dk until it stops changing
+    #[arg(long)]
+    pub snap: bool,
     /// Print the result as JSON
     #[arg(long)]
     pub json: bool,
@@ -35,8 +40,22 @@ pub fn run(args: Args) -> Result<()> {
     args.engine.apply(&mut project);
     let rule = &project.rules[crate::args::rule_index(&project, &args.rule)?];
     let r = solve_layer_thickness(&project, rule, &args.layer)?;
+    let snapped = if args.snap {
+        Some(snap_layer_thickness(
+            &project,
+            rule,
+            &args.layer,
+            &ProposalOptions::default(),
+        )?)
+    } else {
+        None
+    };
     if args.json {
-        println!("{}", serde_json::to_string_pretty(&r)?);
+        let mut v = serde_json::to_value(&r)?;
+        if let Some(s) = &snapped {
+            v["snapped"] = serde_json::to_value(s)?;
+        }
+        println!("{}", serde_json::to_string_pretty(&v)?);
         return Ok(());
     }
     let unit = project.units;
@@ -55,6 +74,15 @@ pub fn run(args: Args) -> Result<()> {
         println!(
             "  pressed in the board: {}",
             format_length(r.pressed_thickness_m, unit)
+        );
+    }
+    if let Some(s) = snapped {
+        println!(
+            "  built from glass: {} → {}, Dk {}: {:.3} Ω at the rule's width",
+            s.construction.label(),
+            format_length(s.thickness_m, unit),
+            ohmstack_core::base::units::format_sig(s.dk, 4),
+            s.impedance_ohm
         );
     }
     Ok(())

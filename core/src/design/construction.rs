@@ -294,7 +294,7 @@ impl LayerConstruction {
             "{} × {}, {} % resin",
             self.plies,
             self.glass,
-            error::compact(self.resin_pct)
+            crate::base::units::format_sig(self.resin_pct, 3)
         )
     }
 }

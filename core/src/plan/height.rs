@@ -44,23 +44,41 @@ pub fn solve_layer_thickness(
     rule: &ImpedanceRule,
     layer: &str,
 ) -> Result<LayerThickness> {
+    solve_layers_thickness(project, rule, &[layer])
+}
+
+/// [`solve_layer_thickness`] for layers that keep one thickness between them (a layer and its mirror in a
+/// symmetric stack): all of `layers` move together; the answer names the first.
+pub fn solve_layers_thickness(
+    project: &Project,
+    rule: &ImpedanceRule,
+    layers: &[&str],
+) -> Result<LayerThickness> {
     let bad = |reason: String| Error::Invalid {
         field: "layer".into(),
         reason,
     };
-    let idx = project
-        .stackup
-        .find(layer)
-        .ok_or_else(|| bad(format!("no layer named {layer:?} in the stack")))?;
-    let (kind, was) = match &project.stackup.layers[idx] {
-        Layer::Core(d) => ("core", d.thickness_m),
-        Layer::Prepreg(d) => ("prepreg", d.thickness_m),
-        other => {
+    let mut indices = Vec::new();
+    for layer in layers {
+        let idx = project
+            .stackup
+            .find(layer)
+            .ok_or_else(|| bad(format!("no layer named {layer:?} in the stack")))?;
+        if let other @ (Layer::Copper(_) | Layer::SolderMask(_)) = &project.stackup.layers[idx] {
             return Err(bad(format!(
                 "{layer:?} is a {}: only a core's or a prepreg's thickness is solved for",
                 other.kind_name()
-            )))
+            )));
         }
+        indices.push(idx);
+    }
+    let (Some(&idx), Some(layer)) = (indices.first(), layers.first()) else {
+        return Err(bad("no layer given".into()));
+    };
+    let (kind, was) = match &project.stackup.layers[idx] {
+        Layer::Core(d) => ("core", d.thickness_m),
+        Layer::Prepreg(d) => ("prepreg", d.thickness_m),
+        _ => return Err(bad(format!("{layer:?} is not a core or a prepreg"))),
     };
     let fixed = ImpedanceRule {
         solve: Solve::Nothing,
@@ -75,8 +93,10 @@ pub fn solve_layer_thickness(
     };
     let with = |t: f64| -> Project {
         let mut p = project.clone();
-        if let Layer::Core(d) | Layer::Prepreg(d) = &mut p.stackup.layers[idx] {
-            d.thickness_m = t;
+        for &i in &indices {
+            if let Layer::Core(d) | Layer::Prepreg(d) = &mut p.stackup.layers[i] {
+                d.thickness_m = t;
+            }
         }
         p
     };

@@ -13,6 +13,7 @@ pub mod crosstalk;
 pub mod field_check;
 pub mod field_synth;
 pub mod height;
+pub mod proposal;
 pub mod routing;
 pub mod rule;
 pub mod spread;

@@ -61,7 +61,14 @@ pub struct ReachRule {
     pub reach_m: Option<f64>,
     /// "line" or "differential (odd mode)".
     pub signal: String,
+    /// Insertion loss of a run of the reach length with the fixed losses, (Hz, dB) from a twentieth of the Nyquist
+    /// frequency to twice it (for the plot; empty without a reach).
+    #[serde(default)]
+    pub curve: Vec<(f64, f64)>,
 }
+
+/// Points of the insertion-loss curve, log-spaced from a twentieth of the Nyquist frequency to twice it.
+const CURVE_POINTS: u32 = 24;
 
 /// The routing figures of a planned rule against the project's [`crate::design::project::Routing`].
 pub fn for_result(project: &Project, rule: &ImpedanceRule, result: &RuleResult) -> RuleRouting {
@@ -111,6 +118,23 @@ pub fn for_result(project: &Project, rule: &ImpedanceRule, result: &RuleResult) 
                         fixed_db: link.fixed_db,
                         reach_m: x.reach_m,
                         signal: x.signal.into(),
+                        curve: x
+                            .reach_m
+                            .and_then(|run| {
+                                let model =
+                                    crate::plan::rule::loss_model(project, rule, result).ok()?;
+                                // The Nyquist frequency itself among them: the curve meets the budget there.
+                                let mut freqs: Vec<f64> = (0..=CURVE_POINTS)
+                                    .map(|i| {
+                                        let k = f64::from(i) / f64::from(CURVE_POINTS);
+                                        link.nyquist_hz * 0.05 * 40f64.powf(k)
+                                    })
+                                    .chain([link.nyquist_hz])
+                                    .collect();
+                                freqs.sort_by(f64::total_cmp);
+                                reach::insertion_loss(&model, run, link.fixed_db, &freqs).ok()
+                            })
+                            .unwrap_or_default(),
                     }),
                     None,
                 ),
@@ -166,6 +190,13 @@ mod tests {
             }
             let reach = rt.reach.as_ref().unwrap();
             assert!((reach.reach_m.unwrap() - 8.0 / reach.loss_db_per_m).abs() < 1e-12);
+            // The curve's run is the reach, so at the Nyquist frequency it spends the budget exactly.
+            let at_nyquist = reach
+                .curve
+                .iter()
+                .find(|(f, _)| (f / 5e9 - 1.0).abs() < 1e-9)
+                .unwrap();
+            assert!((at_nyquist.1 - 10.0).abs() < 1e-9, "{at_nyquist:?}");
         }
         assert!(spacings >= 3, "{spacings}");
         // Without a link budget the reach says why; without the option nothing is computed.

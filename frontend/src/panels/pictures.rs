@@ -1,5 +1,5 @@
 //! Pictures of one rule: the cross-section drawing, loss against frequency, impedance against width, the
-//! Monte Carlo histogram with the tolerance window, crosstalk against the spacing to a neighbour, the potential map
+//! Monte Carlo histogram with the tolerance window, crosstalk against the spacing to a neighbour, the insertion loss over the reach, the potential map
 //! of the last field check, and a Touchstone download.
 //! The SVG strings come from the core (which escapes all user text); they are the only raw HTML in the app.
 
@@ -108,12 +108,13 @@ pub fn PicturesPanel(props: &PicturesProps) -> Html {
     let plots = use_memo((row.clone(), rule), move |(row, r)| {
         let (p, i) = (&project, (*r)?);
         Some(match row.as_ref()? {
-            Err(e) => (Err(e.clone()), Err(e.clone()), Err(e.clone()), None),
+            Err(e) => (Err(e.clone()), Err(e.clone()), Err(e.clone()), None, None),
             Ok(result) => (
                 bridge::loss_plot_svg(p, i, result),
                 bridge::z_width_plot_svg(p, i, result),
                 bridge::spread_view(result),
                 bridge::crosstalk_plot_svg(result, p.units),
+                bridge::insertion_loss_plot_svg(result, p.units),
             ),
         })
     });
@@ -162,7 +163,7 @@ pub fn PicturesPanel(props: &PicturesProps) -> Html {
     };
     let plots_html = match &*plots {
         None => html! { <p class="muted">{ "The project has no impedance rules to plot." }</p> },
-        Some((loss, z_width, spread, crosstalk)) => {
+        Some((loss, z_width, spread, crosstalk, insertion_loss)) => {
             let spread_fig = match spread {
                 Ok(s) => html! {
                     <div class="spread">
@@ -192,6 +193,9 @@ pub fn PicturesPanel(props: &PicturesProps) -> Html {
                 { spread_fig }
                 if let Some(svg) = crosstalk {
                     { figure("plot-crosstalk", "Crosstalk to an identical neighbour against the edge-to-edge spacing: near and far end, with the board's budget.", &Ok(svg.clone())) }
+                }
+                if let Some(svg) = insertion_loss {
+                    { figure("plot-insertion-loss", "Insertion loss of a run of the rule's reach against frequency, fixed losses included: it meets the link budget at the Nyquist frequency.", &Ok(svg.clone())) }
                 }
                 { field_map_figure(props.field_map.as_deref(), rule) }
                 </>
