@@ -18,26 +18,32 @@ fn set_thickness(p: &mut Project, layer: &str, t: f64) {
     }
 }
 
+/// A zero-thickness line of width `w` between two cores of Dk `er`, the lower one 1.4 × the upper `h`; its target is
+/// the centred line's exact impedance (Cohn 1954, b = 2h).
+fn offset_stripline_on_cohns_target(h: f64, er: f64, w: f64) -> Project {
+    let mut p = project(
+        Place::Stripline,
+        Geo {
+            h: 1.4 * h,
+            h2: h,
+            er,
+            t: 0.0,
+        },
+        Structure::Single,
+        w,
+        None,
+        None,
+    );
+    p.rules[0].target_ohm = z0_zero_thickness(w, 2.0 * h, er);
+    p
+}
+
 #[test]
 fn a_cohn_target_centres_the_stripline() {
     // Cohn 1954, exact for t = 0 in one dielectric: Z0 of w in a channel b = 2h.
     let (h, er, w) = (180e-6, 3.8, 140e-6);
     for model in [false, true] {
-        // The lower core starts off-centre; the target is the centred line's exact impedance.
-        let mut p = project(
-            Place::Stripline,
-            Geo {
-                h: 1.4 * h,
-                h2: h,
-                er,
-                t: 0.0,
-            },
-            Structure::Single,
-            w,
-            None,
-            None,
-        );
-        p.rules[0].target_ohm = z0_zero_thickness(w, 2.0 * h, er);
+        let mut p = offset_stripline_on_cohns_target(h, er, w);
         if model {
             p.rules[0].model = ohmstack_core::design::project::RuleModel::ClosedForm;
         }
@@ -121,20 +127,7 @@ mod proposal {
         // builds them alike: the line is centred, and Cohn's formula at the proposed height and Dk (the Dk moves
         // with the resin content) gives the target.
         let (h, er, w) = (180e-6, 3.8, 140e-6);
-        let mut p = project(
-            Place::Stripline,
-            Geo {
-                h: 1.4 * h,
-                h2: h,
-                er,
-                t: 0.0,
-            },
-            Structure::Single,
-            w,
-            None,
-            None,
-        );
-        p.rules[0].target_ohm = z0_zero_thickness(w, 2.0 * h, er);
+        let mut p = offset_stripline_on_cohns_target(h, er, w);
         p.rules[0].model = ohmstack_core::design::project::RuleModel::ClosedForm;
         let proposal = propose_stack(&p, &ProposalOptions::default()).unwrap();
         assert!(proposal.unmet.is_empty(), "{:?}", proposal.unmet);
@@ -171,7 +164,9 @@ mod proposal {
         p.rules = starter::rules(&p.stackup);
         let plan = ohmstack_core::plan(&p).unwrap();
         for (rule, outcome) in p.rules.iter_mut().zip(&plan.rules) {
+            // The designer's widths, fixed from here on.
             rule.width_m = outcome.ok().unwrap().width_m;
+            rule.solve = ohmstack_core::design::project::Solve::Nothing;
         }
         for layer in &mut p.stackup.layers {
             if let Layer::Core(d) | Layer::Prepreg(d) = layer {
@@ -208,6 +203,27 @@ mod proposal {
     }
 
     #[test]
+    fn a_rule_that_solves_its_width_keeps_the_width_it_has_now() {
+        // The starter's rules solve their widths: the proposal takes the widths they solve to on the present
+        // stack, so a stack already on target is proposed back on target.
+        let mut mirrored = ohmstack_core::design::demo::project();
+        mirrored.stackup = starter::stack(6, None).unwrap();
+        mirrored.rules = starter::rules(&mirrored.stackup);
+        let planned = ohmstack_core::plan(&mirrored).unwrap();
+        let proposal = propose_stack(&mirrored, &ProposalOptions::default()).unwrap();
+        for ((rule, outcome), proposed) in mirrored
+            .rules
+            .iter()
+            .zip(&planned.rules)
+            .zip(&proposal.rules)
+        {
+            let r = outcome.ok().unwrap();
+            assert_eq!(proposed.width_m, r.width_m, "{}", rule.name);
+            assert!(proposed.within_tolerance, "{proposed:?}");
+        }
+    }
+
+    #[test]
     fn what_cannot_be_met_is_said_with_why() {
         // Two rules on one layer whose widths want different heights: they share the dielectric, so at least one
         // is off, and the proposal says they share it. A 0.2 mm board cannot hold the stack either.
@@ -217,6 +233,7 @@ mod proposal {
         for r in &mut p.rules {
             r.tolerance_pct = 1.0;
             r.width_m = if r.structure.is_pair() { 60e-6 } else { 400e-6 };
+            r.solve = ohmstack_core::design::project::Solve::Nothing;
         }
         let options = ProposalOptions {
             target_thickness_m: Some(0.2e-3),

@@ -565,6 +565,7 @@ pub fn App() -> Html {
             <crate::panels::share::SharePanel project={project.clone()} on_load={on_load} saved_work={(*saved_work).clone()} />
             <Layers project={project.clone()} drafts={drafts.clone()} plan={shown.clone()} dispatch={dispatch.clone()} />
             <Rules project={project.clone()} drafts={drafts.clone()} plan={shown} {rows} {stale} dispatch={dispatch.clone()} {on_field_map} />
+            <crate::panels::glass::GlassPanel project={project.clone()} drafts={drafts.clone()} dispatch={dispatch.clone()} />
             <crate::panels::process::ProcessPanel project={project.clone()} drafts={drafts.clone()} dispatch={dispatch.clone()} />
             <crate::panels::routing::RoutingPanel project={project.clone()} {drafts} {dispatch} />
             <crate::panels::pictures::PicturesPanel project={project.clone()} plan={plan_rc.clone()} field_map={current_map} />

@@ -8,6 +8,7 @@ mod panels;
 mod persist;
 mod plan_client;
 mod plan_jobs;
+mod proposer;
 mod state;
 mod widgets;
 mod worker;

@@ -105,7 +105,7 @@ pub struct PlanClient {
 }
 
 /// The loader's worker factory, or why there is none.
-fn spawn_worker() -> Result<Worker, String> {
+pub fn spawn_worker() -> Result<Worker, String> {
     let factory = js_sys::Reflect::get(&js_sys::global(), &JsValue::from_str("ohmstackPlanWorker"))
         .ok()
         .and_then(|f| f.dyn_into::<js_sys::Function>().ok())

@@ -27,6 +27,50 @@ fn yes() -> bool {
     true
 }
 
+/// Prefix of a stack proposal's messages, which a worker of its own answers beside the plan's protocol.
+pub const PROPOSAL_TAG: &str = "propose:";
+
+/// A stack proposal asked of a worker: the project (plain serde JSON) and the board thickness to aim at.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct ProposalRequest {
+    pub project: String,
+    pub target_thickness_m: Option<f64>,
+}
+
+/// A proposal's answer: the proposed project (JSON) and what it could not meet, or why there is none.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct ProposalReply {
+    pub project: Option<String>,
+    #[serde(default)]
+    pub unmet: Vec<String>,
+    pub error: Option<String>,
+}
+
+/// Runs a proposal (`plan::proposal`) with the default options and the request's target thickness.
+pub fn run_proposal(request: &ProposalRequest) -> ProposalReply {
+    let failed = |error: String| ProposalReply {
+        project: None,
+        unmet: Vec::new(),
+        error: Some(error),
+    };
+    let project: Project = match serde_json::from_str(&request.project) {
+        Ok(p) => p,
+        Err(e) => return failed(format!("the proposal got a project it cannot read: {e}")),
+    };
+    let options = ohmstack_core::plan::proposal::ProposalOptions {
+        target_thickness_m: request.target_thickness_m,
+        ..Default::default()
+    };
+    match ohmstack_core::plan::proposal::propose_stack(&project, &options) {
+        Ok(p) => ProposalReply {
+            project: serde_json::to_string(&p.project).ok(),
+            unmet: p.unmet,
+            error: None,
+        },
+        Err(e) => failed(e.to_string()),
+    }
+}
+
 /// What the worker reports, each for the generation it was asked under.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 #[serde(tag = "kind", rename_all = "snake_case")]
@@ -1237,5 +1281,35 @@ mod tests {
         landed.prepare(6, &other, true);
         landed.keep(&stale);
         assert_eq!(landed.prepare(7, &other, true).1, vec![0]);
+    }
+
+    #[test]
+    fn a_proposal_travels_as_text_and_comes_back_as_a_project() {
+        // What the proposal worker answers for the demo: either a project that reads back with every core and
+        // prepreg built from glass, or the core's reason; a message it cannot read says so.
+        let demo = ohmstack_core::design::demo::project();
+        let request = ProposalRequest {
+            project: serde_json::to_string(&demo).unwrap(),
+            target_thickness_m: Some(1.6e-3),
+        };
+        let text = serde_json::to_string(&request).unwrap();
+        let reply = run_proposal(&serde_json::from_str(&text).unwrap());
+        match (&reply.project, &reply.error) {
+            (Some(p), None) => {
+                let p = Project::from_json(p).unwrap();
+                assert!(p.stackup.layers.iter().all(|l| match l {
+                    ohmstack_core::design::stackup::Layer::Core(d)
+                    | ohmstack_core::design::stackup::Layer::Prepreg(d) => d.construction.is_some(),
+                    _ => true,
+                }));
+            }
+            (None, Some(e)) => assert!(e.contains("mirror"), "{e}"),
+            other => panic!("{other:?}"),
+        }
+        let bad = run_proposal(&ProposalRequest {
+            project: "{".into(),
+            target_thickness_m: None,
+        });
+        assert!(bad.error.unwrap().contains("cannot read"));
     }
 }

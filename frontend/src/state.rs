@@ -39,6 +39,10 @@ pub enum LayerField {
     TolThickness,
     /// This layer's Dk ± limit (blank: the project's).
     TolDk,
+    /// Plies of a core's or prepreg's glass construction.
+    Plies,
+    /// Resin content of the construction, %.
+    Resin,
 }
 
 /// A ± limit of the process that the tolerance spread varies.
@@ -235,6 +239,10 @@ impl RoutingField {
     }
 }
 
+/// How far a chosen glass style may move its resin content from the usual one to keep the layer's thickness,
+/// ± fraction (common practice, no source: fabricators buy prepreg in a few resin contents around the usual).
+pub const GLASS_RESIN_BAND: f64 = 0.06;
+
 /// Link budget a Nyquist frequency starts with before the user sets one, dB (a round figure, not a standard's).
 pub const STARTING_LINK_BUDGET_DB: f64 = 10.0;
 
@@ -285,6 +293,8 @@ impl Field {
                     LayerField::BaseFoil => "base-foil",
                     LayerField::TolThickness => "tol-thickness",
                     LayerField::TolDk => "tol-dk",
+                    LayerField::Plies => "plies",
+                    LayerField::Resin => "resin",
                 }
             ),
             Field::Routing(r) => format!("routing-{}", r.key()),
@@ -409,6 +419,9 @@ pub enum Action {
     /// Copper weight in oz/ft².
     SetCopperWeight(usize, f64),
     ApplyPreset(usize, &'static str),
+    /// Build a core or prepreg from this glass style (its plies and resin content chosen to keep the thickness as
+    /// near as the style allows), or enter its thickness and Dk directly again ("").
+    SetGlass(usize, String),
     /// Insert a new layer below `usize` (the other kind: dielectric under copper, copper under dielectric), named
     /// by its position.
     InsertLayer(usize),
@@ -951,10 +964,32 @@ impl State {
                     (
                         LayerField::Thickness,
                         Layer::Core(d) | Layer::Prepreg(d) | Layer::SolderMask(d),
-                    ) => d.thickness_m = bridge::parse_length("thickness", text, unit)?,
+                    ) => {
+                        // A thickness typed in is entered directly: the layer is no longer built from glass.
+                        d.construction = None;
+                        d.thickness_m = bridge::parse_length("thickness", text, unit)?
+                    }
+                    (LayerField::Plies | LayerField::Resin, Layer::Core(d) | Layer::Prepreg(d)) => {
+                        let Some(c) = d.construction.as_mut() else {
+                            return Err(format!("{name}: choose a glass style first"));
+                        };
+                        if f == LayerField::Plies {
+                            c.plies = text.trim().parse::<u32>().map_err(|_| {
+                                format!("{name} plies: {:?} is not a whole number", text.trim())
+                            })?;
+                        } else {
+                            c.resin_pct = bridge::parse_number("resin content", text, &["%"])?;
+                        }
+                    }
                     (f, Layer::Core(d) | Layer::Prepreg(d) | Layer::SolderMask(d)) => match f {
-                        LayerField::Dk => d.dk = bridge::parse_number("dk", text, &[])?,
-                        LayerField::Df => d.df = bridge::parse_number("df", text, &[])?,
+                        LayerField::Dk => {
+                            d.construction = None;
+                            d.dk = bridge::parse_number("dk", text, &[])?
+                        }
+                        LayerField::Df => {
+                            d.construction = None;
+                            d.df = bridge::parse_number("df", text, &[])?
+                        }
                         LayerField::SpecFreq => {
                             d.spec_freq_hz = bridge::parse_frequency_ghz("spec_freq", text)?
                         }
@@ -978,6 +1013,7 @@ impl State {
                     }
                     (_, Layer::Copper(_)) => return Err("copper has no such field".into()),
                 }
+                p.stackup.apply_constructions().map_err(|e| e.to_string())?;
                 p.stackup.validate().map_err(|e| e.to_string())?;
                 let new_name = p.stackup.layers[i].name().to_string();
                 if new_name != old_name {
@@ -1132,6 +1168,42 @@ impl State {
                     d.dk = preset.dk;
                     d.df = preset.df;
                     d.spec_freq_hz = preset.spec_freq_hz;
+                    // A built layer keeps its glass; the preset is its new datasheet point.
+                    if let Some(c) = d.construction.as_mut() {
+                        c.datasheet_dk = preset.dk;
+                        c.datasheet_df = preset.df;
+                    }
+                }
+                if p.stackup.apply_constructions().is_err() {
+                    return;
+                }
+            }
+            Action::SetGlass(i, style) => {
+                use ohmstack_core::design::construction::glass_style;
+                use ohmstack_core::plan::proposal::nearest_construction;
+                let core = matches!(p.stackup.layers.get(i), Some(Layer::Core(_)));
+                let Some(Layer::Core(d) | Layer::Prepreg(d)) = p.stackup.layers.get_mut(i) else {
+                    return;
+                };
+                if style.is_empty() {
+                    d.construction = None;
+                } else {
+                    let Ok(g) = glass_style(&style) else { return };
+                    let datasheet = d
+                        .construction
+                        .as_ref()
+                        .map_or((d.dk, d.df), |c| (c.datasheet_dk, c.datasheet_df));
+                    let max_plies = if core { 12 } else { 6 };
+                    d.construction = Some(nearest_construction(
+                        d.thickness_m,
+                        datasheet,
+                        &[g],
+                        max_plies,
+                        GLASS_RESIN_BAND,
+                    ));
+                }
+                if p.stackup.apply_constructions().is_err() {
+                    return;
                 }
             }
             Action::InsertLayer(i) | Action::InsertAbove(i) => {
@@ -1346,6 +1418,7 @@ impl Reducible for State {
             | Action::SetCopperRole(..)
             | Action::SetCopperWeight(..)
             | Action::ApplyPreset(..)
+            | Action::SetGlass(..)
             | Action::InsertLayer(_)
             | Action::InsertAbove(_)
             | Action::RenumberLayers
@@ -2020,6 +2093,69 @@ mod tests {
             let e = s.drafts[&f].error.clone().unwrap();
             assert!(e.contains("target board thickness"), "{bad}: {e}");
         }
+    }
+
+    #[test]
+    fn a_layer_built_from_glass_follows_its_construction_until_typed_over() {
+        let s = State::default();
+        let i = s
+            .project
+            .stackup
+            .layers
+            .iter()
+            .position(|l| matches!(l, Layer::Prepreg(_)))
+            .unwrap();
+        let before = s.project.stackup.layers[i].dielectric().unwrap().clone();
+        let s = reduce(s, Action::SetGlass(i, "1080".into()));
+        let d = s.project.stackup.layers[i].dielectric().unwrap().clone();
+        let c = d.construction.clone().expect("built from 1080");
+        assert_eq!(c.glass, "1080");
+        // Plies and resin chosen to keep the thickness as near as the style allows; the Dk as entered is its
+        // datasheet point, and the layer's figures are the construction's.
+        assert_eq!((c.datasheet_dk, c.datasheet_df), (before.dk, before.df));
+        let l = c.construction().unwrap().laminate().unwrap();
+        assert_eq!((d.thickness_m, d.dk, d.df), (l.thickness_m, l.dk, l.df));
+        assert!(
+            (d.thickness_m / before.thickness_m - 1.0).abs() < 0.2,
+            "{d:?}"
+        );
+        // One more ply: thicker. An impossible resin content names the field and keeps the layer.
+        let s = reduce(
+            s,
+            Action::Edit(
+                Field::Layer(i, LayerField::Plies),
+                (c.plies + 1).to_string(),
+            ),
+        );
+        let thicker = s.project.stackup.layers[i].thickness_m();
+        assert!(thicker > d.thickness_m);
+        let bad = reduce(
+            s.clone(),
+            Action::Edit(Field::Layer(i, LayerField::Resin), "95".into()),
+        );
+        let msg = bad.drafts[&Field::Layer(i, LayerField::Resin)]
+            .error
+            .clone()
+            .unwrap();
+        assert!(msg.contains("resin content"), "{msg}");
+        assert_eq!(bad.project.stackup.layers[i].thickness_m(), thicker);
+        // A thickness typed in enters the layer directly again.
+        let s = reduce(
+            s,
+            Action::Edit(Field::Layer(i, LayerField::Thickness), "120".into()),
+        );
+        let d = s.project.stackup.layers[i].dielectric().unwrap();
+        assert!(d.construction.is_none() && (d.thickness_m - 120e-6).abs() < 1e-15);
+        // Plies without a style say what to do first.
+        let s = reduce(
+            s,
+            Action::Edit(Field::Layer(i, LayerField::Plies), "2".into()),
+        );
+        let msg = s.drafts[&Field::Layer(i, LayerField::Plies)]
+            .error
+            .clone()
+            .unwrap();
+        assert!(msg.contains("glass style first"), "{msg}");
     }
 
     #[test]

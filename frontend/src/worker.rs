@@ -2,7 +2,9 @@
 //! plans them rule by rule, yielding to its message queue between rules so that a newer request is seen before the
 //! next rule starts. The protocol and the cache are in `plan_jobs.rs`.
 
-use crate::plan_jobs::{Planner, Request, Update};
+use crate::plan_jobs::{
+    run_proposal, Planner, ProposalReply, ProposalRequest, Request, Update, PROPOSAL_TAG,
+};
 use std::cell::{Cell, RefCell};
 use wasm_bindgen::prelude::*;
 use wasm_bindgen::JsCast;
@@ -44,6 +46,28 @@ pub fn serve() {
     on_tick.forget();
     TICK.with(|t| *t.borrow_mut() = Some(channel));
     let on_request = Closure::<dyn FnMut(MessageEvent)>::new(move |e: MessageEvent| {
+        // A stack proposal (text with its tag) is answered at once, in the same tagged form.
+        if let Some(body) = e
+            .data()
+            .as_string()
+            .as_deref()
+            .and_then(|t| t.strip_prefix(PROPOSAL_TAG))
+        {
+            let reply = match serde_json::from_str::<ProposalRequest>(body) {
+                Ok(request) => run_proposal(&request),
+                Err(err) => ProposalReply {
+                    project: None,
+                    unmet: Vec::new(),
+                    error: Some(format!(
+                        "the proposal worker got a message it cannot read: {err}"
+                    )),
+                },
+            };
+            let text = serde_json::to_string(&reply).unwrap_or_default();
+            let scope: DedicatedWorkerGlobalScope = js_sys::global().unchecked_into();
+            let _ = scope.post_message(&JsValue::from_str(&format!("{PROPOSAL_TAG}{text}")));
+            return;
+        }
         match serde_wasm_bindgen::from_value::<Request>(e.data()) {
             Ok(request) => {
                 PLANNER.with(|p| p.borrow_mut().request(&request));

@@ -1,5 +1,5 @@
 //! `ohmstack propose FILE [--thickness T]`: glass constructions for every core and prepreg that put the project's
-//! rules on target at the widths they give and the board on thickness, mirrored layers alike; what cannot be met is
+//! rules on target at the widths they have and the board on thickness, mirrored layers alike; what cannot be met is
 //! said with why. `--write OUT` saves the proposed project.
 
 use ohmstack_core::base::units::{format_length, format_sig};
@@ -12,7 +12,8 @@ use anyhow::{Context, Result};
 
 #[derive(clap::Args)]
 #[command(
-    after_help = "The rules' widths (and spacings) are taken as given. The glass styles' figures are typical \
+    after_help = "The rules keep the widths they have: a rule that solves its width keeps the one it solves to on \
+the present stack, a fixed rule its own. The glass styles' figures are typical \
 values of the trade (common practice): check the proposal against your fabricator's construction table. Layers \
 in no rule's field make up the board thickness; without --thickness they keep theirs. Each layer's Dk and Df as \
 entered are taken as its laminate's datasheet point at the style's usual resin content."

@@ -1,4 +1,5 @@
-//! A stack proposal: the project's layer order and roles, its rules at the widths the designer wants, and a target
+//! A stack proposal: the project's layer order and roles, its rules at the widths the designer has (a rule that
+//! solves its width: the width it solves to on the present stack), and a target
 //! board thickness give each core and prepreg a glass construction (style, plies, resin content) whose thickness
 //! puts the rules on target and the board on thickness, with mirrored layers built alike so the stack stays
 //! symmetric. What cannot be met is said, with why.
@@ -106,6 +107,16 @@ struct Group {
 pub fn propose_stack(project: &Project, options: &ProposalOptions) -> Result<Proposal> {
     project.validate()?;
     let mut p = project.clone();
+    // The widths the designer has now: a rule that solves a dimension keeps the one it solves to on the present
+    // stack (its stored width is only the search's start); a fixed rule keeps its own.
+    let present = crate::plan::plan(project)?;
+    for (rule, outcome) in p.rules.iter_mut().zip(&present.rules) {
+        if let (true, Some(r)) = (rule.solve != Solve::Nothing, outcome.ok()) {
+            rule.width_m = r.width_m;
+            rule.spacing_m = r.spacing_m.or(rule.spacing_m);
+            rule.gap_m = r.gap_m.or(rule.gap_m);
+        }
+    }
     let n = p.stackup.layers.len();
     for i in 0..n / 2 {
         let (a, b) = (&p.stackup.layers[i], &p.stackup.layers[n - 1 - i]);

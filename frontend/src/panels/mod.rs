@@ -1,6 +1,7 @@
 //! The app's panels, one per file; each gets plain data plus callbacks and calls the core only through `bridge`.
 
 pub mod field_check;
+pub mod glass;
 pub mod layers;
 pub mod notes;
 pub mod pictures;

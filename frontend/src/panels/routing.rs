@@ -39,7 +39,7 @@ pub fn RoutingPanel(props: &RoutingProps) -> Html {
         && r.parallel_m == defaults.parallel_m;
     html! {
         <section class="panel routing-budgets" data-testid="routing-budgets" aria-labelledby="routing-title">
-            <h2 id="routing-title">{ "Routing budgets" }<span class="muted">{ " spacing for crosstalk and reach on every rule" }</span></h2>
+            <h2 id="routing-title">{ "Routing budgets" }<span class="sub">{ " spacing for crosstalk, reach and weave skew on every rule" }</span></h2>
             <div class="settings-row">
                 { field(RoutingField::CrosstalkBudget, "Crosstalk per neighbour (%)".into(), format_sig(r.crosstalk_budget_pct, 4)) }
                 { field(RoutingField::Rise, "Edge rise time (ps)".into(), format_sig(r.rise_s * 1e12, 4)) }
