@@ -211,6 +211,7 @@ fn rule(stack: &Stackup, i: usize) -> impl Strategy<Value = ImpedanceRule> {
                     } else {
                         Vec::new()
                     },
+                    link: None,
                 }
             },
         )

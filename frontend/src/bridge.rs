@@ -165,6 +165,7 @@ fn probe(layer: &str, structure: Structure, partner: Option<&str>) -> ImpedanceR
         gap_m: Some(100e-6),
         partner_layer: partner.map(str::to_string),
         references: Vec::new(),
+        link: None,
     }
 }
 

@@ -255,6 +255,10 @@ pub enum RuleField {
     Width,
     Spacing,
     Gap,
+    /// The rule's own link budget, dB (shown when the rule carries its own link).
+    LinkBudget,
+    /// The rule's own link's fixed losses, dB.
+    LinkFixed,
 }
 
 /// Every text field of the app.
@@ -311,6 +315,8 @@ impl Field {
                     RuleField::Width => "width",
                     RuleField::Spacing => "spacing",
                     RuleField::Gap => "gap",
+                    RuleField::LinkBudget => "link-budget",
+                    RuleField::LinkFixed => "link-fixed",
                 }
             ),
         }
@@ -445,6 +451,8 @@ pub enum Action {
     SetRuleStructure(usize, Structure),
     SetRuleSolve(usize, Solve),
     SetRuleModel(usize, RuleModel),
+    /// The rule's own link, one of the presets (`line::reach::LINK_PRESETS`, by index), or the board's (`None`).
+    SetRuleLink(usize, Option<usize>),
     SetRulePartner(usize, String),
     /// Build a rule as shown: these width and spacing, solving for nothing (the nearest design to a target out of
     /// reach).
@@ -1071,6 +1079,17 @@ impl State {
                         let v = bridge::parse_length("gap", text, unit)?;
                         rule.gap_m = Some(e(error::length("gap", v))?);
                     }
+                    RuleField::LinkBudget | RuleField::LinkFixed => {
+                        let Some(link) = rule.link.as_mut() else {
+                            return Err("link: choose the rule's link first".into());
+                        };
+                        if f == RuleField::LinkBudget {
+                            link.budget_db = bridge::parse_number("link budget", text, &["dB"])?;
+                        } else {
+                            link.fixed_db = bridge::parse_number("fixed losses", text, &["dB"])?;
+                        }
+                        link.validate().map_err(|e| e.to_string())?;
+                    }
                 }
             }
         }
@@ -1325,6 +1344,7 @@ impl State {
                     gap_m: None,
                     partner_layer: None,
                     references: Vec::new(),
+                    link: None,
                 });
             }
             Action::RemoveRule(i) if i < n => {
@@ -1356,6 +1376,24 @@ impl State {
             }
             Action::SetRuleModel(i, model) if i < n => {
                 p.rules[i].model = model;
+            }
+            Action::SetRuleLink(i, preset) if i < n => {
+                use ohmstack_core::design::project::LinkBudget;
+                use ohmstack_core::line::reach::LINK_PRESETS;
+                let board = p.routing.link;
+                let r = &mut p.rules[i];
+                r.link = match preset.and_then(|k| LINK_PRESETS.get(k)) {
+                    None => None,
+                    // Budget and fixed losses start from the rule's own, else the board's.
+                    Some(l) => {
+                        let from = r.link.or(board);
+                        Some(LinkBudget {
+                            nyquist_hz: l.nyquist_hz(),
+                            budget_db: from.map_or(STARTING_LINK_BUDGET_DB, |b| b.budget_db),
+                            fixed_db: from.map_or(0.0, |b| b.fixed_db),
+                        })
+                    }
+                };
             }
             Action::UseDimensions(i, width_m, spacing_m) if i < n => {
                 let r = &mut p.rules[i];
@@ -1433,6 +1471,7 @@ impl Reducible for State {
             | Action::SetRuleStructure(..)
             | Action::SetRuleSolve(..)
             | Action::SetRuleModel(..)
+            | Action::SetRuleLink(..)
             | Action::SetRulePartner(..)
             | Action::UseDimensions(..)) => s.rule_action(a),
             Action::SetDistribution(k, distribution) => {
@@ -2093,6 +2132,40 @@ mod tests {
             let e = s.drafts[&f].error.clone().unwrap();
             assert!(e.contains("target board thickness"), "{bad}: {e}");
         }
+    }
+
+    #[test]
+    fn a_rule_may_carry_its_own_link() {
+        use ohmstack_core::line::reach::LINK_PRESETS;
+        let s = State::default();
+        assert!(s.project.rules[0].link.is_none());
+        // A preset: its Nyquist frequency, with the starting budget while the board has no link.
+        let s = reduce(s, Action::SetRuleLink(0, Some(5)));
+        let own = s.project.rules[0].link.unwrap();
+        assert_eq!(own.nyquist_hz, LINK_PRESETS[5].nyquist_hz());
+        assert_eq!(
+            (own.budget_db, own.fixed_db),
+            (STARTING_LINK_BUDGET_DB, 0.0)
+        );
+        let s = reduce(
+            s,
+            Action::Edit(Field::Rule(0, RuleField::LinkFixed), "3 dB".into()),
+        );
+        assert_eq!(s.project.rules[0].link.unwrap().fixed_db, 3.0);
+        let bad = reduce(
+            s.clone(),
+            Action::Edit(Field::Rule(0, RuleField::LinkBudget), "-4".into()),
+        );
+        let msg = bad.drafts[&Field::Rule(0, RuleField::LinkBudget)]
+            .error
+            .clone()
+            .unwrap_or_default();
+        assert!(msg.contains("link budget"), "{msg}");
+        // Another preset keeps the rule's budget; "the board's" drops the rule's own.
+        let s = reduce(s, Action::SetRuleLink(0, Some(2)));
+        assert_eq!(s.project.rules[0].link.unwrap().fixed_db, 3.0);
+        let s = reduce(s, Action::SetRuleLink(0, None));
+        assert!(s.project.rules[0].link.is_none());
     }
 
     #[test]

@@ -133,7 +133,7 @@ def test_glass_constructions_set_the_layers_and_the_pairs_weave_skew(driver):
     csv_text = w.cli_ok("notes", "-", "--format", "csv", stdin=json.dumps(saved))
     tables = [t for t in csv_text.replace("\r\n", "\n").split("\n\n")]
     routing = list(csv.reader(io.StringIO(tables[2])))
-    skew_by_rule = {row[0]: row[7] for row in routing[1:]}
+    skew_by_rule = {row[0]: row[8] for row in routing[1:]}
     pairs = 0
     for i, rule in enumerate(saved["rules"]):
         if rule["structure"] != "edge_pair":
@@ -189,4 +189,32 @@ def test_the_app_proposes_the_stack_the_cli_proposes(driver):
         assert "every rule on target" in status.text, status.text
     w.wait_settled(driver)
     browser.screenshot(driver, "proposed-stack")
+    assert browser.console_errors(driver) == []
+
+
+def test_a_rule_carries_its_own_link(driver):
+    # Rule 0's link comes in the file; rule 1's is chosen on its card from the presets (PCIe 3.0: 4 GHz, the
+    # starting 10 dB budget while the board has none). Each reach is the CLI's at that rule's own link.
+    project = w.demo()
+    project["title"] = "Links per rule"
+    project["rules"][0]["link"] = {"nyquist_hz": 2e9, "budget_db": 6, "fixed_db": 1}
+    w.put_local_work(driver, project)
+    w.open_app(driver)
+    w.wait_title(driver, project["title"])
+    Select(driver.find_element(By.ID, "rule-1-link")).select_by_visible_text("PCIe 3.0 (8 GT/s) (4 GHz)")
+    browser.wait_for(lambda: driver.find_elements(By.ID, "rule-1-link-budget-input"), what="rule 1's budget field")
+    w.wait_settled(driver)
+    text = json.dumps(project)
+    for i, (nyquist, budget, fixed) in enumerate([("2GHz", "6", "1"), ("4GHz", "10", "0")]):
+        rule = project["rules"][i]
+        want = json.loads(w.cli_ok("reach", "-", "--rule", rule["name"], "--nyquist", nyquist, "--budget", budget,
+                                   "--fixed", fixed, "--json", stdin=text))[0]["reach"]["reach_m"]
+        got = browser.wait_for(
+            lambda: driver.find_elements(By.CSS_SELECTOR, f"[data-testid='rule-{i}-reach']"),
+            what=f"rule {i}'s reach")[0]
+        assert abs(float(got.get_attribute("data-value")) / want - 1) < 1e-3, (rule["name"], want)
+    # The board's other rules have no link and say nothing of a reach.
+    assert not driver.find_elements(By.CSS_SELECTOR, "[data-testid='rule-2-reach']")
+    saved = json.loads(browser.saved_text(driver) or "{}")
+    assert saved["rules"][1]["link"] == {"nyquist_hz": 4e9, "budget_db": 10, "fixed_db": 0}
     assert browser.console_errors(driver) == []

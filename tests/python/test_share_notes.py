@@ -168,7 +168,7 @@ def test_csv_values_round_trip_against_analyze(project):
         if row[3]:
             assert float(row[3]) * m >= p.get("fab", {}).get("min_space_m", 0.0) * (1 - 1e-12), row
         else:
-            assert row[9], row
+            assert row[10], row
     texts = [r[0] for r in notes[1:]]
     assert any("test coupons" in t for t in texts)
     assert any("electrical-safety" in t for t in texts)

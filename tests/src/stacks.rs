@@ -158,6 +158,7 @@ pub fn project(
             gap_m: gap,
             partner_layer,
             references,
+            link: None,
         }],
     }
 }

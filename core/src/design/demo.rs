@@ -47,6 +47,7 @@ fn rule(
         gap_m: None,
         partner_layer: None,
         references: Vec::new(),
+        link: None,
     }
 }
 

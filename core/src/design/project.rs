@@ -125,6 +125,10 @@ pub struct ImpedanceRule {
     /// Reference planes named explicitly; empty means the nearest plane layers above and below.
     #[serde(default, skip_serializing_if = "Vec::is_empty")]
     pub references: Vec<String>,
+    /// The link this net class carries (its Nyquist frequency, loss budget and fixed losses) for its reach and
+    /// weave-skew budget; the board's link ([`Routing::link`]) when absent.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub link: Option<LinkBudget>,
 }
 
 fn ten_pct() -> f64 {
@@ -292,6 +296,22 @@ pub struct LinkBudget {
     pub fixed_db: f64,
 }
 
+impl LinkBudget {
+    /// Checks the figures; errors name them.
+    pub fn validate(&self) -> Result<()> {
+        error::in_range(
+            "link Nyquist frequency",
+            self.nyquist_hz / 1e9,
+            0.001,
+            1000.0,
+            "GHz",
+        )?;
+        error::in_range("link budget", self.budget_db, 0.01, 200.0, "dB")?;
+        error::in_range("fixed losses", self.fixed_db, 0.0, 200.0, "dB")?;
+        Ok(())
+    }
+}
+
 fn two() -> f64 {
     2.0
 }
@@ -443,15 +463,7 @@ impl Project {
         error::in_range("parallel length", r.parallel_m * 1e3, 0.01, 2000.0, "mm")?;
         error::in_range("skew budget", r.skew_budget_ui, 0.001, 1.0, "UI")?;
         if let Some(l) = r.link {
-            error::in_range(
-                "link Nyquist frequency",
-                l.nyquist_hz / 1e9,
-                0.001,
-                1000.0,
-                "GHz",
-            )?;
-            error::in_range("link budget", l.budget_db, 0.01, 200.0, "dB")?;
-            error::in_range("fixed losses", l.fixed_db, 0.0, 200.0, "dB")?;
+            l.validate()?;
         }
         if let Some(tol) = self.fab.thickness_tolerance_pct {
             error::in_range("fab.thickness_tolerance", tol, 0.0, 50.0, "%")?;
@@ -507,6 +519,9 @@ impl ImpedanceRule {
                 field: "name".into(),
                 reason: "longer than 80 characters".into(),
             });
+        }
+        if let Some(link) = &self.link {
+            link.validate()?;
         }
         match stackup.find(&self.layer).map(|i| &stackup.layers[i]) {
             Some(Layer::Copper(_)) => {}

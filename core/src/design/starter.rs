@@ -178,6 +178,7 @@ pub fn rules(stackup: &Stackup) -> Vec<ImpedanceRule> {
         gap_m: None,
         partner_layer: None,
         references: Vec::new(),
+        link: None,
     };
     stackup
         .layers

@@ -113,9 +113,11 @@ pub struct RoutingRow {
     pub min_spacing_m: Option<f64>,
     /// "near end" or "far end".
     pub limited_by: Option<String>,
-    /// Longest run inside the link's loss budget, m, and the loss per length it comes from, dB/m.
+    /// Longest run inside the link's loss budget, m, and the loss per length it comes from, dB/m, at the
+    /// Nyquist frequency of the rule's link (its own or the board's), Hz.
     pub reach_m: Option<f64>,
     pub loss_db_per_m: Option<f64>,
+    pub nyquist_hz: Option<f64>,
     /// A pair's worst-case weave skew along the weave, s/m, and the straight run that spends the skew budget, m.
     pub skew_s_per_m: Option<f64>,
     pub skew_run_m: Option<f64>,
@@ -372,6 +374,7 @@ fn routing_row(r: &crate::plan::RuleResult, rt: &RuleRouting) -> RoutingRow {
         limited_by: rt.spacing.as_ref().map(|s| s.limited_by.clone()),
         reach_m: rt.reach.as_ref().and_then(|x| x.reach_m),
         loss_db_per_m: rt.reach.as_ref().map(|x| x.loss_db_per_m),
+        nyquist_hz: rt.reach.as_ref().map(|x| x.nyquist_hz),
         skew_s_per_m: rt.skew.as_ref().map(|x| x.skew_s_per_m),
         skew_run_m: rt.skew.as_ref().and_then(|x| x.run_at_budget_m),
         remarks,
@@ -404,15 +407,24 @@ fn routing_notes(project: &Project) -> Vec<String> {
         run_len(r.parallel_m, unit),
         format_sig(r.rise_s * 1e12, 3)
     )];
-    match r.link {
-        Some(l) => notes.push(format!(
-            "Reach: the longest run whose insertion loss at {} GHz (the link's Nyquist frequency) stays within \
-             {} dB less {} dB of fixed losses (connectors, vias, packages).",
+    let reach = "Reach: the longest run whose insertion loss at its link's Nyquist frequency stays within the \
+                 link's budget less its fixed losses (connectors, vias, packages)";
+    match (r.link, project.rules.iter().any(|rule| rule.link.is_some())) {
+        (Some(l), own) => notes.push(format!(
+            "{reach}; the board's link: {} GHz, {} dB, {} dB fixed{}.",
             format_sig(l.nyquist_hz / 1e9, 4),
             format_sig(l.budget_db, 4),
-            format_sig(l.fixed_db, 4)
+            format_sig(l.fixed_db, 4),
+            if own {
+                ", some rules carry their own"
+            } else {
+                ""
+            }
         )),
-        None => notes.push("Reach: no link loss budget is set for the board.".to_string()),
+        (None, true) => notes.push(format!(
+            "{reach}, for the rules that carry a link; the board sets none."
+        )),
+        (None, false) => notes.push("Reach: no link loss budget is set for the board.".to_string()),
     }
     notes.push(format!(
         "Weave skew: a pair's worst case routed straight along the glass weave; the run shown spends {} of the \
@@ -646,9 +658,13 @@ impl FabNotes {
                     (Some(a), None) => format!("none inside the budget ({a})"),
                     _ => reason(r, "structure"),
                 };
+                let at = r
+                    .nyquist_hz
+                    .map(|f| format!(" at {} GHz", format_sig(f / 1e9, 4)))
+                    .unwrap_or_default();
                 let reach = match (r.reach_m, r.loss_db_per_m) {
                     (Some(m), Some(db)) => format!(
-                        "{} ({} dB/{per})",
+                        "{} ({} dB/{per}{at})",
                         run_len(m, self.units),
                         format_sig(db * per_m, 3)
                     ),
@@ -814,6 +830,7 @@ impl FabNotes {
             "limited by".into(),
             format!("reach ({u})"),
             "loss at nyquist (db/m)".into(),
+            "nyquist (hz)".into(),
             "weave skew (ps/m)".into(),
             format!("run at skew budget ({u})"),
             "remarks".into(),
@@ -828,6 +845,7 @@ impl FabNotes {
                 r.limited_by.clone().unwrap_or_default(),
                 len(r.reach_m),
                 opt_num(r.loss_db_per_m),
+                opt_num(r.nyquist_hz),
                 opt_num(r.skew_s_per_m.map(|s| s * 1e12)),
                 len(r.skew_run_m),
                 r.remarks.join("; "),
@@ -1235,9 +1253,9 @@ mod tests {
             if let Some(w) = &rt.skew {
                 pairs_with_skew += 1;
                 assert!(
-                    (row[7].parse::<f64>().unwrap() / (w.skew_s_per_m * 1e12) - 1.0).abs() < 1e-12
+                    (row[8].parse::<f64>().unwrap() / (w.skew_s_per_m * 1e12) - 1.0).abs() < 1e-12
                 );
-                assert!(close(read(8), w.run_at_budget_m));
+                assert!(close(read(9), w.run_at_budget_m));
             }
         }
         assert!(pairs_with_skew >= 1);

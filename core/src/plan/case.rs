@@ -404,6 +404,7 @@ pub fn project(
             gap_m: g,
             partner_layer: matches!(build, Build::Broadside { .. }).then(|| PARTNER_LAYER.into()),
             references: Vec::new(),
+            link: None,
         }],
     };
     // Every value was checked above under the name the user gave it; the project's own check (with its layer

@@ -96,8 +96,11 @@ pub fn for_result(project: &Project, rule: &ImpedanceRule, result: &RuleResult) 
         ),
         Err(e) => (None, Some(e.to_string())),
     };
-    let (reach, reach_note) = match r.link {
-        None => (None, Some("no link budget set for the board".to_string())),
+    let (reach, reach_note) = match rule.link.or(r.link) {
+        None => (
+            None,
+            Some("no link budget set for the board or the rule".to_string()),
+        ),
         Some(link) => {
             let figures = crate::plan::rule::loss_model(project, rule, result).and_then(|model| {
                 reach::reach(
@@ -205,6 +208,34 @@ mod tests {
         assert!(rt.reach.is_none() && rt.reach_note.unwrap().contains("link budget"));
         let nominal = crate::plan_with(&p, &crate::PlanOptions::default()).unwrap();
         assert!(nominal.rules[0].ok().unwrap().routing.is_none());
+    }
+
+    #[test]
+    fn a_rule_with_its_own_link_is_judged_on_it() {
+        let mut p = crate::design::demo::project();
+        p.rules[0].link = Some(LinkBudget {
+            nyquist_hz: 2e9,
+            budget_db: 6.0,
+            fixed_db: 1.0,
+        });
+        let options = crate::PlanOptions {
+            routing: true,
+            ..crate::PlanOptions::default()
+        };
+        let plan = crate::plan_with(&p, &options).unwrap();
+        let routing = |i: usize| plan.rules[i].ok().unwrap().routing.clone().unwrap();
+        let own = routing(0).reach.unwrap();
+        assert_eq!(own.nyquist_hz, 2e9);
+        assert!((own.reach_m.unwrap() - 5.0 / own.loss_db_per_m).abs() < 1e-12);
+        // The others follow the board, which has no link here.
+        let other = routing(1);
+        assert!(other.reach.is_none() && other.reach_note.unwrap().contains("link budget"));
+        // A bad figure in a rule's own link names the rule and the figure.
+        if let Some(l) = p.rules[0].link.as_mut() {
+            l.budget_db = -1.0;
+        }
+        let e = Project::from_json(&p.to_json()).unwrap_err().to_string();
+        assert!(e.contains("rules[0]") && e.contains("link budget"), "{e}");
     }
 
     #[test]

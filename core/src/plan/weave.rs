@@ -81,9 +81,9 @@ pub fn weave_skew(
     }
     let weight: f64 = sides.iter().map(|s| s.1).sum();
     let skew_s_per_m = sides.iter().map(|(skew, w)| skew * w).sum::<f64>() / weight;
-    let budget_s = project
-        .routing
+    let budget_s = rule
         .link
+        .or(project.routing.link)
         .map(|l| project.routing.skew_budget_ui / (2.0 * l.nyquist_hz));
     Ok(WeaveSkew {
         skew_s_per_m,

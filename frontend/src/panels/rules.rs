@@ -432,6 +432,46 @@ fn RuleCard(props: &RuleCardProps) -> Html {
             d.emit(Action::SetRuleModel(i, m))
         })
     };
+    let on_link = {
+        let d = d.clone();
+        Callback::from(move |v: String| {
+            d.emit(Action::SetRuleLink(
+                i,
+                v.strip_prefix('p').and_then(|k| k.parse().ok()),
+            ))
+        })
+    };
+    let (link_options, link_key) = {
+        use ohmstack_core::line::reach::LINK_PRESETS;
+        let mut options: Vec<(AttrValue, AttrValue)> = vec![("".into(), "the board's".into())];
+        options.extend(LINK_PRESETS.iter().enumerate().map(|(k, l)| {
+            (
+                AttrValue::from(format!("p{k}")),
+                AttrValue::from(format!(
+                    "{} ({} GHz)",
+                    l.name,
+                    format_sig(l.nyquist_hz() / 1e9, 4)
+                )),
+            )
+        }));
+        let key = match rule.link {
+            None => String::new(),
+            Some(own) => match LINK_PRESETS
+                .iter()
+                .position(|l| (l.nyquist_hz() / own.nyquist_hz - 1.0).abs() < 1e-9)
+            {
+                Some(k) => format!("p{k}"),
+                None => {
+                    options.push((
+                        "custom".into(),
+                        format!("{} GHz", format_sig(own.nyquist_hz / 1e9, 4)).into(),
+                    ));
+                    "custom".to_string()
+                }
+            },
+        };
+        (options, key)
+    };
     let model_options: Vec<(AttrValue, AttrValue)> = vec![
         ("closed_form".into(), "closed form".into()),
         ("field_solver".into(), "2D field solver".into()),
@@ -514,6 +554,13 @@ fn RuleCard(props: &RuleCardProps) -> Html {
                     value={format_sig(rule.tolerance_pct, 6)} draft={draft(Field::Rule(i, RuleField::Tolerance))} dispatch={d.clone()} />
                 <Select id={format!("rule-{i}-solve")} label="Solve for" options={solve_options} selected={solve_key(rule.solve)} onchange={on_solve} />
                 <Select id={format!("rule-{i}-model")} label="Model" options={model_options} selected={model_key} onchange={on_model} />
+                <Select id={format!("rule-{i}-link")} label="Link" options={link_options} selected={link_key} onchange={on_link} />
+                if let Some(own) = rule.link {
+                    <TextField field={Field::Rule(i, RuleField::LinkBudget)} label="Loss budget (dB)" size="narrow"
+                        value={format_sig(own.budget_db, 4)} draft={draft(Field::Rule(i, RuleField::LinkBudget))} dispatch={d.clone()} />
+                    <TextField field={Field::Rule(i, RuleField::LinkFixed)} label="Fixed (dB)" size="narrow"
+                        value={format_sig(own.fixed_db, 4)} draft={draft(Field::Rule(i, RuleField::LinkFixed))} dispatch={d.clone()} />
+                }
                 { len(RuleField::Width, width_label, rule.width_m) }
                 if let (Some(s), true) = (rule.spacing_m, matches!(rule.structure, Structure::EdgePair | Structure::CoplanarPair)) {
                     { len(RuleField::Spacing, spacing_label, s) }

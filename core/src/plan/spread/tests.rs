@@ -44,6 +44,7 @@ fn rule(layer: &str, target: f64) -> ImpedanceRule {
         gap_m: None,
         partner_layer: None,
         references: Vec::new(),
+        link: None,
     }
 }
 
