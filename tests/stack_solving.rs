@@ -121,6 +121,15 @@ mod proposal {
     use ohmstack_core::design::starter;
     use ohmstack_core::plan::proposal::{propose_stack, ProposalOptions};
 
+    /// The demo's settings on the generic starter stack of `coppers` copper layers with its rules (a 50 Ω line
+    /// and a 100 Ω pair on each signal layer, widths solved).
+    fn starter_board(coppers: usize) -> Project {
+        let mut p = ohmstack_core::design::demo::project();
+        p.stackup = starter::stack(coppers, None).unwrap();
+        p.rules = starter::rules(&p.stackup);
+        p
+    }
+
     #[test]
     fn an_offset_stripline_comes_back_centred_on_cohns_impedance() {
         // Cohn 1954, exact for t = 0 in one dielectric. The two cores are each other's mirror, so the proposal
@@ -159,9 +168,7 @@ mod proposal {
         // dielectric 1.3 × thicker moves them off. The proposal at those widths and a 1.6 mm target must put them
         // back within tolerance (the 50 Ω line and the 100 Ω pair on a layer were solved on one stack, so one
         // thickness serves both) and the board within its thickness tolerance, symmetric, every layer from glass.
-        let mut p = ohmstack_core::design::demo::project();
-        p.stackup = starter::stack(6, None).unwrap();
-        p.rules = starter::rules(&p.stackup);
+        let mut p = starter_board(6);
         let plan = ohmstack_core::plan(&p).unwrap();
         for (rule, outcome) in p.rules.iter_mut().zip(&plan.rules) {
             // The designer's widths, fixed from here on.
@@ -206,9 +213,7 @@ mod proposal {
     fn a_rule_that_solves_its_width_keeps_the_width_it_has_now() {
         // The starter's rules solve their widths: the proposal takes the widths they solve to on the present
         // stack, so a stack already on target is proposed back on target.
-        let mut mirrored = ohmstack_core::design::demo::project();
-        mirrored.stackup = starter::stack(6, None).unwrap();
-        mirrored.rules = starter::rules(&mirrored.stackup);
+        let mirrored = starter_board(6);
         let planned = ohmstack_core::plan(&mirrored).unwrap();
         let proposal = propose_stack(&mirrored, &ProposalOptions::default()).unwrap();
         for ((rule, outcome), proposed) in mirrored
@@ -227,9 +232,7 @@ mod proposal {
     fn what_cannot_be_met_is_said_with_why() {
         // Two rules on one layer whose widths want different heights: they share the dielectric, so at least one
         // is off, and the proposal says they share it. A 0.2 mm board cannot hold the stack either.
-        let mut p = ohmstack_core::design::demo::project();
-        p.stackup = starter::stack(4, None).unwrap();
-        p.rules = starter::rules(&p.stackup);
+        let mut p = starter_board(4);
         for r in &mut p.rules {
             r.tolerance_pct = 1.0;
             r.width_m = if r.structure.is_pair() { 60e-6 } else { 400e-6 };
