@@ -83,6 +83,8 @@ def test_rule_cards_show_the_spacing_rule_and_the_reach(driver, how):
         want = json.loads(w.cli_ok("reach", "-", "--rule", rule["name"], "--nyquist", "4GHz", "--budget", "10",
                                    "--fixed", "2", "--json", stdin=text))[0]["reach"]["reach_m"]
         assert abs(float(reach.get_attribute("data-value")) / want - 1) < 1e-3, (rule["name"], want)
+        assert driver.find_element(By.CSS_SELECTOR, f"[data-testid='summary-reach-{i}']").text.endswith(
+            "mm at 4 GHz")
     # The plots show the first rule's noise against spacing with the budget line.
     plot = browser.wait_for(lambda: driver.find_element(By.CSS_SELECTOR, "[data-testid='plot-crosstalk'] svg"),
                             what="the crosstalk plot")
@@ -144,6 +146,10 @@ def test_glass_constructions_set_the_layers_and_the_pairs_weave_skew(driver):
         want = float(skew_by_rule[rule["name"]])
         assert abs(got / want - 1) < 1e-3, (rule["name"], got, want)
         assert "ps/in" in card.text and "budget spent after" in card.text, card.text
+        # The board summary carries it too, per millimetre.
+        cell = driver.find_element(By.CSS_SELECTOR, f"[data-testid='summary-skew-{i}']").text
+        assert cell.startswith("≤ ") and cell.endswith(" ps/mm"), cell
+        assert abs(float(cell[2:-6]) / (got * 1e-3) - 1) < 5e-3, (cell, got)
     assert pairs >= 1
     # Typing a thickness enters the layer directly again.
     i = built[0]

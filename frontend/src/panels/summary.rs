@@ -1,5 +1,5 @@
-//! The board summary at the top of the page: one row per net class (rule) with its layer, width and spacing, the
-//! impedance against its target, the verdict and the engine behind it, under one line that says whether the
+//! The board summary at the top of the page: one row per net class (rule) with its layer, width and spacing, its
+//! routing rules (spacing to a neighbour, reach, a pair's weave skew, once computed), the impedance against its target, the verdict and the engine behind it, under one line that says whether the
 //! board works. The verdict is the field engine's when it checked a closed-form figure (the board is built to
 //! these dimensions and the field figure is what it will measure). Reads the plan only; computes no physics.
 
@@ -28,6 +28,10 @@ pub struct SummaryRow {
     /// The routing rule: "≥ 780 µm" to an identical neighbour for the crosstalk budget, "—" where none applies
     /// (coplanar ground copper, a broadside pair), "…" while it is being computed.
     pub neighbour: String,
+    /// The longest run inside the rule's link budget, "428 mm at 4 GHz"; empty without one.
+    pub reach: String,
+    /// A pair's worst-case weave skew along the weave, "0.34 ps/mm"; empty without one.
+    pub skew: String,
     /// "50.00 Ω (target 50 ± 10 %)".
     pub impedance: String,
     /// Signed deviation from the target, "+0.4 %".
@@ -92,11 +96,32 @@ pub fn summarize(plan: &Plan, unit: LengthUnit) -> Summary {
                         None => "—".to_string(),
                     },
                 };
+                let reach = r
+                    .routing
+                    .as_ref()
+                    .and_then(|rt| rt.reach.as_ref())
+                    .map(|x| match x.reach_m {
+                        Some(m) => format!(
+                            "{} mm at {} GHz",
+                            format_sig(m * 1e3, 3),
+                            format_sig(x.nyquist_hz / 1e9, 4)
+                        ),
+                        None => "fixed losses spend it".to_string(),
+                    })
+                    .unwrap_or_default();
+                let skew = r
+                    .routing
+                    .as_ref()
+                    .and_then(|rt| rt.skew.as_ref())
+                    .map(|w| format!("≤ {} ps/mm", format_sig(w.skew_s_per_m * 1e9, 3)))
+                    .unwrap_or_default();
                 SummaryRow {
                     name: r.name.clone(),
                     layer: r.layer.clone(),
                     geometry,
                     neighbour,
+                    reach,
+                    skew,
                     impedance: format!(
                         "{z:.2} Ω (target {} ± {} %{})",
                         format_sig(r.target_ohm, 4),
@@ -123,6 +148,8 @@ pub fn summarize(plan: &Plan, unit: LengthUnit) -> Summary {
                 layer: String::new(),
                 geometry: String::new(),
                 neighbour: String::new(),
+                reach: String::new(),
+                skew: String::new(),
                 impedance: String::new(),
                 deviation: String::new(),
                 verdict: Verdict::Failed,
@@ -196,6 +223,12 @@ pub fn SummaryPanel(props: &SummaryProps) -> Html {
         };
     };
     let s = summarize(plan, props.unit);
+    // The reach and skew columns only when some rule has the figure (a link, a glass construction).
+    let (reach, skew) = (
+        s.rows.iter().any(|r| !r.reach.is_empty()),
+        s.rows.iter().any(|r| !r.skew.is_empty()),
+    );
+    let spanned = 5 + usize::from(reach) + usize::from(skew);
     let badge = |v: Verdict| match v {
         Verdict::Within => html! { <span class="badge ok">{ "in tolerance" }</span> },
         Verdict::Outside => html! { <span class="badge bad">{ "out of tolerance" }</span> },
@@ -214,6 +247,8 @@ pub fn SummaryPanel(props: &SummaryProps) -> Html {
                     <th scope="col">{ "Net class" }</th><th scope="col">{ "Layer" }</th>
                     <th scope="col">{ "Width / spacing" }</th>
                     <th scope="col" title="least edge-to-edge spacing to an identical neighbour for the board's crosstalk budget">{ "Neighbour spacing" }</th>
+                    if reach { <th scope="col" title="longest run inside the rule's link loss budget at its Nyquist frequency">{ "Reach" }</th> }
+                    if skew { <th scope="col" title="a pair's worst-case intra-pair skew routed straight along the glass weave">{ "Weave skew" }</th> }
                     <th scope="col">{ "Z" }</th>
                     <th scope="col">{ "Deviation" }</th><th scope="col">{ "Verdict" }</th><th scope="col">{ "Engine" }</th>
                 </tr></thead>
@@ -222,11 +257,13 @@ pub fn SummaryPanel(props: &SummaryProps) -> Html {
                     <tr data-testid={format!("summary-row-{i}")} data-verdict={format!("{:?}", r.verdict).to_lowercase()}>
                         <td>{ r.name.clone() }</td>
                         if let Some(e) = &r.error {
-                            <td colspan="5" class="error">{ e.clone() }</td>
+                            <td colspan={spanned.to_string()} class="error">{ e.clone() }</td>
                         } else {
                             <td>{ r.layer.clone() }</td>
                             <td class="num">{ r.geometry.clone() }</td>
                             <td class="num" data-testid={format!("summary-neighbour-{i}")}>{ r.neighbour.clone() }</td>
+                            if reach { <td class="num" data-testid={format!("summary-reach-{i}")}>{ r.reach.clone() }</td> }
+                            if skew { <td class="num" data-testid={format!("summary-skew-{i}")}>{ r.skew.clone() }</td> }
                             <td class="num">{ r.impedance.clone() }</td>
                             <td class="num">{ r.deviation.clone() }</td>
                         }
@@ -289,6 +326,27 @@ mod tests {
         assert_eq!(s.rows[0].verdict, Verdict::Outside);
         let expect = format!("{} out of tolerance", outside_before + 1);
         assert!(!s.works && s.headline.contains(&expect), "{}", s.headline);
+    }
+
+    #[test]
+    fn routing_figures_show_in_the_summary() {
+        let mut p = demo::project();
+        p.routing.link = Some(ohmstack_core::design::project::LinkBudget {
+            nyquist_hz: 4e9,
+            budget_db: 10.0,
+            fixed_db: 2.0,
+        });
+        let options = ohmstack_core::PlanOptions {
+            routing: true,
+            ..Default::default()
+        };
+        let plan = ohmstack_core::plan_with(&p, &options).unwrap();
+        let s = summarize(&plan, p.units);
+        for r in s.rows.iter().filter(|r| r.verdict != Verdict::Failed) {
+            assert!(r.reach.ends_with("mm at 4 GHz"), "{r:?}");
+            // No glass construction in the demo: no skew.
+            assert!(r.skew.is_empty(), "{r:?}");
+        }
     }
 
     #[test]
