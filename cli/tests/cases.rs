@@ -594,3 +594,42 @@ fn batch_keeps_its_format_and_takes_the_new_keys() {
     assert_eq!(first["engine"], "closed-form");
     assert_eq!(controlled(&first), controlled(&lines[1]));
 }
+
+#[test]
+fn a_pair_over_a_receding_plane_rises_on_the_field_engine() {
+    // Physics: raising the plane under a microstrip pair replaces conductor by dielectric, so the capacitance and
+    // the air capacitance both fall and Zdiff rises. Kirschning–Jansen falls here (w/h 0.16, s/h 0.22, εr 2.5;
+    // found by tests/properties.rs); the field engine, every rule's default, must not.
+    let zdiff = |h: &str, engine: &str| {
+        controlled(&run_json(&[
+            "calc",
+            "microstrip-pair",
+            "--width",
+            "60um",
+            "--height",
+            h,
+            "--thickness",
+            "5um",
+            "--dk",
+            "2.5",
+            "--spacing",
+            "80um",
+            "--engine",
+            engine,
+            "--json",
+        ]))
+    };
+    let field: Vec<f64> = ["370um", "390um", "480um"]
+        .iter()
+        .map(|h| zdiff(h, "field"))
+        .collect();
+    assert!(field[0] < field[1] && field[1] < field[2], "{field:?}");
+    let closed: Vec<f64> = ["370um", "480um"]
+        .iter()
+        .map(|h| zdiff(h, "closed-form"))
+        .collect();
+    assert!(
+        closed[1] < closed[0],
+        "the closed form's known fall: {closed:?}"
+    );
+}

@@ -79,6 +79,20 @@ pub struct Dielectric {
     pub construction: Option<LayerConstruction>,
 }
 
+impl Dielectric {
+    /// Sets thickness, Dk and Df to what the layer's construction gives (nothing without one). Errors name the
+    /// construction's field.
+    pub fn apply_construction(&mut self) -> Result<()> {
+        if let Some(c) = &self.construction {
+            let laminate = c.construction()?.laminate()?;
+            self.thickness_m = laminate.thickness_m;
+            self.dk = laminate.dk;
+            self.df = laminate.df;
+        }
+        Ok(())
+    }
+}
+
 fn one_ghz() -> f64 {
     1e9
 }
@@ -213,15 +227,9 @@ impl Stackup {
         for (i, layer) in self.layers.iter_mut().enumerate() {
             let name = layer.name().to_string();
             match layer {
-                Layer::Core(d) | Layer::Prepreg(d) => {
-                    let Some(c) = &d.construction else { continue };
-                    let laminate = c.construction().and_then(|c| c.laminate()).map_err(|e| {
-                        error::prefix(e, &format!("layers[{i}] {name:?}.construction"))
-                    })?;
-                    d.thickness_m = laminate.thickness_m;
-                    d.dk = laminate.dk;
-                    d.df = laminate.df;
-                }
+                Layer::Core(d) | Layer::Prepreg(d) => d
+                    .apply_construction()
+                    .map_err(|e| error::prefix(e, &format!("layers[{i}] {name:?}.construction")))?,
                 Layer::SolderMask(d) if d.construction.is_some() => {
                     return Err(Error::Invalid {
                         field: format!("layers[{i}] {name:?}.construction"),

@@ -40,6 +40,17 @@ pub struct ProposalOptions {
     pub resin_band_pct: f64,
 }
 
+impl ProposalOptions {
+    /// The styles a construction may use: the ones given, or every known style.
+    fn allowed_styles(&self) -> Vec<&'static GlassStyle> {
+        if self.styles.is_empty() {
+            GLASS_STYLES.iter().collect()
+        } else {
+            self.styles.clone()
+        }
+    }
+}
+
 impl Default for ProposalOptions {
     /// Common practice, no source: up to 3 plies a prepreg, resin within ±6 points of the style's usual content.
     fn default() -> Self {
@@ -103,6 +114,21 @@ struct Group {
     set_by: Option<String>,
 }
 
+impl Group {
+    /// The group of `members`, calibrated to the first one's datasheet point: its construction's, or its Dk and
+    /// Df as entered.
+    fn of(d: &crate::design::stackup::Dielectric, members: Vec<usize>) -> Group {
+        Group {
+            members,
+            datasheet: d
+                .construction
+                .as_ref()
+                .map_or((d.dk, d.df), |c| (c.datasheet_dk, c.datasheet_df)),
+            set_by: None,
+        }
+    }
+}
+
 /// Proposes constructions for every core and prepreg of `project` (see the module doc).
 pub fn propose_stack(project: &Project, options: &ProposalOptions) -> Result<Proposal> {
     project.validate()?;
@@ -144,11 +170,7 @@ pub fn propose_stack(project: &Project, options: &ProposalOptions) -> Result<Pro
             reason: format!("{} plies at most: give 1 to 6", options.max_plies),
         });
     }
-    let styles: Vec<&'static GlassStyle> = if options.styles.is_empty() {
-        GLASS_STYLES.iter().collect()
-    } else {
-        options.styles.clone()
-    };
+    let styles = options.allowed_styles();
     let mut groups: Vec<Group> = Vec::new();
     let mut group_of = vec![None; n];
     for i in 0..n {
@@ -164,18 +186,10 @@ pub fn propose_stack(project: &Project, options: &ProposalOptions) -> Result<Pro
         } else {
             vec![i, mirror]
         };
-        let datasheet = d
-            .construction
-            .as_ref()
-            .map_or((d.dk, d.df), |c| (c.datasheet_dk, c.datasheet_df));
         for &m in &members {
             group_of[m] = Some(groups.len());
         }
-        groups.push(Group {
-            members,
-            datasheet,
-            set_by: None,
-        });
+        groups.push(Group::of(d, members));
     }
     let mut unmet = Vec::new();
     let mirrored_copper = (0..n / 2).all(|i| {
@@ -241,19 +255,10 @@ pub fn propose_stack(project: &Project, options: &ProposalOptions) -> Result<Pro
                     .copied()
                     .min_by_key(|m| m.abs_diff(trace))
                     .unwrap_or(0);
-                let side: f64 = if m < trace {
-                    m..trace
-                } else {
-                    trace + 1..m + 1
-                }
-                .map(|i| p.stackup.pressed_thickness_m(i))
-                .sum();
-                let plane_side = side_height(&p, trace, m < trace);
                 (
-                    plane_side,
+                    side_height(&p, trace, m < trace),
                     !matches!(p.stackup.layers[m], Layer::Prepreg(_)),
                     m.abs_diff(trace),
-                    side,
                 )
             };
             let (ka, kb) = (key(a), key(b));
@@ -401,7 +406,7 @@ pub fn propose_stack(project: &Project, options: &ProposalOptions) -> Result<Pro
                 rule.name,
                 z,
                 format_sig(rule.target_ohm, 4),
-                why_off(&p, rule, &spans, &groups, &group_of)
+                why_off(&p, rule, &spans, &groups)
             )),
             _ => {}
         }
@@ -593,16 +598,15 @@ fn build(
         max_plies,
         options.resin_band_pct / 100.0,
     );
-    let laminate = c.construction()?.laminate()?;
+    let mut made = thickness_m;
     for &m in &g.members {
         if let Layer::Core(d) | Layer::Prepreg(d) = &mut p.stackup.layers[m] {
             d.construction = Some(c.clone());
-            d.thickness_m = laminate.thickness_m;
-            d.dk = laminate.dk;
-            d.df = laminate.df;
+            d.apply_construction()?;
+            made = d.thickness_m;
         }
     }
-    Ok(laminate.thickness_m)
+    Ok(made)
 }
 
 /// The construction whose thickness is nearest `thickness_m`: every style and ply count, the resin content that
@@ -656,9 +660,7 @@ fn why_off(
     rule: &ImpedanceRule,
     spans: &[Option<Vec<usize>>],
     groups: &[Group],
-    group_of: &[Option<usize>],
 ) -> String {
-    let _ = group_of;
     let r = p.rules.iter().position(|x| x.name == rule.name);
     let span = r.and_then(|r| spans[r].clone()).unwrap_or_default();
     let setters: Vec<&str> = span
@@ -701,7 +703,7 @@ pub struct SnappedThickness {
 }
 
 /// The construction that puts `rule` on target through `layer` alone: the thickness solve and the construction
-/// alternate (its Dk moves with the resin content) until the construction stops changing.
+/// alternate (its Dk moves with the resin content) until they agree.
 pub fn snap_layer_thickness(
     project: &Project,
     rule: &ImpedanceRule,
@@ -713,41 +715,33 @@ pub fn snap_layer_thickness(
         field: "layer".into(),
         reason: format!("no layer named {layer:?} in the stack"),
     })?;
-    let d = built_layer(&p.stackup.layers[idx]).ok_or_else(|| Error::Invalid {
+    let not_built = || Error::Invalid {
         field: "layer".into(),
         reason: format!("{layer:?} is not a core or a prepreg"),
-    })?;
-    let group = Group {
-        members: vec![idx],
-        datasheet: d
-            .construction
-            .as_ref()
-            .map_or((d.dk, d.df), |c| (c.datasheet_dk, c.datasheet_df)),
-        set_by: None,
     };
-    let styles: Vec<&'static GlassStyle> = if options.styles.is_empty() {
-        GLASS_STYLES.iter().collect()
-    } else {
-        options.styles.clone()
-    };
-    let mut thickness = thickness_of(&p, &group);
-    for _ in 0..6 {
-        let wanted = solve_group(&p, rule, &group)?;
-        let before = thickness;
-        thickness = build(&mut p, &group, wanted, &styles, options)?;
-        if (thickness / before - 1.0).abs() < 1e-6 {
-            break;
-        }
-    }
+    let group = Group::of(
+        built_layer(&p.stackup.layers[idx]).ok_or_else(not_built)?,
+        vec![idx],
+    );
+    let styles = options.allowed_styles();
+    // The reason when no thickness of this layer puts the rule on target; then the same secant steps as the
+    // proposal, on the rule as the project holds it.
+    solve_group(&p, rule, &group)?;
+    let r = p
+        .rules
+        .iter()
+        .position(|x| x.name == rule.name)
+        .ok_or_else(|| Error::Invalid {
+            field: "rule".into(),
+            reason: format!("no rule named {:?} in the project", rule.name),
+        })?;
+    settle(&mut p, &group, &[r], &styles, options)?;
     let fixed = ImpedanceRule {
         solve: Solve::Nothing,
         ..rule.clone()
     };
     let z = crate::plan::rule::evaluate_rule(&p, &fixed)?.impedance_ohm;
-    let d = built_layer(&p.stackup.layers[idx]).ok_or_else(|| Error::Invalid {
-        field: "layer".into(),
-        reason: format!("{layer:?} is not a core or a prepreg"),
-    })?;
+    let d = built_layer(&p.stackup.layers[idx]).ok_or_else(not_built)?;
     Ok(SnappedThickness {
         layer: layer.to_string(),
         construction: d.construction.clone().unwrap_or_else(|| {
