@@ -228,6 +228,10 @@ def test_presets_and_add_remove(driver):
     wait_saved(driver, lambda p: len(p["stackup"]) == n_layers + 1, "layer duplicated")
     driver.find_element(By.ID, "layer-1-remove").click()
     wait_saved(driver, lambda p: len(p["stackup"]) == n_layers, "layer removed")
+    # "Add rule" sits under the rule cards, which grow when their routing figures land: a click while they land
+    # can find the button moved (the gate's flake). The figures are in first, as a user would see them.
+    browser.wait_for(lambda: driver.find_element(By.ID, "app").get_attribute("data-settled") == "true",
+                     timeout=120, what="the figures settled")
     driver.find_element(By.ID, "add-rule").click()
     p = wait_saved(driver, lambda p: len(p["rules"]) == n_rules + 1, "rule added")
     new = core_plan(p)["rules"][n_rules]

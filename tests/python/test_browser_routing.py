@@ -170,6 +170,8 @@ def test_the_app_proposes_the_stack_the_cli_proposes(driver):
     w.put_local_work(driver, project)
     w.open_app(driver)
     w.wait_title(driver, project["title"])
+    # The button sits under the rule cards, which grow as their figures land: click once they are in.
+    w.wait_settled(driver)
     driver.find_element(By.CSS_SELECTOR, "[data-testid='propose-stack']").click()
     status = browser.wait_for(
         lambda: (lambda el: el if el and "Proposing" not in el[0].text else None)(
